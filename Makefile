@@ -1,0 +1,49 @@
+# Quick start: `make demo` builds the demo brief into out/demo/, `make test` runs lint and tests.
+# Both work on a fresh Debian machine with Python 3.11+: they install what they need.
+PYTHON ?= python3
+VENV := .venv
+BIN := $(VENV)/bin
+STAMP := $(VENV)/.installed
+TEST_STAMP := $(VENV)/.installed-test
+
+.PHONY: demo test lint bench example system-deps clean
+
+# WeasyPrint needs Pango and a font; install them with apt when missing (CI and fresh machines run as root).
+system-deps:
+	@if ! ldconfig -p | grep -q libpango-1.0 || ! fc-list 2>/dev/null | grep -qi dejavu; then \
+		echo "installing Pango and DejaVu fonts with apt-get"; \
+		apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq \
+			libpango-1.0-0 libpangoft2-1.0-0 libharfbuzz-subset0 fonts-dejavu-core fontconfig >/dev/null; \
+	fi
+
+$(BIN)/python:
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/pip install -q --upgrade pip
+
+$(STAMP): pyproject.toml | $(BIN)/python
+	$(BIN)/pip install -q -e .
+	touch $@
+
+$(TEST_STAMP): pyproject.toml | $(BIN)/python
+	$(BIN)/pip install -q -e '.[test]'
+	touch $@ $(STAMP)
+
+demo: system-deps $(STAMP)
+	$(BIN)/briefgen demo --out out/demo
+
+lint: $(TEST_STAMP)
+	$(BIN)/ruff check briefgen tests benchmarks
+	$(BIN)/ruff format --check briefgen tests benchmarks
+
+test: system-deps $(TEST_STAMP) lint
+	$(BIN)/pytest -q
+
+# Rebuild the committed example brief with a fixed date, so unchanged output gives unchanged bytes.
+example: system-deps $(STAMP)
+	SOURCE_DATE_EPOCH=1796169600 $(BIN)/briefgen demo --out example_output
+
+bench: $(TEST_STAMP)
+	$(BIN)/python benchmarks/run.py
+
+clean:
+	rm -rf out build *.egg-info .pytest_cache .ruff_cache

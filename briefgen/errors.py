@@ -1,0 +1,38 @@
+"""One hierarchy of errors, each carrying a sentence for a person.
+
+Library code raises these; only the command line turns them into exit codes.
+"""
+
+from __future__ import annotations
+
+
+class BriefError(Exception):
+    """Base class: ``message`` says what is wrong, ``hint`` what to do about it."""
+
+    exit_code = 1
+
+    def __init__(self, message: str, hint: str | None = None) -> None:
+        super().__init__(message)
+        self.message = message
+        self.hint = hint
+
+    def __str__(self) -> str:
+        return self.message if not self.hint else f"{self.message} {self.hint}"
+
+
+class ConfigError(BriefError):
+    """The YAML config is missing, unreadable or says something invalid."""
+
+    exit_code = 2
+
+
+class DataError(BriefError):
+    """The data file cannot be opened or does not fit the config."""
+
+    exit_code = 3
+
+
+class RenderError(BriefError):
+    """The brief could not be written."""
+
+    exit_code = 4

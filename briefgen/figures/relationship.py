@@ -1,0 +1,67 @@
+"""Target against one predictor: sampled points, the fitted line and its band.
+
+Points come from the seeded sample (at most a few thousand), so file size does
+not grow with the data; the line and band come from the full-data fit.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from briefgen.figures.theme import BAND, LINE, POINT, Chart, new_figure, themed, to_svg
+from briefgen.numbers import fmt, fmt_count
+from briefgen.stats.regression import RegressionFit
+from briefgen.stats.sample import Sample
+
+
+def relationship_chart(
+    fit: RegressionFit,
+    sample: Sample,
+    x_label: str,
+    y_label: str,
+    decimals: int,
+    x_decimals: int,
+    confidence: float,
+) -> Chart | None:
+    """Scatter of the sample with the least-squares line and its confidence band."""
+    if fit.slope is None or fit.residual_sd is None:
+        return None
+    xs = np.array([np.nan if v is None else v for v in sample.x[fit.predictor]], dtype=float)
+    ys = np.array(sample.y, dtype=float)
+    keep = np.isfinite(xs) & np.isfinite(ys)
+    grid = np.linspace(fit.x_min, fit.x_max, 120)
+    bands = np.array([fit.band(x, confidence) for x in grid])
+    with themed():
+        figure = new_figure(3.1)
+        axes = figure.subplots()
+        axes.scatter(
+            xs[keep], ys[keep], s=5, color=POINT, alpha=0.35, linewidths=0, rasterized=True
+        )
+        axes.fill_between(grid, bands[:, 0], bands[:, 1], color=BAND, alpha=0.8, linewidth=0)
+        axes.plot(grid, fit.intercept + fit.slope * grid, color=LINE, linewidth=2)
+        axes.set_xlabel(x_label)
+        axes.set_ylabel(y_label)
+        svg = to_svg(figure)
+    shown = int(keep.sum())
+    points = (
+        f"all {fmt_count(shown)} rows"
+        if shown >= fit.n
+        else f"a seeded random sample of {fmt_count(shown)} of the {fmt_count(fit.n)} rows"
+    )
+    caption = (
+        f"{y_label} against {x_label.lower()}. Points: {points}. Line: least-squares fit on all "
+        f"{fmt_count(fit.n)} rows with both values; shaded: {confidence:.0%} confidence band of the line. "
+        f"Slope {fmt(fit.slope, decimals)} per unit, R² {fit.r_squared:.2f}."
+    )
+    alt = (
+        f"Scatter plot of {y_label.lower()} against {x_label.lower()} with a rising"
+        if fit.slope > 0
+        else f"Scatter plot of {y_label.lower()} against {x_label.lower()} with a falling"
+    ) + f" fitted line; each unit adds {fmt(fit.slope, decimals)} on average."
+    return Chart(
+        key=f"fit-{fit.predictor}",
+        title=f"{y_label} against {x_label}",
+        svg=svg,
+        alt=alt,
+        caption=caption,
+    )

@@ -1,0 +1,103 @@
+"""Palette, fonts and sizes shared by every chart kind.
+
+Figures are drawn at the size they print (A4 text width), so 8 pt in the theme
+is 8 pt on paper. Colours are Okabe & Ito (2008); each also differs in lightness
+so a grayscale printer keeps them apart, and marks reach 3:1 contrast on white
+(WCAG 2.1, 1.4.11).
+"""
+
+from __future__ import annotations
+
+import base64
+import io
+from contextlib import contextmanager
+from dataclasses import dataclass
+
+import matplotlib
+
+matplotlib.use("Agg")
+import matplotlib.pyplot as plt  # noqa: E402
+from matplotlib.figure import Figure  # noqa: E402
+
+# Okabe & Ito (2008), "Color Universal Design".
+OKABE_ITO = {
+    "black": "#000000",
+    "orange": "#E69F00",
+    "sky_blue": "#56B4E9",
+    "bluish_green": "#009E73",
+    "yellow": "#F0E442",
+    "blue": "#0072B2",
+    "vermillion": "#D55E00",
+    "reddish_purple": "#CC79A7",
+}
+INK = "#1a1a1a"
+MUTED = "#595959"  # 7:1 on white: text-safe gray
+BOX_FILL = "#cfe3f1"  # light tint of Okabe-Ito blue; the box edge carries the contrast
+LINE = OKABE_ITO["blue"]
+ACCENT = OKABE_ITO["vermillion"]
+BAND = "#9ecae9"
+POINT = "#7f7f7f"
+
+TEXT_WIDTH_IN = 6.7  # A4 (210 mm) less 2 × 20 mm margins ≈ 170 mm
+MIN_FONT_PT = 8
+
+RC = {
+    "font.family": "DejaVu Sans",
+    "font.size": 8.5,
+    "axes.titlesize": 9.5,
+    "axes.titleweight": "bold",
+    "axes.titlelocation": "left",
+    "axes.labelsize": 8.5,
+    "axes.edgecolor": MUTED,
+    "axes.labelcolor": INK,
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "axes.grid": True,
+    "grid.color": "#e3e3e3",
+    "grid.linewidth": 0.6,
+    "xtick.labelsize": 8,
+    "ytick.labelsize": 8,
+    "xtick.color": INK,
+    "ytick.color": INK,
+    "legend.fontsize": 8,
+    "legend.frameon": False,
+    "svg.fonttype": "none",  # keep text as text: searchable and read aloud in the PDF
+    "svg.hashsalt": "briefgen",  # stable element ids, so builds are byte-identical
+    "figure.dpi": 100,
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Chart:
+    """A drawn figure: SVG text plus the words that travel with it."""
+
+    key: str
+    title: str
+    svg: str
+    alt: str
+    caption: str
+
+    @property
+    def data_uri(self) -> str:
+        encoded = base64.b64encode(self.svg.encode("utf-8")).decode("ascii")
+        return f"data:image/svg+xml;base64,{encoded}"
+
+
+@contextmanager
+def themed():
+    """Apply the theme without leaking it into the caller's matplotlib state."""
+    with matplotlib.rc_context(RC):
+        yield
+
+
+def new_figure(height_in: float, width_in: float = TEXT_WIDTH_IN) -> Figure:
+    """An explicit Figure (no pyplot state), sized as it will print."""
+    return Figure(figsize=(width_in, height_in), layout="constrained")
+
+
+def to_svg(figure: Figure) -> str:
+    buffer = io.StringIO()
+    # dpi only affects rasterized artists (dense scatter points), keeping files small.
+    figure.savefig(buffer, format="svg", metadata={"Date": None}, dpi=200)
+    plt.close(figure)
+    return buffer.getvalue()

@@ -1,0 +1,50 @@
+"""How numbers are written in the brief: one formatter, used by text, tables and figures.
+
+The number of decimals follows the spread of the measure, not its size, so a
+value near 1e12 with spread 0.1 keeps the digits that differ between groups.
+"""
+
+from __future__ import annotations
+
+import math
+
+
+def decimals_for(spread: float | None, significant: int = 3) -> int:
+    """Decimals that show ``significant`` digits of a typical difference of size ``spread``."""
+    if spread is None or not math.isfinite(spread) or spread <= 0:
+        return 2
+    return max(0, min(10, significant - 1 - math.floor(math.log10(spread))))
+
+
+def fmt(value: float | None, decimals: int) -> str:
+    """Thousands separators, fixed decimals, a real minus sign; a dash for no value."""
+    if value is None or (isinstance(value, float) and not math.isfinite(value)):
+        return "–"
+    text = f"{value:,.{decimals}f}"
+    if text.lstrip("-").strip("0.,") == "":
+        text = text.lstrip("-")  # never print "-0.0"
+    return text.replace("-", "−")
+
+
+def fmt_count(value: int) -> str:
+    return f"{value:,}"
+
+
+def fmt_percent(value: float | None, decimals: int = 0) -> str:
+    if value is None or not math.isfinite(value):
+        return "–"
+    return fmt(100 * value, decimals) + "%"
+
+
+def fmt_p(p: float | None) -> str:
+    """p-values the way journals print them: two significant digits, floor at 0.001."""
+    if p is None or not math.isfinite(p):
+        return "–"
+    if p < 0.001:
+        return "< 0.001"
+    return f"{p:.2g}" if p < 0.1 else f"{p:.2f}"
+
+
+def parse_number(text: str) -> float:
+    """Inverse of ``fmt`` for tests and checks: '−1,234.5' ─► -1234.5."""
+    return float(text.replace("−", "-").replace(",", "").rstrip("%"))

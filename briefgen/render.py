@@ -1,0 +1,90 @@
+"""Render stage: Jinja2 ─► brief.html, WeasyPrint ─► brief.pdf, results ─► stats.json.
+
+Returns bytes; writing them to disk is deliver's job, so a failed render never
+touches the previous brief.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import json
+import logging
+import math
+from importlib import resources
+
+import jinja2
+from markupsafe import Markup
+
+from briefgen import __version__
+from briefgen.config import BriefSpec
+from briefgen.document import Document
+from briefgen.errors import RenderError
+from briefgen.stats import BriefStats
+
+log = logging.getLogger(__name__)
+
+
+def _environment() -> jinja2.Environment:
+    return jinja2.Environment(
+        loader=jinja2.PackageLoader("briefgen", "templates"),
+        autoescape=jinja2.select_autoescape(["html", "j2"], default=True),
+        undefined=jinja2.StrictUndefined,
+        trim_blocks=True,
+        lstrip_blocks=True,
+    )
+
+
+def render_html(doc: Document, spec: BriefSpec) -> str:
+    """The self-contained HTML brief: inline CSS, figures as SVG data URIs."""
+    css = resources.files("briefgen").joinpath("templates/brief.css").read_text(encoding="utf-8")
+    template = _environment().get_template("brief.html.j2")
+    # The stylesheet ships with the package and is trusted; autoescaping stays on for all data.
+    return template.render(
+        doc=doc, css=Markup(css), description=spec.description, version=__version__
+    )
+
+
+def render_pdf(html: str) -> bytes:
+    """Tagged PDF (PDF/UA-1) with embedded fonts; figure alt text becomes /Alt."""
+    try:
+        import weasyprint
+    except OSError as exc:  # missing Pango or another system library
+        raise RenderError(
+            f"the PDF engine could not start ({exc}).",
+            "Install the system libraries WeasyPrint needs (see README), or drop 'pdf' from output.formats.",
+        ) from None
+    logging.getLogger("weasyprint").setLevel(logging.ERROR)
+    logging.getLogger("fontTools").setLevel(logging.ERROR)
+    return weasyprint.HTML(string=html, base_url=None).write_pdf(pdf_variant="pdf/ua-1")
+
+
+def _plain(value):
+    """Dataclasses ─► JSON-ready values; NaN and infinities become null."""
+    if dataclasses.is_dataclass(value) and not isinstance(value, type):
+        return {f.name: _plain(getattr(value, f.name)) for f in dataclasses.fields(value)}
+    if isinstance(value, dict):
+        return {str(k): _plain(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_plain(v) for v in value]
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if hasattr(value, "item"):  # numpy scalars
+        return _plain(value.item())
+    return value
+
+
+def render_json(stats: BriefStats, spec: BriefSpec, built_on: str) -> str:
+    """Every number the brief shows, at full precision, with documented names (README)."""
+    payload = {
+        "briefgen_version": __version__,
+        "title": spec.title,
+        "built_on": built_on,
+        "data": spec.data.path,
+        "target": spec.target,
+        "groups": list(spec.groups),
+        "predictors": list(spec.predictors),
+        "stats": _plain(stats),
+    }
+    payload["stats"].pop("sample", None)
+    payload["sample_size"] = stats.sample.size
+    return json.dumps(payload, indent=2, ensure_ascii=False, allow_nan=False) + "\n"

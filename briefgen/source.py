@@ -1,0 +1,101 @@
+"""Open the data as an Ibis table on an engine and check it fits the spec.
+
+Only the schema is read here; rows stay in the engine. DuckDB is the default
+engine; any Ibis backend that can read the table runs the same statistics.
+"""
+
+from __future__ import annotations
+
+import difflib
+import logging
+from dataclasses import dataclass
+
+import ibis
+import ibis.expr.datatypes as dt
+import ibis.expr.types as ir
+
+from briefgen.config import BriefSpec
+from briefgen.errors import DataError
+
+log = logging.getLogger(__name__)
+
+
+@dataclass(frozen=True, slots=True)
+class Source:
+    """The table to analyse and where it came from (for messages and the brief)."""
+
+    table: ir.Table
+    label: str
+
+
+def open_source(spec: BriefSpec) -> Source:
+    """Open the configured file through Ibis on DuckDB and check its columns."""
+    path = spec.data_path
+    label = spec.data.path
+    if not path.exists():
+        raise DataError(f"{label}: data file not found (looked in {path}); check data.path.")
+    con = ibis.duckdb.connect()
+    try:
+        table = con.read_parquet(path) if spec.data_format == "parquet" else con.read_csv(path)
+        table.schema()
+    except Exception as exc:  # the engine's own exception types vary by backend
+        first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+        raise DataError(
+            f"{label}: cannot be read as {spec.data_format.upper()} ({first}); "
+            "check the file or set data.format."
+        ) from None
+    check_columns(table, spec, label)
+    log.info("opened %s with %d columns", label, len(table.columns))
+    return Source(table=table, label=label)
+
+
+def _missing_column(name: str, key: str, columns: list[str], label: str) -> DataError:
+    close = difflib.get_close_matches(name, columns, n=1, cutoff=0.6)
+    hint = f"did you mean '{close[0]}'?" if close else f"columns are: {', '.join(columns)}."
+    return DataError(f"{label}: column '{name}' named by '{key}' is not in the data; {hint}")
+
+
+def check_columns(table: ir.Table, spec: BriefSpec, label: str) -> None:
+    """Every column the spec names exists and has a usable type."""
+    schema = table.schema()
+    columns = list(schema.names)
+    wanted = [("target", spec.target)]
+    wanted += [(f"groups[{i}]", g) for i, g in enumerate(spec.groups)]
+    wanted += [(f"predictors[{i}]", p) for i, p in enumerate(spec.predictors)]
+    if spec.time is not None:
+        wanted.append(("time", spec.time.column))
+    for i, pair in enumerate(spec.cross or []):
+        wanted += [(f"cross[{i}]", name) for name in pair]
+    for key, name in wanted:
+        if name not in schema:
+            raise _missing_column(name, key, columns, label)
+    for key, name in [("target", spec.target)] + [
+        (f"predictors[{i}]", p) for i, p in enumerate(spec.predictors)
+    ]:
+        if not schema[name].is_numeric():
+            raise DataError(
+                f"{label}: column '{name}' named by '{key}' holds {schema[name]}, not numbers; "
+                "name a numeric column."
+            )
+    if spec.time is not None:
+        kind = schema[spec.time.column]
+        if not (kind.is_temporal() or kind.is_string()):
+            raise DataError(
+                f"{label}: column '{spec.time.column}' named by 'time' holds {kind}, "
+                "not dates; name a date or timestamp column."
+            )
+    if spec.target in spec.groups or spec.target in spec.predictors:
+        raise DataError(
+            f"{label}: the target '{spec.target}' is also listed as a group or predictor; remove it there."
+        )
+
+
+def numeric(table: ir.Table, name: str) -> ir.FloatingColumn:
+    """A numeric column as float64, with NaN and infinities treated as missing."""
+    column = table[name].cast(dt.float64)
+    return ibis.ifelse(column.isnan() | column.isinf(), ibis.null(dt.float64), column)
+
+
+def category(table: ir.Table, name: str) -> ir.StringColumn:
+    """A grouping column as text, so numbers-as-codes group like labels."""
+    return table[name].cast(dt.string)

@@ -1,0 +1,191 @@
+"""Ordinary least squares of the target on each predictor, from centred sums.
+
+Four aggregate passes, each one query for all predictors: reference medians,
+exact means (median-shifted), centred cross-products, and the residual sum of
+squares around the fitted line. Never Σx² − n·x̄² on raw values: on data with a
+large offset that formula loses every significant digit.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import ibis.expr.types as ir
+from scipy import stats as scipy_stats
+
+
+@dataclass(frozen=True, slots=True)
+class RegressionFit:
+    """Straight-line fit of the target on one predictor, over rows with both values.
+
+    ``residual_sd`` is s = √(SSE/(n−2)); with ``x_mean`` and ``sxx`` it gives the
+    confidence band of the line at any x: s·√(1/n + (x − x̄)²/Sxx).
+    """
+
+    predictor: str
+    n: int
+    slope: float | None
+    slope_se: float | None
+    slope_ci_low: float | None
+    slope_ci_high: float | None
+    intercept: float | None
+    intercept_se: float | None
+    intercept_ci_low: float | None
+    intercept_ci_high: float | None
+    r_squared: float | None
+    pearson_r: float | None
+    residual_sd: float | None
+    x_mean: float | None
+    y_mean: float | None
+    sxx: float | None
+    x_min: float | None
+    x_max: float | None
+
+    def band(self, x: float, confidence: float) -> tuple[float, float]:
+        """Confidence interval of the fitted mean at ``x``."""
+        fitted = self.intercept + self.slope * x
+        t = scipy_stats.t.ppf(0.5 + confidence / 2, self.n - 2)
+        half = t * self.residual_sd * math.sqrt(1 / self.n + (x - self.x_mean) ** 2 / self.sxx)
+        return fitted - half, fitted + half
+
+
+def _columns(frame: ir.Table, predictor: str):
+    x, y = frame[predictor], frame.y
+    both = x.notnull() & y.notnull()
+    return x, y, both
+
+
+def fit_lines(
+    frame: ir.Table, predictors: list[str], confidence: float
+) -> tuple[RegressionFit, ...]:
+    """Fit ``y`` on each predictor column of ``frame`` (columns already float, NaN as null)."""
+    if not predictors:
+        return ()
+    first = {}
+    for i, p in enumerate(predictors):
+        x, y, both = _columns(frame, p)
+        first |= {
+            f"n{i}": both.sum(),
+            f"xr{i}": x.quantile(0.5, where=both),
+            f"yr{i}": y.quantile(0.5, where=both),
+            f"xmin{i}": x.min(where=both),
+            f"xmax{i}": x.max(where=both),
+        }
+    refs = frame.aggregate(**first).to_pyarrow().to_pylist()[0]
+
+    means_expr = {}
+    for i, p in enumerate(predictors):
+        x, y, both = _columns(frame, p)
+        if refs[f"n{i}"]:
+            means_expr[f"dx{i}"] = (x - refs[f"xr{i}"]).mean(where=both)
+            means_expr[f"dy{i}"] = (y - refs[f"yr{i}"]).mean(where=both)
+    means = frame.aggregate(**means_expr).to_pyarrow().to_pylist()[0] if means_expr else {}
+    centre = {
+        i: (refs[f"xr{i}"] + means[f"dx{i}"], refs[f"yr{i}"] + means[f"dy{i}"])
+        for i in range(len(predictors))
+        if refs[f"n{i}"]
+    }
+
+    sums_expr = {}
+    for i, (x_mean, y_mean) in centre.items():
+        x, y, both = _columns(frame, predictors[i])
+        dx, dy = x - x_mean, y - y_mean
+        sums_expr |= {
+            f"sxx{i}": (dx * dx).sum(where=both),
+            f"sxy{i}": (dx * dy).sum(where=both),
+            f"syy{i}": (dy * dy).sum(where=both),
+        }
+    sums = frame.aggregate(**sums_expr).to_pyarrow().to_pylist()[0] if sums_expr else {}
+    slopes = {
+        i: sums[f"sxy{i}"] / sums[f"sxx{i}"]
+        for i in centre
+        if refs[f"n{i}"] >= 2 and sums[f"sxx{i}"] and sums[f"sxx{i}"] > 0
+    }
+
+    sse_expr = {}
+    for i, slope in slopes.items():
+        x, y, both = _columns(frame, predictors[i])
+        x_mean, y_mean = centre[i]
+        residual = (y - y_mean) - slope * (x - x_mean)
+        sse_expr[f"sse{i}"] = (residual * residual).sum(where=both)
+    sse = frame.aggregate(**sse_expr).to_pyarrow().to_pylist()[0] if sse_expr else {}
+
+    fits = []
+    for i, p in enumerate(predictors):
+        fits.append(
+            _assemble(
+                p,
+                int(refs[f"n{i}"] or 0),
+                centre.get(i),
+                sums,
+                slopes.get(i),
+                sse.get(f"sse{i}"),
+                i,
+                refs[f"xmin{i}"],
+                refs[f"xmax{i}"],
+                confidence,
+            )
+        )
+    return tuple(fits)
+
+
+def _assemble(predictor, n, centre, sums, slope, sse, i, x_min, x_max, confidence) -> RegressionFit:
+    empty = dict.fromkeys(
+        (
+            "slope",
+            "slope_se",
+            "slope_ci_low",
+            "slope_ci_high",
+            "intercept",
+            "intercept_se",
+            "intercept_ci_low",
+            "intercept_ci_high",
+            "r_squared",
+            "pearson_r",
+            "residual_sd",
+            "sxx",
+        ),
+    )
+    x_mean, y_mean = centre if centre else (None, None)
+    if slope is None or n < 3:
+        values = empty | {"sxx": sums.get(f"sxx{i}")}
+        if slope is not None:
+            values |= {"slope": slope, "intercept": y_mean - slope * x_mean}
+        return RegressionFit(
+            predictor=predictor,
+            n=n,
+            x_mean=x_mean,
+            y_mean=y_mean,
+            x_min=x_min,
+            x_max=x_max,
+            **values,
+        )
+    sxx, sxy, syy = sums[f"sxx{i}"], sums[f"sxy{i}"], sums[f"syy{i}"]
+    intercept = y_mean - slope * x_mean
+    residual_sd = math.sqrt(max(sse, 0.0) / (n - 2))
+    slope_se = residual_sd / math.sqrt(sxx)
+    intercept_se = residual_sd * math.sqrt(1 / n + x_mean * x_mean / sxx)
+    t = scipy_stats.t.ppf(0.5 + confidence / 2, n - 2)
+    r_squared = 1 - sse / syy if syy > 0 else None
+    pearson_r = sxy / math.sqrt(sxx * syy) if syy > 0 else None
+    return RegressionFit(
+        predictor=predictor,
+        n=n,
+        slope=slope,
+        slope_se=slope_se,
+        slope_ci_low=slope - t * slope_se,
+        slope_ci_high=slope + t * slope_se,
+        intercept=intercept,
+        intercept_se=intercept_se,
+        intercept_ci_low=intercept - t * intercept_se,
+        intercept_ci_high=intercept + t * intercept_se,
+        r_squared=r_squared,
+        pearson_r=pearson_r,
+        residual_sd=residual_sd,
+        x_mean=x_mean,
+        y_mean=y_mean,
+        sxx=sxx,
+        x_min=x_min,
+        x_max=x_max,
+    )

@@ -1,0 +1,48 @@
+"""A seeded, bounded sample of rows for scatter plots.
+
+Rows are ranked by a hash of their values salted with the seed, and the first
+``size`` are taken. Unlike engine sampling clauses, the result does not depend on
+thread scheduling, so the same data and seed always give the same points.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import ibis
+import ibis.expr.types as ir
+
+SAMPLE_SIZE = 5000
+SEED = 20240917
+
+
+@dataclass(frozen=True, slots=True)
+class Sample:
+    """Up to ``size`` rows: the target and each predictor, as parallel tuples."""
+
+    rows_available: int
+    y: tuple[float, ...]
+    x: dict[str, tuple[float | None, ...]]
+
+    @property
+    def size(self) -> int:
+        return len(self.y)
+
+
+def draw_sample(
+    frame: ir.Table, predictors: list[str], size: int = SAMPLE_SIZE, seed: int = SEED
+) -> Sample:
+    """Seeded sample of rows with a target value; ``frame`` has ``y`` and the predictors."""
+    usable = frame.filter(frame.y.notnull())
+    available = int(usable.count().to_pyarrow().as_py())
+    key = ibis.literal(str(seed))
+    for name in ["y", *predictors]:
+        key = key + "|" + usable[name].cast("string").fill_null("")
+    ranked = usable.mutate(_order=key.hash())
+    chosen = ranked.order_by(["_order", "y", *predictors]).limit(size).select("y", *predictors)
+    columns = chosen.to_pyarrow().to_pydict()
+    return Sample(
+        rows_available=available,
+        y=tuple(float(v) for v in columns["y"]),
+        x={p: tuple(None if v is None else float(v) for v in columns[p]) for p in predictors},
+    )
