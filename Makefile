@@ -8,9 +8,10 @@ TEST_STAMP := $(VENV)/.installed-test
 
 .PHONY: demo test lint bench example system-deps clean
 
-# WeasyPrint needs Pango and a font; install them with apt when missing (CI and fresh machines run as root).
+# WeasyPrint needs Pango, HarfBuzz's subsetter (repeatable font subsets) and a font; install them with apt when missing (CI and fresh machines run as root).
 system-deps:
-	@if ! ldconfig -p | grep -q libpango-1.0 || ! fc-list 2>/dev/null | grep -qi dejavu; then \
+	@if ! ldconfig -p | grep -q libpango-1.0 || ! ldconfig -p | grep -q libharfbuzz-subset \
+		|| ! fc-list 2>/dev/null | grep -qi dejavu; then \
 		echo "installing Pango and DejaVu fonts with apt-get"; \
 		apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq \
 			libpango-1.0-0 libpangoft2-1.0-0 libharfbuzz-subset0 fonts-dejavu-core fontconfig >/dev/null; \

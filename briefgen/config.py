@@ -8,6 +8,7 @@ to open the YAML file in an editor.
 from __future__ import annotations
 
 import difflib
+import os
 from pathlib import Path
 from typing import Any, Literal
 
@@ -85,7 +86,7 @@ class BriefSpec(_Strict):
     @property
     def data_path(self) -> Path:
         path = Path(self.data.path).expanduser()
-        return path if path.is_absolute() else self.base_dir / path
+        return path if path.is_absolute() else Path(os.path.normpath(self.base_dir / path))
 
     @property
     def data_format(self) -> str:
@@ -105,7 +106,7 @@ class BriefSpec(_Strict):
         if override is not None:
             return Path(override)
         path = Path(self.output.dir).expanduser()
-        return path if path.is_absolute() else self.base_dir / path
+        return path if path.is_absolute() else Path(os.path.normpath(self.base_dir / path))
 
 
 def _line_index(node: yaml.Node, prefix: tuple = (), index: dict | None = None) -> dict:

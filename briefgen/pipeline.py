@@ -51,7 +51,7 @@ def build_brief(
         if "html" in formats:
             files["brief.html"] = html.encode("utf-8")
         if "pdf" in formats:
-            files["brief.pdf"] = render_pdf(html)
+            files["brief.pdf"] = render_pdf(html, built_on)
     if "json" in formats:
         files["stats.json"] = render_json(stats, spec, built_on).encode("utf-8")
     written = write_outputs(spec.output_dir(out_dir), files)

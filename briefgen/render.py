@@ -6,10 +6,13 @@ touches the previous brief.
 
 from __future__ import annotations
 
+import contextlib
 import dataclasses
+import datetime as dt
 import json
 import logging
 import math
+import os
 from importlib import resources
 
 import jinja2
@@ -44,7 +47,26 @@ def render_html(doc: Document, spec: BriefSpec) -> str:
     )
 
 
-def render_pdf(html: str) -> bytes:
+@contextlib.contextmanager
+def _fixed_font_timestamp(built_on: str):
+    """Pin font-subset timestamps to the build date.
+
+    Without HarfBuzz's subsetter WeasyPrint falls back to fontTools, which stamps
+    each subset with the current time unless SOURCE_DATE_EPOCH is set.
+    """
+    previous = os.environ.get("SOURCE_DATE_EPOCH")
+    day = dt.datetime.fromisoformat(built_on).replace(tzinfo=dt.UTC)
+    os.environ["SOURCE_DATE_EPOCH"] = str(int(day.timestamp()))
+    try:
+        yield
+    finally:
+        if previous is None:
+            os.environ.pop("SOURCE_DATE_EPOCH", None)
+        else:
+            os.environ["SOURCE_DATE_EPOCH"] = previous
+
+
+def render_pdf(html: str, built_on: str) -> bytes:
     """Tagged PDF (PDF/UA-1) with embedded fonts; figure alt text becomes /Alt."""
     try:
         import weasyprint
@@ -55,7 +77,8 @@ def render_pdf(html: str) -> bytes:
         ) from None
     logging.getLogger("weasyprint").setLevel(logging.ERROR)
     logging.getLogger("fontTools").setLevel(logging.ERROR)
-    return weasyprint.HTML(string=html, base_url=None).write_pdf(pdf_variant="pdf/ua-1")
+    with _fixed_font_timestamp(built_on):
+        return weasyprint.HTML(string=html, base_url=None).write_pdf(pdf_variant="pdf/ua-1")
 
 
 def _plain(value):

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import base64
 import io
+import re
 from contextlib import contextmanager
 from dataclasses import dataclass
 
@@ -100,4 +101,18 @@ def to_svg(figure: Figure) -> str:
     # dpi only affects rasterized artists (dense scatter points), keeping files small.
     figure.savefig(buffer, format="svg", metadata={"Date": None}, dpi=200)
     plt.close(figure)
-    return buffer.getvalue()
+    return _stable_ids(buffer.getvalue())
+
+
+_CLIP_ID = re.compile(r'id="(p[0-9a-f]{10})"')
+
+
+def _stable_ids(svg: str) -> str:
+    """Number clip-path ids in order of appearance.
+
+    matplotlib derives some clip ids from object addresses, which change from run to
+    run even with a fixed svg.hashsalt; renumbering makes the bytes repeatable.
+    """
+    for number, old in enumerate(dict.fromkeys(_CLIP_ID.findall(svg)), start=1):
+        svg = svg.replace(old, f"clip{number}")
+    return svg

@@ -95,7 +95,7 @@ def _interval(
 ) -> tuple[float | None, float | None]:
     if sd is None or n < 2:
         return None, None
-    half = scipy_stats.t.ppf(0.5 + confidence / 2, n - 1) * sd / math.sqrt(n)
+    half = float(scipy_stats.t.ppf(0.5 + confidence / 2, n - 1)) * sd / math.sqrt(n)
     return mean - half, mean + half
 
 

@@ -45,7 +45,7 @@ class RegressionFit:
     def band(self, x: float, confidence: float) -> tuple[float, float]:
         """Confidence interval of the fitted mean at ``x``."""
         fitted = self.intercept + self.slope * x
-        t = scipy_stats.t.ppf(0.5 + confidence / 2, self.n - 2)
+        t = float(scipy_stats.t.ppf(0.5 + confidence / 2, self.n - 2))
         half = t * self.residual_sd * math.sqrt(1 / self.n + (x - self.x_mean) ** 2 / self.sxx)
         return fitted - half, fitted + half
 
@@ -88,9 +88,17 @@ def fit_lines(
     }
 
     sums_expr = {}
-    for i, (x_mean, y_mean) in centre.items():
+
+    def deviations(i: int):
+        # Deviation from the mean as (value − reference) − mean shift: the reference is a data
+        # value, so the first difference is exact, and the rounded mean never meets the offset.
         x, y, both = _columns(frame, predictors[i])
-        dx, dy = x - x_mean, y - y_mean
+        dx = (x - refs[f"xr{i}"]) - means[f"dx{i}"]
+        dy = (y - refs[f"yr{i}"]) - means[f"dy{i}"]
+        return dx, dy, both
+
+    for i in centre:
+        dx, dy, both = deviations(i)
         sums_expr |= {
             f"sxx{i}": (dx * dx).sum(where=both),
             f"sxy{i}": (dx * dy).sum(where=both),
@@ -105,9 +113,8 @@ def fit_lines(
 
     sse_expr = {}
     for i, slope in slopes.items():
-        x, y, both = _columns(frame, predictors[i])
-        x_mean, y_mean = centre[i]
-        residual = (y - y_mean) - slope * (x - x_mean)
+        dx, dy, both = deviations(i)
+        residual = dy - slope * dx
         sse_expr[f"sse{i}"] = (residual * residual).sum(where=both)
     sse = frame.aggregate(**sse_expr).to_pyarrow().to_pylist()[0] if sse_expr else {}
 
@@ -166,7 +173,7 @@ def _assemble(predictor, n, centre, sums, slope, sse, i, x_min, x_max, confidenc
     residual_sd = math.sqrt(max(sse, 0.0) / (n - 2))
     slope_se = residual_sd / math.sqrt(sxx)
     intercept_se = residual_sd * math.sqrt(1 / n + x_mean * x_mean / sxx)
-    t = scipy_stats.t.ppf(0.5 + confidence / 2, n - 2)
+    t = float(scipy_stats.t.ppf(0.5 + confidence / 2, n - 2))
     r_squared = 1 - sse / syy if syy > 0 else None
     pearson_r = sxy / math.sqrt(sxx * syy) if syy > 0 else None
     return RegressionFit(

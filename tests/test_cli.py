@@ -1,0 +1,106 @@
+"""The command line: exit codes, one clear sentence per bad input, and no damage to the last brief."""
+
+from __future__ import annotations
+
+import shutil
+from pathlib import Path
+
+import pandas as pd
+import pytest
+
+from briefgen.cli import main
+
+ROWS = 40
+
+
+def _write_case(folder: Path, config_extra: str = "", **overrides) -> Path:
+    """A tiny data file and config; reference data for these tests is generated, not real."""
+    frame = pd.DataFrame(
+        {
+            "site": ["north", "south"] * (ROWS // 2),
+            "distance": [float(i % 7) for i in range(ROWS)],
+            "minutes": [10.0 + (i % 7) * 2 + (i % 3) for i in range(ROWS)],
+            "label": ["x"] * ROWS,
+        }
+    )
+    frame.to_csv(folder / "data.csv", index=False)
+    text = {
+        "title": "CLI check",
+        "path": "data.csv",
+        "target": "minutes",
+        "groups": "[site]",
+        "predictors": "[distance]",
+        "formats": "[html, json]",
+    } | overrides
+    config = folder / "brief.yaml"
+    config.write_text(
+        f"title: {text['title']}\n"
+        f"data:\n  path: {text['path']}\n"
+        f"target: {text['target']}\n"
+        f"groups: {text['groups']}\n"
+        f"predictors: {text['predictors']}\n"
+        f"output:\n  dir: out\n  formats: {text['formats']}\n" + config_extra
+    )
+    return config
+
+
+def test_build_writes_the_brief(tmp_path, capsys):
+    config = _write_case(tmp_path)
+    assert main(["build", str(config)]) == 0
+    assert (tmp_path / "out" / "brief.html").stat().st_size > 0
+    assert (tmp_path / "out" / "stats.json").stat().st_size > 0
+    assert not (tmp_path / "out" / "brief.pdf").exists()
+
+
+@pytest.mark.parametrize(
+    ("overrides", "expected", "code"),
+    [
+        (
+            {"target": "minuts"},
+            "column 'minuts' named by 'target' is not in the data; did you mean 'minutes'?",
+            3,
+        ),
+        ({"target": "label"}, "column 'label' named by 'target' holds string, not numbers", 3),
+        ({"groups": "[sitee]"}, "named by 'groups[0]' is not in the data; did you mean 'site'?", 3),
+        ({"path": "missing.csv"}, "missing.csv: data file not found", 3),
+        ({"formats": "[html, docx]"}, "key 'output.formats.1' is invalid", 2),
+    ],
+)
+def test_bad_input_gets_one_sentence_and_nonzero_exit(tmp_path, capsys, overrides, expected, code):
+    config = _write_case(tmp_path, **overrides)
+    assert main(["build", str(config)]) == code
+    err = capsys.readouterr().err
+    assert "Traceback" not in err
+    assert expected in " ".join(err.split())
+
+
+def test_unknown_key_names_the_line(tmp_path, capsys):
+    config = _write_case(tmp_path, config_extra="predictor: [x]\n")
+    assert main(["build", str(config)]) == 2
+    err = " ".join(capsys.readouterr().err.split())
+    assert "brief.yaml line 10: unknown key 'predictor'; did you mean 'predictors'?" in err
+
+
+def test_failed_build_leaves_the_previous_brief_untouched(tmp_path, capsys):
+    config = _write_case(tmp_path)
+    assert main(["build", str(config)]) == 0
+    before = {p.name: p.read_bytes() for p in (tmp_path / "out").iterdir()}
+    shutil.copy(tmp_path / "data.csv", tmp_path / "good.csv")
+    (tmp_path / "data.csv").write_text("site,distance,minutes,label\nnorth,1,not-a-number,x\n")
+    assert main(["build", str(config)]) != 0
+    after = {p.name: p.read_bytes() for p in (tmp_path / "out").iterdir()}
+    assert after == before
+
+
+def test_empty_target_is_reported(tmp_path, capsys):
+    config = _write_case(tmp_path)
+    (tmp_path / "data.csv").write_text("site,distance,minutes,label\nnorth,1,,x\nsouth,2,,x\n")
+    assert main(["build", str(config)]) != 0
+    err = " ".join(capsys.readouterr().err.split())
+    assert "Traceback" not in err and "minutes" in err
+
+
+def test_check_validates_without_building(tmp_path, capsys):
+    config = _write_case(tmp_path)
+    assert main(["check", str(config)]) == 0
+    assert not (tmp_path / "out").exists()
