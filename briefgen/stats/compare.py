@@ -1,0 +1,339 @@
+"""Comparisons of the target between the levels of one group variable.
+
+Two levels: Welch's t-test and the Welch interval of the difference of means.
+More: Welch's one-way ANOVA (Welch 1951), then every pair by Welch's t with
+Holm's (1979) step-down correction. The classical one-way ANOVA comes along for
+reference. When the residuals are strongly skewed (|g1| > 1, Bulmer 1979) a
+rank-based test runs as well and the brief leans on it.
+
+Everything here works from the per-level n, mean and sd that
+``briefgen.stats.groups.summarise_levels`` computed stably; only the skewness
+and the rank test go back to the engine (see ``briefgen.stats.ranks``). Means
+are compared as differences from one level's mean, never as large raw sums.
+"""
+
+from __future__ import annotations
+
+import logging
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass, replace
+from itertools import combinations
+
+import ibis.expr.types as ir
+from scipy import stats as scipy_stats
+
+from briefgen.stats.groups import Summary
+from briefgen.stats.ranks import STRONG_SKEW, RankTest, rank_test, within_level_skewness
+
+logger = logging.getLogger(__name__)
+
+
+@dataclass(frozen=True, slots=True)
+class PairwiseComparison:
+    """Welch's t-test of mean(level_a) − mean(level_b), with its interval and Holm p-value.
+
+    Statistic, df, p and interval are None when both levels have sd 0 (no spread,
+    so Welch's standard error is 0 and the test is undefined).
+    """
+
+    level_a: str
+    level_b: str
+    difference: float
+    ci_low: float | None
+    ci_high: float | None
+    t: float | None
+    df: float | None
+    p_value: float | None
+    p_holm: float | None
+
+
+@dataclass(frozen=True, slots=True)
+class ClassicalAnova:
+    """One-way ANOVA assuming equal variances, from per-level n, mean and sd.
+
+    ``residual_sd`` is √MSW, the pooled within-level standard deviation. ``f`` and
+    ``p_value`` are None when there is no within-level spread.
+    """
+
+    f: float | None
+    df_between: int
+    df_within: int
+    p_value: float | None
+    ss_between: float
+    ss_within: float
+    residual_sd: float | None
+    r_squared: float | None
+
+
+@dataclass(frozen=True, slots=True)
+class LevelEffect:
+    """How far one level's mean lies from the reference level and from the overall mean.
+
+    ``difference`` = mean − reference mean with a Welch interval; the percentages
+    divide by the absolute value of the reference (or overall) mean, so their sign
+    says above or below; None when that mean is 0.
+    """
+
+    level: str
+    n: int
+    mean: float
+    difference: float
+    ci_low: float | None
+    ci_high: float | None
+    percent_of_reference: float | None
+    percent_vs_overall: float | None
+
+
+@dataclass(frozen=True, slots=True)
+class GroupComparison:
+    """Every comparison the brief reports for one group variable.
+
+    ``test`` is "welch_t" (statistic t, df1 its Welch df, df2 None) or
+    "welch_anova" (statistic F, df1 = k − 1, df2 Welch's denominator df).
+    ``levels`` are the levels tested; ``excluded_levels`` had fewer than two values.
+    ``skewness`` is g1 of the residuals from the level means; ``rank_test`` is run
+    only when it is strongly skewed. ``leans_on`` ("welch" or "rank") names the
+    test the brief's sentence rests on, ``leans_on_reason`` says why in a phrase.
+    ``notes`` explain anything left undefined.
+    """
+
+    variable: str | None
+    levels: tuple[str, ...]
+    excluded_levels: tuple[str, ...]
+    test: str
+    statistic: float | None
+    df1: float | None
+    df2: float | None
+    p_value: float | None
+    confidence: float
+    pairwise: tuple[PairwiseComparison, ...]
+    classical: ClassicalAnova
+    reference_level: str
+    overall_mean: float
+    effects: tuple[LevelEffect, ...]
+    skewness: float | None
+    strongly_skewed: bool
+    rank_test: RankTest | None
+    leans_on: str
+    leans_on_reason: str
+    notes: tuple[str, ...]
+
+
+def welch_pair(a: Summary, b: Summary, confidence: float = 0.95) -> PairwiseComparison:
+    """Welch's t-test and interval for mean(a) − mean(b); needs n ≥ 2 in both."""
+    difference = a.mean - b.mean
+    share_a, share_b = a.sd**2 / a.n, b.sd**2 / b.n
+    variance = share_a + share_b
+    if variance <= 0:
+        return PairwiseComparison(a.level, b.level, difference, None, None, None, None, None, None)
+    standard_error = math.sqrt(variance)
+    # Welch–Satterthwaite degrees of freedom.
+    df = variance**2 / (share_a**2 / (a.n - 1) + share_b**2 / (b.n - 1))
+    t = difference / standard_error
+    p_value = float(2 * scipy_stats.t.sf(abs(t), df))
+    half = float(scipy_stats.t.ppf(0.5 + confidence / 2, df)) * standard_error
+    return PairwiseComparison(
+        a.level, b.level, difference, difference - half, difference + half, t, df, p_value, p_value
+    )
+
+
+def welch_anova(summaries: Sequence[Summary]) -> tuple[float, float, float, float] | None:
+    """Welch's (1951) one-way ANOVA: (F, df1, df2, p); None if any level has sd 0.
+
+    Weights are nᵢ/sᵢ², so a level without spread would get infinite weight.
+    """
+    if len(summaries) < 2 or any(s.sd is None or s.sd <= 0 for s in summaries):
+        return None
+    k = len(summaries)
+    base = summaries[0].mean  # deviations from one level's mean keep large offsets harmless
+    weights = [s.n / s.sd**2 for s in summaries]
+    total_weight = sum(weights)
+    deviations = [s.mean - base for s in summaries]
+    weighted_mean = sum(w * d for w, d in zip(weights, deviations, strict=True)) / total_weight
+    between = sum(
+        w * (d - weighted_mean) ** 2 for w, d in zip(weights, deviations, strict=True)
+    ) / (k - 1)
+    lam = sum(
+        (1 - w / total_weight) ** 2 / (s.n - 1) for w, s in zip(weights, summaries, strict=True)
+    )
+    f = between / (1 + 2 * (k - 2) / (k**2 - 1) * lam)
+    df2 = (k**2 - 1) / (3 * lam)
+    return f, float(k - 1), df2, float(scipy_stats.f.sf(f, k - 1, df2))
+
+
+def classical_anova(summaries: Sequence[Summary]) -> ClassicalAnova:
+    """Equal-variance one-way ANOVA from per-level n, mean and sd (levels with n ≥ 1)."""
+    used = [s for s in summaries if s.n >= 1 and s.mean is not None]
+    total = sum(s.n for s in used)
+    base = used[0].mean
+    grand = sum(s.n * (s.mean - base) for s in used) / total  # grand mean − base
+    ss_between = sum(s.n * (s.mean - base - grand) ** 2 for s in used)
+    ss_within = sum((s.n - 1) * s.sd**2 for s in used if s.n >= 2 and s.sd is not None)
+    df_between, df_within = len(used) - 1, total - len(used)
+    f = p_value = residual_sd = r_squared = None
+    if df_within > 0:
+        mean_square_within = ss_within / df_within
+        residual_sd = math.sqrt(mean_square_within)
+        if mean_square_within > 0 and df_between > 0:
+            f = (ss_between / df_between) / mean_square_within
+            p_value = float(scipy_stats.f.sf(f, df_between, df_within))
+    if ss_between + ss_within > 0:
+        r_squared = ss_between / (ss_between + ss_within)
+    return ClassicalAnova(
+        f, df_between, df_within, p_value, ss_between, ss_within, residual_sd, r_squared
+    )
+
+
+def holm(p_values: Sequence[float]) -> tuple[float, ...]:
+    """Holm's (1979) step-down adjusted p-values, in the order given.
+
+    Sorted ascending, the j-th smallest (1-based) is multiplied by m − j + 1; a
+    running maximum keeps the adjusted values in the same order; capped at 1.
+    """
+    order = sorted(range(len(p_values)), key=lambda i: p_values[i])
+    adjusted = [0.0] * len(p_values)
+    running = 0.0
+    for position, index in enumerate(order):
+        running = max(running, (len(p_values) - position) * p_values[index])
+        adjusted[index] = min(1.0, running)
+    return tuple(adjusted)
+
+
+def pairwise_welch(
+    summaries: Sequence[Summary], confidence: float = 0.95
+) -> tuple[PairwiseComparison, ...]:
+    """Every pair of levels by Welch's t; Holm corrects over the pairs whose test is defined."""
+    pairs = [welch_pair(a, b, confidence) for a, b in combinations(summaries, 2)]
+    defined = [i for i, pair in enumerate(pairs) if pair.p_value is not None]
+    adjusted = holm([pairs[i].p_value for i in defined])
+    for i, p_holm in zip(defined, adjusted, strict=True):
+        pairs[i] = replace(pairs[i], p_holm=p_holm)
+    return tuple(pairs)
+
+
+def reference_level(summaries: Sequence[Summary]) -> Summary:
+    """The level effects are measured from: the one with most values, ties by name.
+
+    The largest level has the most precise mean, so differences from it have the
+    narrowest intervals, and it is usually the case a reader thinks of as typical.
+    The name breaks ties so the choice never depends on row order.
+    """
+    return min(summaries, key=lambda s: (-s.n, str(s.level)))
+
+
+def _percent(difference: float, base: float) -> float | None:
+    return None if base == 0 else 100 * difference / abs(base)
+
+
+def level_effects(
+    tested: Sequence[Summary], reference: Summary, overall_mean: float, confidence: float
+) -> tuple[LevelEffect, ...]:
+    """Each tested level against the reference level and against the overall mean."""
+    effects = []
+    for s in tested:
+        if s is reference:
+            low = high = None
+            difference = 0.0
+        else:
+            pair = welch_pair(s, reference, confidence)
+            difference, low, high = pair.difference, pair.ci_low, pair.ci_high
+        effects.append(
+            LevelEffect(
+                level=s.level,
+                n=s.n,
+                mean=s.mean,
+                difference=difference,
+                ci_low=low,
+                ci_high=high,
+                percent_of_reference=_percent(difference, reference.mean),
+                percent_vs_overall=_percent(s.mean - overall_mean, overall_mean),
+            )
+        )
+    return tuple(effects)
+
+
+def overall_mean(summaries: Sequence[Summary]) -> float:
+    """Mean of the target over every row with a level and a value."""
+    used = [s for s in summaries if s.n >= 1 and s.mean is not None]
+    base = used[0].mean
+    return base + sum(s.n * (s.mean - base) for s in used) / sum(s.n for s in used)
+
+
+def _leaning(skewness: float | None, ranks: RankTest | None) -> tuple[str, str]:
+    if skewness is None:
+        return "welch", "skewness undefined (too few values or no spread)"
+    if abs(skewness) <= STRONG_SKEW:
+        return "welch", f"residuals not strongly skewed (|skewness| {abs(skewness):.2f} ≤ 1)"
+    if ranks is None or ranks.p_value is None:
+        return "welch", "strongly skewed, but the rank test is undefined (all values tied)"
+    return "rank", f"residuals strongly skewed (|skewness| {abs(skewness):.2f} > 1)"
+
+
+def _main_test(
+    tested: Sequence[Summary], pairwise: Sequence[PairwiseComparison], notes: list[str]
+) -> tuple[str, float | None, float | None, float | None, float | None]:
+    """Welch's t for two levels, Welch's ANOVA for more: (test, statistic, df1, df2, p)."""
+    if len(tested) == 2:
+        pair = pairwise[0]
+        if pair.t is None:
+            notes.append("Welch's t is undefined: neither level has any spread")
+        return "welch_t", pair.t, pair.df, None, pair.p_value
+    anova = welch_anova(tested)
+    if anova is None:
+        notes.append("Welch's ANOVA is undefined: a level has no spread")
+        return "welch_anova", None, None, None, None
+    return ("welch_anova", *anova)
+
+
+def compare_groups(
+    levels_table: ir.Table,
+    summaries: Sequence[Summary],
+    confidence: float = 0.95,
+    *,
+    variable: str | None = None,
+) -> GroupComparison | None:
+    """Compare the target across levels; None when fewer than two levels have n ≥ 2.
+
+    ``levels_table`` has columns ``level`` and ``y``; ``summaries`` come from
+    ``summarise_levels`` on the same table.
+    """
+    tested = [s for s in summaries if s.n >= 2 and s.mean is not None and s.sd is not None]
+    tested_names = {s.level for s in tested}
+    excluded = tuple(s.level for s in summaries if s.level not in tested_names)
+    notes = [
+        f"'{level}' has fewer than 2 values and is left out of the tests" for level in excluded
+    ]
+    if len(tested) < 2:
+        logger.info("comparison of %s skipped: %d usable level(s)", variable, len(tested))
+        return None
+    pairwise = pairwise_welch(tested, confidence)
+    test, statistic, df1, df2, p_value = _main_test(tested, pairwise, notes)
+    skewness = within_level_skewness(levels_table, {s.level: s.mean for s in tested})
+    strongly_skewed = skewness is not None and abs(skewness) > STRONG_SKEW
+    ranks = rank_test(levels_table, [s.level for s in tested]) if strongly_skewed else None
+    leans_on, reason = _leaning(skewness, ranks)
+    reference = reference_level(tested)
+    overall = overall_mean(summaries)
+    return GroupComparison(
+        variable=variable,
+        levels=tuple(s.level for s in tested),
+        excluded_levels=excluded,
+        test=test,
+        statistic=statistic,
+        df1=df1,
+        df2=df2,
+        p_value=p_value,
+        confidence=confidence,
+        pairwise=pairwise,
+        classical=classical_anova(tested),
+        reference_level=reference.level,
+        overall_mean=overall,
+        effects=level_effects(tested, reference, overall, confidence),
+        skewness=skewness,
+        strongly_skewed=strongly_skewed,
+        rank_test=ranks,
+        leans_on=leans_on,
+        leans_on_reason=reason,
+        notes=tuple(notes),
+    )

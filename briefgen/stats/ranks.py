@@ -1,0 +1,196 @@
+"""Skewness of the target and rank-based tests, computed from aggregates the engine returns.
+
+The engine ranks the rows (average ranks for ties) and returns one doubled rank
+sum per level plus the tie term Σ(t³ − t); Python never sees a row. Doubling the
+average rank makes every rank an integer, so the sums are exact 64-bit integers
+and the statistics below are formed from exact integer arithmetic before the
+final division.
+
+Skewness is the sample skewness g1 = m3 / m2^(3/2) (the plain moment ratio,
+``scipy.stats.skew(..., bias=True)``) of the residuals from each level's mean.
+Residuals, not raw values: two symmetric groups with different means make the
+pooled raw values look skewed, which says nothing about whether a test of means
+is trustworthy within each group.
+"""
+
+from __future__ import annotations
+
+import logging
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+
+import ibis
+import ibis.expr.datatypes as dt
+import ibis.expr.types as ir
+from scipy import stats as scipy_stats
+
+logger = logging.getLogger(__name__)
+
+# Bulmer (1979), "Principles of Statistics", calls a distribution with
+# |skewness| > 1 highly skewed. A convention, not a test: used to decide which
+# comparison the brief leans on.
+STRONG_SKEW = 1.0
+
+
+@dataclass(frozen=True, slots=True)
+class RankSums:
+    """What the engine returns for a rank test: per-level counts and doubled rank sums.
+
+    ``doubled_rank_sums[i]`` is twice the sum of the average ranks in ``levels[i]``
+    (an exact integer); ``tie_term`` is Σ(t³ − t) over groups of tied values.
+    """
+
+    levels: tuple[str, ...]
+    counts: tuple[int, ...]
+    doubled_rank_sums: tuple[int, ...]
+    tie_term: float
+
+    @property
+    def total(self) -> int:
+        return sum(self.counts)
+
+    def rank_sum(self, level: str) -> float:
+        return self.doubled_rank_sums[self.levels.index(level)] / 2
+
+
+@dataclass(frozen=True, slots=True)
+class RankTest:
+    """A rank-based comparison: Mann–Whitney U (two levels) or Kruskal–Wallis H (more).
+
+    ``statistic`` is U for the first level (as ``scipy.stats.mannwhitneyu`` reports
+    it) or the tie-corrected H. ``z`` is the standardised U (normal approximation
+    with tie and continuity corrections); ``df`` the chi-square degrees of freedom
+    of H. ``p_value`` is None when every value is tied, so ranks carry no information.
+    """
+
+    test: str
+    levels: tuple[str, ...]
+    statistic: float
+    z: float | None
+    df: int | None
+    p_value: float | None
+
+
+def usable_rows(levels_table: ir.Table, levels: Sequence[str]) -> ir.Table:
+    """Rows of the named levels that have a target value."""
+    table = levels_table
+    return table.filter(table.y.notnull() & table.level.isin(list(levels))).select("level", "y")
+
+
+def rank_sums(levels_table: ir.Table, levels: Sequence[str]) -> RankSums | None:
+    """Doubled rank sums per level and the tie term, ranking all rows of ``levels`` together."""
+    rows = usable_rows(levels_table, levels)
+    # rank() gives the lowest rank of a tie group (0-based in Ibis); the count over
+    # the tie partition is its size, so the average rank is lowest + 1 + (ties − 1)/2
+    # and twice it, 2·lowest + 1 + ties, is an integer.
+    ranked = rows.mutate(
+        lowest=ibis.rank().over(order_by=rows.y),
+        ties=rows.y.count().over(group_by=rows.y),
+    )
+    doubled = (2 * ranked.lowest + 1 + ranked.ties).cast(dt.int64)
+    per_level = ranked.group_by("level").aggregate(n=ranked.count(), doubled=doubled.sum())
+    tie_groups = rows.group_by("y").aggregate(size=rows.count().cast(dt.float64))
+    # float: t³ overflows int64 once a tie group exceeds ~2 million rows.
+    tie_term = ((tie_groups.size**3) - tie_groups.size).sum()
+    found = {row["level"]: row for row in per_level.to_pyarrow().to_pylist()}
+    present = [level for level in levels if level in found]
+    if len(present) < 2:
+        return None
+    return RankSums(
+        levels=tuple(present),
+        counts=tuple(int(found[level]["n"]) for level in present),
+        doubled_rank_sums=tuple(int(found[level]["doubled"]) for level in present),
+        tie_term=float(tie_term.to_pyarrow().as_py() or 0.0),
+    )
+
+
+def mann_whitney(sums: RankSums) -> RankTest:
+    """Two-sided Mann–Whitney U, normal approximation with tie and continuity corrections.
+
+    Matches ``scipy.stats.mannwhitneyu(alternative="two-sided", method="asymptotic",
+    use_continuity=True)``: U is reported for the first level, the p-value uses
+    max(U1, U2) − 0.5 and is capped at 1.
+    """
+    n1, n2 = sums.counts[0], sums.counts[1]
+    total = n1 + n2
+    # U1 − n1·n2/2 = R1 − n1(N + 1)/2; doubled, it is an exact integer.
+    doubled_offset = sums.doubled_rank_sums[0] - n1 * (total + 1)
+    u1 = sums.doubled_rank_sums[0] / 2 - n1 * (n1 + 1) / 2
+    variance = n1 * n2 / 12 * ((total + 1) - sums.tie_term / (total * (total - 1)))
+    z = p_value = None
+    if variance > 0:
+        z = (abs(doubled_offset) / 2 - 0.5) / math.sqrt(variance)
+        p_value = min(1.0, 2 * float(scipy_stats.norm.sf(z)))
+    return RankTest(
+        test="mann_whitney", levels=sums.levels, statistic=u1, z=z, df=None, p_value=p_value
+    )
+
+
+def kruskal_wallis(sums: RankSums) -> RankTest:
+    """Kruskal–Wallis H with the tie correction, referred to chi-square on k − 1 df.
+
+    H = 12/(N(N+1)) · Σ nᵢ(R̄ᵢ − (N+1)/2)², the centred form, so no large terms
+    cancel; it equals ``scipy.stats.kruskal``'s 12/(N(N+1))·ΣRᵢ²/nᵢ − 3(N+1).
+    """
+    total = sums.total
+    # nᵢ(R̄ᵢ − (N+1)/2)² = (2Rᵢ − nᵢ(N+1))² / (4nᵢ): exact integers up to the division.
+    spread = sum(
+        (doubled - n * (total + 1)) ** 2 / (4 * n)
+        for n, doubled in zip(sums.counts, sums.doubled_rank_sums, strict=True)
+    )
+    h = 12 / (total * (total + 1)) * spread
+    correction = 1 - sums.tie_term / (total**3 - total)
+    df = len(sums.levels) - 1
+    if correction <= 0:
+        return RankTest("kruskal_wallis", sums.levels, h, None, df, None)
+    h /= correction
+    p_value = float(scipy_stats.chi2.sf(h, df))
+    return RankTest("kruskal_wallis", sums.levels, h, None, df, p_value)
+
+
+def rank_test(levels_table: ir.Table, levels: Sequence[str]) -> RankTest | None:
+    """Mann–Whitney for two levels, Kruskal–Wallis for more; None with fewer than two."""
+    sums = rank_sums(levels_table, levels)
+    if sums is None:
+        return None
+    return mann_whitney(sums) if len(sums.levels) == 2 else kruskal_wallis(sums)
+
+
+def within_level_skewness(levels_table: ir.Table, means: Mapping[str, float]) -> float | None:
+    """Sample skewness g1 of the residuals y − (mean of its level), from centred sums.
+
+    The level means are joined back to the rows, so the engine only ever raises
+    residuals to powers, never raw values. None with fewer than three values or
+    no spread at all.
+    """
+    if not means:
+        return None
+    table = usable_rows(levels_table, list(means))
+    level_means = ibis.memtable(
+        {"level": list(means), "level_mean": [float(value) for value in means.values()]}
+    )
+    joined = table.inner_join(level_means, "level")
+    residual = joined.y - joined.level_mean
+    sums = (
+        joined.aggregate(
+            n=joined.count(),
+            s1=residual.sum(),
+            s2=(residual * residual).sum(),
+            s3=(residual * residual * residual).sum(),
+        )
+        .to_pyarrow()
+        .to_pylist()[0]
+    )
+    n = int(sums["n"])
+    if n < 3:
+        return None
+    # The joined means are rounded, so the residuals' own mean d is tiny but not 0;
+    # moments about d from moments about 0: m2 = S2/n − d², m3 = S3/n − 3d·S2/n + 2d³.
+    d = float(sums["s1"]) / n
+    s2, s3 = float(sums["s2"]) / n, float(sums["s3"]) / n
+    m2 = s2 - d * d
+    m3 = s3 - 3 * d * s2 + 2 * d**3
+    if m2 <= 0:
+        return None
+    return m3 / m2**1.5
