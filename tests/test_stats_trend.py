@@ -1,0 +1,251 @@
+"""Trend over time checked against pandas periods, numpy, scipy and statsmodels."""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+import tempfile
+import uuid
+from pathlib import Path
+
+import ibis
+import ibis.expr.types as ir
+import numpy as np
+import pandas as pd
+import pytest
+import statsmodels.api as sm
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from scipy import stats as scipy_stats
+
+from briefgen.stats.trend import choose_period, time_trend
+
+
+def engine_table(frame: pd.DataFrame, folder: Path) -> ir.Table:
+    """An engine table from a DataFrame (parquet, because create_table fails on ibis 12)."""
+    path = Path(folder) / f"data-{uuid.uuid4().hex}.parquet"
+    frame.to_parquet(path)  # pyarrow writes NaN in a float column as null
+    return ibis.duckdb.connect().read_parquet(path)
+
+
+def timed_frame(days: float, n: int, seed: int, start: str = "2023-03-15 08:30") -> pd.DataFrame:
+    """Random timestamps (whole seconds) over ``days`` with a gentle upward trend in y."""
+    rng = np.random.default_rng(seed)
+    offsets = np.sort(rng.uniform(0, days, n))
+    t = (pd.Timestamp(start) + pd.to_timedelta(offsets, unit="D")).floor("s").as_unit("us")
+    y = 50 + 0.02 * offsets + rng.normal(0, 3, n)
+    return pd.DataFrame({"t": t, "y": y})
+
+
+# pandas labels for each period kind: 'W-SUN' weeks end on Sunday, so they start on
+# Monday as ISO 8601 weeks do.
+PANDAS_PERIOD = {
+    "day": lambda t: t.dt.floor("D"),
+    "week": lambda t: t.dt.to_period("W-SUN").dt.start_time,
+    "month": lambda t: t.dt.to_period("M").dt.start_time,
+}
+
+
+def reference_periods(frame: pd.DataFrame, period: str, confidence: float) -> dict:
+    usable = frame.dropna(subset=["t", "y"])
+    starts = PANDAS_PERIOD[period](usable["t"]).dt.date
+    result = {}
+    for start, values in usable.groupby(starts)["y"]:  # reference: pandas groupby
+        values = values.to_numpy()
+        n, mean = len(values), float(np.mean(values))
+        expected = {"n": n, "mean": mean, "median": float(np.percentile(values, 50))}
+        if n >= 2:
+            sd = float(np.std(values, ddof=1))
+            # reference: scipy.stats.t.interval around the mean with its standard error
+            low, high = scipy_stats.t.interval(confidence, n - 1, loc=mean, scale=sd / math.sqrt(n))
+            expected |= {"sd": sd, "ci": (low, high)}
+        else:
+            expected |= {"sd": None, "ci": (None, None)}
+        result[start] = expected
+    return result
+
+
+def assert_periods_match(trend, expected: dict) -> None:
+    assert [p.start for p in trend.periods] == sorted(expected)
+    for p in trend.periods:
+        e = expected[p.start]
+        assert p.n == e["n"]
+        assert p.mean == pytest.approx(e["mean"], rel=1e-12)
+        assert p.median == pytest.approx(e["median"], rel=1e-12)
+        if e["sd"] is None:
+            assert p.sd is None and p.ci_low is None and p.ci_high is None
+        else:
+            assert p.sd == pytest.approx(e["sd"], rel=1e-11)
+            assert (p.ci_low, p.ci_high) == pytest.approx(e["ci"], rel=1e-11)
+
+
+@pytest.mark.parametrize(("period", "days"), [("day", 40), ("week", 200), ("month", 700)])
+def test_periods_match_pandas(tmp_path, period, days):
+    frame = timed_frame(days, 1500, seed=3)
+    frame.loc[frame.index[::50], "y"] = np.nan
+    frame.loc[frame.index[::70], "t"] = pd.NaT
+    trend = time_trend(engine_table(frame, tmp_path), confidence=0.9, period=period)
+    assert trend.period == period
+    assert_periods_match(trend, reference_periods(frame, period, 0.9))
+    for p in trend.periods:  # reference: Python's ISO calendar, weeks start on Monday
+        if period == "week":
+            assert p.start.isoweekday() == 1 and p.end - p.start == dt.timedelta(days=7)
+        if period == "month":
+            assert p.start.day == 1 and p.end.day == 1
+
+
+def test_counts_of_rows_used_and_left_out(tmp_path):
+    frame = timed_frame(90, 300, seed=5)
+    frame.loc[frame.index[::9], "y"] = np.nan
+    frame.loc[frame.index[::13], "t"] = pd.NaT
+    trend = time_trend(engine_table(frame, tmp_path))
+    # reference: pandas isna counts
+    assert trend.rows_without_time == int(frame.t.isna().sum())
+    assert trend.rows_without_target == int((frame.t.notna() & frame.y.isna()).sum())
+    assert trend.rows_used == int((frame.t.notna() & frame.y.notna()).sum())
+    assert sum(p.n for p in trend.periods) == trend.rows_used
+
+
+def test_overall_change_matches_linregress_and_statsmodels(tmp_path):
+    frame = timed_frame(300, 800, seed=8)
+    frame.loc[frame.index[::25], "y"] = np.nan
+    trend = time_trend(engine_table(frame, tmp_path))
+    usable = frame.dropna()
+    days = (usable.t - usable.t.min()).dt.total_seconds().to_numpy() / 86_400
+    span = days.max()
+    fit = scipy_stats.linregress(days, usable.y.to_numpy())  # reference: scipy linregress
+    t_quantile = scipy_stats.t.ppf(0.975, len(days) - 2)
+    assert trend.span_days == pytest.approx(span, rel=1e-12)
+    assert trend.change == pytest.approx(fit.slope * span, rel=1e-9)
+    assert trend.fit.slope_se == pytest.approx(fit.stderr, rel=1e-9)
+    assert trend.change_ci_low == pytest.approx(
+        (fit.slope - t_quantile * fit.stderr) * span, rel=1e-9
+    )
+    assert trend.change_per_30_days == pytest.approx(fit.slope * 30, rel=1e-9)
+    # reference: statsmodels OLS conf_int on time in days
+    ols = sm.OLS(usable.y.to_numpy(), sm.add_constant(days)).fit()
+    low, high = ols.conf_int(alpha=0.05)[1]
+    assert (trend.change_ci_low, trend.change_ci_high) == pytest.approx(
+        (low * span, high * span), rel=1e-9
+    )
+    assert (trend.change_per_30_days_ci_low, trend.change_per_30_days_ci_high) == pytest.approx(
+        (low * 30, high * 30), rel=1e-9
+    )
+
+
+def test_large_offset_exact(tmp_path):
+    frame = timed_frame(120, 1200, seed=13)
+    rng = np.random.default_rng(2)
+    centred = rng.normal(0, 0.1, len(frame)) + 1e-4 * np.arange(len(frame)) / len(frame)
+    frame["y"] = 1e9 + centred
+    trend = time_trend(engine_table(frame, tmp_path), period="week")
+    # y - 1e9 is exact (Sterbenz's lemma), so the offset-free data are the same numbers.
+    shifted = frame.assign(y=frame.y - 1e9)
+    expected = reference_periods(shifted, "week", 0.95)
+    for p in trend.periods:
+        sd = expected[p.start]["sd"]  # reference: numpy sd on the offset-free data
+        assert abs(p.sd - sd) / sd < 1e-9
+        assert abs((p.mean - 1e9) - expected[p.start]["mean"]) < 4 * np.spacing(1e9)
+    days = (frame.t - frame.t.min()).dt.total_seconds().to_numpy() / 86_400
+    fit = scipy_stats.linregress(days, shifted.y.to_numpy())  # reference: offset-free linregress
+    assert trend.fit.slope == pytest.approx(fit.slope, rel=1e-6)
+    assert trend.fit.slope_se == pytest.approx(fit.stderr, rel=1e-6)
+
+
+def test_auto_period_rule():
+    # The rule stated in choose_period's docstring (common practice, no published source).
+    assert [choose_period(d) for d in (0, 31, 60)] == ["day"] * 3
+    assert [choose_period(d) for d in (60.5, 200, 420)] == ["week"] * 3
+    assert [choose_period(d) for d in (420.5, 3000)] == ["month"] * 2
+
+
+@pytest.mark.parametrize(("days", "period"), [(20, "day"), (150, "week"), (900, "month")])
+def test_auto_gives_a_readable_number_of_points(tmp_path, days, period):
+    frame = timed_frame(days, 2000, seed=days)
+    trend = time_trend(engine_table(frame, tmp_path))
+    assert trend.period == period
+    assert 8 <= len(trend.periods) <= 61  # common practice, no published source
+
+
+def test_partial_first_and_last_periods(tmp_path):
+    # 2024-01-03 is a Wednesday (reference: Python's calendar); data end 2024-03-31, a Sunday.
+    stamps = pd.date_range("2024-01-03", "2024-03-31 18:00", freq="6h")
+    frame = pd.DataFrame({"t": stamps, "y": np.arange(len(stamps), dtype=float)})
+    monthly = time_trend(engine_table(frame, tmp_path), period="month")
+    assert [p.partial for p in monthly.periods] == [True, False, False]
+    weekly = time_trend(engine_table(frame, tmp_path), period="week")
+    assert weekly.periods[0].partial and weekly.periods[0].start == dt.date(2024, 1, 1)
+    assert not any(p.partial for p in weekly.periods[1:])  # last week ends Sunday 31 March
+    daily = time_trend(engine_table(frame, tmp_path), period="day")
+    assert not any(p.partial for p in daily.periods)
+    shorter = time_trend(engine_table(frame[frame.t < "2024-03-30"], tmp_path), period="month")
+    assert [p.partial for p in shorter.periods] == [True, False, True]
+
+
+def test_gaps_listed(tmp_path):
+    frame = timed_frame(120, 600, seed=21, start="2024-01-01")
+    week = frame.t.dt.to_period("W-SUN")
+    frame = frame[week != week.iloc[300]]  # drop one whole ISO week
+    trend = time_trend(engine_table(frame, tmp_path), period="week")
+    # reference: pandas period_range over the span, minus the weeks present
+    every = pd.period_range(week.min(), week.max(), freq="W-SUN").start_time.date
+    present = set(frame.t.dt.to_period("W-SUN").dt.start_time.dt.date)
+    assert trend.gaps == tuple(d for d in every if d not in present)
+    assert len(trend.gaps) == 1
+
+
+def test_single_period_and_single_row_period(tmp_path):
+    stamps = pd.to_datetime(["2024-05-06 08:00", "2024-05-06 12:00", "2024-05-06 20:00"])
+    frame = pd.DataFrame({"t": stamps, "y": [1.0, 2.0, 4.0]})
+    trend = time_trend(engine_table(frame, tmp_path))
+    assert trend.period == "day" and len(trend.periods) == 1
+    assert_periods_match(trend, reference_periods(frame, "day", 0.95))
+    fit = scipy_stats.linregress((stamps - stamps[0]).total_seconds() / 86_400, frame.y)
+    assert trend.change == pytest.approx(fit.slope * 0.5, rel=1e-9)  # reference: linregress
+
+    lone = pd.DataFrame(
+        {"t": pd.to_datetime(["2024-05-06", "2024-05-07", "2024-05-07"]), "y": [3.0, 1.0, 2.0]}
+    )
+    trend = time_trend(engine_table(lone, tmp_path), period="day")
+    first = trend.periods[0]
+    assert (first.n, first.mean, first.sd, first.ci_low, first.ci_high) == (
+        1,
+        3.0,
+        None,
+        None,
+        None,
+    )
+    assert_periods_match(trend, reference_periods(lone, "day", 0.95))
+
+
+def test_one_timestamp_and_no_usable_rows(tmp_path):
+    same = pd.DataFrame({"t": pd.to_datetime(["2024-05-06"] * 3), "y": [1.0, 2.0, 3.0]})
+    trend = time_trend(engine_table(same, tmp_path))
+    assert len(trend.periods) == 1 and trend.span_days == 0
+    assert trend.change is None and trend.change_ci_low is None  # no spread in time, no slope
+    empty = pd.DataFrame({"t": pd.to_datetime(["2024-05-06", None]), "y": [np.nan, 2.0]})
+    trend = time_trend(engine_table(empty, tmp_path))
+    assert trend.periods == () and trend.change is None and trend.rows_used == 0
+    assert (trend.rows_without_time, trend.rows_without_target) == (1, 1)
+
+
+def test_unknown_period_rejected(tmp_path):
+    with pytest.raises(ValueError, match="period"):
+        time_trend(engine_table(timed_frame(10, 20, seed=1), tmp_path), period="quarter")
+
+
+@settings(max_examples=10, deadline=None)
+@given(
+    st.lists(
+        st.datetimes(min_value=dt.datetime(1999, 12, 1), max_value=dt.datetime(2001, 3, 1)),
+        min_size=1,
+        max_size=30,
+    ),
+    st.sampled_from(["day", "week", "month"]),
+)
+def test_bucketing_matches_pandas_for_any_timestamps(stamps, period):
+    frame = pd.DataFrame({"t": pd.to_datetime(stamps).as_unit("us"), "y": 1.0})
+    with tempfile.TemporaryDirectory() as folder:
+        trend = time_trend(engine_table(frame, Path(folder)), period=period)
+    counts = frame.groupby(PANDAS_PERIOD[period](frame.t).dt.date).size()  # reference: pandas
+    assert {p.start: p.n for p in trend.periods} == counts.to_dict()
