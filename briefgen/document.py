@@ -1,39 +1,44 @@
 """The brief as a page model: findings, charts and formatted tables, ready for a template.
 
 Pure: results in, plain objects out. The template only lays these out; it never
-formats or computes a number.
+formats or computes a number. Reading order: key findings and cautions first
+(page 1), one section per analysis, then detail tables and the method.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 
 from briefgen.config import BriefSpec
+from briefgen.figures.cross import cross_chart
 from briefgen.figures.distribution import distribution_chart
 from briefgen.figures.relationship import relationship_chart
 from briefgen.figures.theme import Chart
+from briefgen.figures.trend import trend_chart
 from briefgen.findings import (
     Finding,
-    Wording,
     cautions,
+    cross_finding,
     fit_finding,
     group_finding,
     overall_finding,
+    trend_finding,
     wording_for,
 )
-from briefgen.numbers import decimals_for, fmt, fmt_count
+from briefgen.numbers import decimals_for, fmt_count
 from briefgen.stats import BriefStats
+from briefgen.tables import (
+    Table,
+    accounting_table,
+    cross_table_view,
+    fits_table,
+    group_table,
+    pairwise_table,
+    slopes_table,
+    trend_table,
+)
 
-
-@dataclass(frozen=True, slots=True)
-class Table:
-    """Header and rows of already formatted cells; ``numeric`` marks right-aligned columns."""
-
-    caption: str
-    header: tuple[str, ...]
-    rows: tuple[tuple[str, ...], ...]
-    numeric: tuple[bool, ...]
-    notes: tuple[str, ...] = ()
+MAX_KEY_FINDINGS = 8
 
 
 @dataclass(frozen=True, slots=True)
@@ -51,18 +56,18 @@ class Section:
 class Document:
     title: str
     subtitle: str
+    description: str | None
     built_on: str
     paper: str
     key_findings: tuple[Finding, ...]
     cautions: tuple[str, ...]
     sections: tuple[Section, ...]
+    appendix: tuple[Table, ...]
     method: tuple[str, ...]
-    accounting: Table
-    extra: dict = field(default_factory=dict)
 
 
 def label_for(spec: BriefSpec, column: str) -> str:
-    """The reader's name for a column: from ``labels`` in the config, else tidied."""
+    """A column's name as a heading: the configured label, else the name tidied and capitalised."""
     if column in spec.labels:
         return spec.labels[column]
     text = column.replace("_", " ").strip()
@@ -74,124 +79,95 @@ def name_for(spec: BriefSpec, column: str) -> str:
     return spec.labels.get(column, column.replace("_", " ").strip())
 
 
-def _group_table(group, words: Wording) -> Table:
-    rows = []
-    for s in group.summaries:
-        box = next((b for b in group.boxes if b.level == s.level), None)
-        rows.append(
-            (
-                s.level,
-                fmt_count(s.n),
-                words.value(s.mean),
-                words.interval(s.ci_low, s.ci_high) if s.ci_low is not None else "–",
-                words.value(s.median),
-                f"{words.value(s.q1)} – {words.value(s.q3)}" if s.q1 is not None else "–",
-                fmt_count(box.outlier_count) if box else "–",
-            )
-        )
-    notes = []
-    if group.rows_without_level:
-        notes.append(
-            f"{fmt_count(group.rows_without_level)} rows have no {group.variable} and are not in this table."
-        )
-    return Table(
-        caption=f"{words.label} by {group.variable}",
-        header=(
-            "Level",
-            "n",
-            "Mean",
-            f"{words.level_name} interval",
-            "Median",
-            "Middle half (Q1 – Q3)",
-            "Outliers",
-        ),
-        rows=tuple(rows),
-        numeric=(False, True, True, True, True, True, True),
-        notes=tuple(notes),
-    )
-
-
-def _fit_table(stats: BriefStats, spec: BriefSpec, words: Wording) -> Table:
-    rows = []
-    for fit in stats.fits:
-        d = decimals_for(abs(fit.slope) if fit.slope else None)
-        rows.append(
-            (
-                label_for(spec, fit.predictor),
-                fmt_count(fit.n),
-                fmt(fit.slope, d),
-                f"{fmt(fit.slope_ci_low, d)} to {fmt(fit.slope_ci_high, d)}",
-                words.value(fit.intercept),
-                fmt(fit.r_squared, 2) if fit.r_squared is not None else "–",
-            )
-        )
-    return Table(
-        caption=f"Straight-line fits of {words.label.lower()}",
-        header=(
-            "Predictor",
-            "n",
-            "Slope per unit",
-            f"{words.level_name} interval",
-            "Intercept",
-            "R²",
-        ),
-        rows=tuple(rows),
-        numeric=(False, True, True, True, True, True),
-    )
-
-
-def _accounting_table(stats: BriefStats) -> Table:
-    acc = stats.accounting
-    rows = [("Rows read", fmt_count(acc.rows_read))]
-    rows += [(f"Used: {name.replace(':', ' ')}", fmt_count(n)) for name, n in acc.used.items()]
-    rows += [(f"Left out of {d.analysis}: {d.reason}", fmt_count(d.rows)) for d in acc.dropped]
-    return Table(
-        caption="Where every row went", header=("", "Rows"), rows=tuple(rows), numeric=(False, True)
-    )
-
-
-def method_notes(stats: BriefStats) -> tuple[str, ...]:
+def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
     level = f"{stats.confidence:.0%}"
-    return (
-        "All statistics were computed by the database engine over every row; charts are drawn from "
-        "those results (scatter plots show a seeded random sample of at most 5,000 points).",
-        "Quartiles and medians use linear interpolation (Hyndman & Fan 1996, type 7).",
-        "Box plots follow Tukey (1977): the box spans the middle half of the values, whiskers reach the "
-        "most extreme values within 1.5 × IQR of the box, values beyond are drawn as outliers. No value "
-        "was removed.",
-        f"Intervals of means are {level} Student t intervals. Straight-line fits are ordinary least "
-        "squares, computed from centred sums for numerical accuracy.",
-    )
+    notes = [
+        "All statistics were computed by the database engine over every row; charts are drawn from those "
+        "results (scatter plots show a seeded random sample of at most 5,000 points).",
+        "Quartiles and medians use linear interpolation (Hyndman & Fan 1996, type 7). Box plots follow "
+        "Tukey (1977): the box spans the middle half of the values, whiskers reach the most extreme values "
+        "within 1.5 × IQR of the box, values beyond are outliers. No value was removed.",
+        f"Intervals are {level} Student t intervals. Groups are compared with Welch's t-test (two levels) or "
+        "Welch's ANOVA (more), with pairwise Welch tests adjusted by Holm's method. When the target is "
+        "strongly skewed (|skewness| > 1 within groups, after Bulmer 1979), Mann–Whitney or Kruskal–Wallis "
+        "rank tests are run as well and the brief leans on them.",
+        "Straight-line fits are ordinary least squares from centred sums; correlations are Pearson's r and "
+        "Spearman's ρ. Whether a slope differs between groups is an F test of separate against parallel lines.",
+    ]
+    if stats.crosses:
+        notes.append(
+            f"Two-way combinations with fewer than {spec.min_cell} rows are marked and not ranked."
+        )
+    if stats.trend is not None:
+        notes.append(
+            f"The trend uses one value per {stats.trend.period} (ISO weeks start on Monday); the overall change "
+            "is the least-squares slope over time multiplied by the span."
+        )
+    return tuple(notes)
 
 
-def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label: str) -> Document:
-    """Assemble findings, charts and tables into the page model."""
-    label = label_for(spec, spec.target)
-    words = wording_for(stats, label)
-    decimals = words.unit_decimals
-    sections, key = [], [overall_finding(stats, words)]
+def _sections(stats: BriefStats, spec: BriefSpec, words) -> tuple[list[Section], list[Table]]:
+    label, decimals, confidence = words.label, words.unit_decimals, stats.confidence
+    sections: list[Section] = []
+    appendix: list[Table] = []
     for group in stats.groups:
         name = name_for(spec, group.variable)
-        finding = group_finding(group, words, name)
+        comparison = stats.comparison(group.variable)
         chart = (
-            distribution_chart(group, stats.overall, label, decimals, stats.confidence)
+            distribution_chart(group, stats.overall, label, decimals, confidence, name)
             if group.boxes
             else None
         )
+        finding = group_finding(group, comparison, words, name)
         sections.append(
             Section(
                 f"group-{group.variable}",
                 f"{label} by {name}",
                 finding,
                 chart,
-                _group_table(group, words),
+                group_table(group, words, name),
             )
         )
-        if finding:
-            key.append(finding)
+        if comparison is not None:
+            appendix.append(pairwise_table(comparison, words, name))
+    for cross in stats.crosses:
+        names = (name_for(spec, cross.row_variable), name_for(spec, cross.column_variable))
+        finding = cross_finding(cross, words, *names)
+        sections.append(
+            Section(
+                f"cross-{cross.row_variable}-{cross.column_variable}",
+                f"{label} by {names[0]} and {names[1]}",
+                finding,
+                cross_chart(cross, label, decimals, names),
+                cross_table_view(cross, words, names),
+            )
+        )
+    if stats.trend is not None:
+        sections.append(
+            Section(
+                "trend",
+                f"{label} over time",
+                trend_finding(stats.trend, words),
+                trend_chart(stats.trend, label, decimals, confidence),
+                None,
+            )
+        )
+        appendix.append(trend_table(stats.trend, words))
+    labels = {p: label_for(spec, p) for p in spec.predictors}
+    names = {g: name_for(spec, g) for g in spec.groups}
     for fit in stats.fits:
-        x_label = label_for(spec, fit.predictor)
-        finding = fit_finding(fit, words, x_label)
+        x_label = labels[fit.predictor]
+        slopes = [
+            (names[s.group], s) for s in stats.slopes_by_group if s.predictor == fit.predictor
+        ]
+        finding = fit_finding(
+            fit,
+            stats.correlation(fit.predictor),
+            stats.log_fit(fit.predictor),
+            slopes,
+            words,
+            x_label,
+        )
         chart = relationship_chart(
             fit,
             stats.sample,
@@ -199,26 +175,39 @@ def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label
             label,
             decimals_for(abs(fit.slope or 0) or None),
             decimals,
-            stats.confidence,
+            confidence,
         )
         sections.append(
-            Section(f"fit-{fit.predictor}", f"{label} and {x_label.lower()}", finding, chart, None)
+            Section(f"fit-{fit.predictor}", f"{label} and {x_label}", finding, chart, None)
         )
-        if finding:
-            key.append(finding)
     if stats.fits:
-        sections.append(
-            Section("fits", "All straight-line fits", None, None, _fit_table(stats, spec, words))
-        )
-    subtitle = f"{label} · {rows_label} · {fmt_count(stats.accounting.rows_read)} rows"
+        appendix.append(fits_table(stats, labels, words))
+    if stats.slopes_by_group:
+        appendix.append(slopes_table(stats, labels, names))
+    appendix.append(accounting_table(stats, labels))
+    return sections, appendix
+
+
+def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label: str) -> Document:
+    """Assemble findings, charts and tables into the page model."""
+    words = wording_for(stats, label_for(spec, spec.target))
+    sections, appendix = _sections(stats, spec, words)
+    found = [s.finding for s in sections if s.finding is not None]
+    # Page 1 leads with clear results; "no clear difference" findings follow them.
+    clear = [f for f in found if "no clear" not in f.headline.lower()]
+    unclear = [f for f in found if "no clear" in f.headline.lower()]
+    key = [overall_finding(stats, words), *clear, *unclear][:MAX_KEY_FINDINGS]
+    names = {g: name_for(spec, g) for g in spec.groups}
+    subtitle = f"{words.label} · {rows_label} · {fmt_count(stats.accounting.rows_read)} rows"
     return Document(
         title=spec.title,
         subtitle=subtitle,
+        description=spec.description,
         built_on=built_on,
         paper=spec.output.paper,
         key_findings=tuple(key),
-        cautions=tuple(cautions(stats, words)),
+        cautions=tuple(cautions(stats, words, names)),
         sections=tuple(sections),
-        method=method_notes(stats),
-        accounting=_accounting_table(stats),
+        appendix=tuple(appendix),
+        method=method_notes(stats, spec),
     )

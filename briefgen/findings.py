@@ -2,21 +2,27 @@
 
 A finding never computes a statistic; it reads the results and words them. Where
 a result could mislead a decision (small groups, association read as cause, rows
-left out), a caution is written beside it.
+left out, many comparisons), a caution is written beside it.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
 
-from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_percent
+from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_p, fmt_percent
 from briefgen.stats import BriefStats
+from briefgen.stats.compare import GroupComparison
+from briefgen.stats.correlation import Correlation
 from briefgen.stats.groups import GroupStats, Summary
 from briefgen.stats.regression import RegressionFit
+from briefgen.stats.relationships import GroupSlopes, LogFit
+from briefgen.stats.trend import Trend
+from briefgen.stats.twoway import CrossTable
 
 SMALL_GROUP = (
     30  # common practice, no published source: below ~30 a mean's interval is wide and fragile
 )
+SIGNIFICANCE = 0.05  # conventional threshold (Fisher 1925); findings also print the p-value itself
 
 
 @dataclass(frozen=True, slots=True)
@@ -47,6 +53,10 @@ class Wording:
     def level_name(self) -> str:
         return f"{self.confidence:.0%}"
 
+    @property
+    def lower(self) -> str:
+        return self.label[:1].lower() + self.label[1:]
+
 
 def wording_for(stats: BriefStats, label: str) -> Wording:
     return Wording(
@@ -57,95 +67,253 @@ def wording_for(stats: BriefStats, label: str) -> Wording:
 def overall_finding(stats: BriefStats, words: Wording) -> Finding:
     o = stats.overall
     text = (
-        f"Across {fmt_count(o.n)} rows, the typical {words.label.lower()} is {words.value(o.median)} "
+        f"Across {fmt_count(o.n)} rows, the typical {words.lower} is {words.value(o.median)} "
         f"(median); half of all values lie between {words.value(o.q1)} and {words.value(o.q3)}. "
         f"The mean is {words.value(o.mean)} ({words.level_name} interval {words.interval(o.ci_low, o.ci_high)})."
     )
-    skew = ""
     if o.mean is not None and o.median is not None and o.sd and (o.mean - o.median) > 0.2 * o.sd:
-        skew = " The mean sits above the median because a minority of long values pull it up."
+        text += " The mean sits above the median because a minority of long values pull it up."
     return Finding(
-        headline=f"Typical {words.label.lower()}: {words.value(o.median)}",
-        text=text + skew,
+        headline=f"Typical {words.lower}: {words.value(o.median)}",
+        text=text,
         certainty=f"Interval from Student's t at {words.level_name} confidence.",
     )
 
 
-def _overlap(a: Summary, b: Summary) -> bool:
-    return not (
-        a.ci_low is None or b.ci_low is None or a.ci_low > b.ci_high or b.ci_low > a.ci_high
-    )
+def _pair(comparison: GroupComparison, a: str, b: str):
+    for pair in comparison.pairwise:
+        if {pair.level_a, pair.level_b} == {a, b}:
+            return pair
+    return None
 
 
-def group_finding(group: GroupStats, words: Wording, name: str | None = None) -> Finding | None:
-    """Highest against lowest mean, worded by whether their intervals overlap."""
-    name = name or group.variable
+def _test_phrase(comparison: GroupComparison) -> tuple[str, float | None]:
+    """Name of the test the brief leans on, and its p-value."""
+    if comparison.leans_on == "rank" and comparison.rank_test is not None:
+        name = "Mann–Whitney" if comparison.rank_test.test == "mann_whitney" else "Kruskal–Wallis"
+        return f"{name} rank test", comparison.rank_test.p_value
+    name = "Welch's t-test" if comparison.test == "welch_t" else "Welch's ANOVA"
+    return name, comparison.p_value
+
+
+def group_finding(
+    group: GroupStats, comparison: GroupComparison | None, words: Wording, name: str
+) -> Finding | None:
+    """Highest against lowest mean, with the test the brief leans on."""
     usable = [s for s in group.summaries if s.n >= 2 and s.mean is not None]
     if len(usable) < 2:
         return None
     high = max(usable, key=lambda s: s.mean)
     low = min(usable, key=lambda s: s.mean)
+    figure = f"group-{group.variable}"
+    if comparison is None:
+        return _overlap_finding(high, low, words, name, figure)
+    test, p = _test_phrase(comparison)
+    pair = _pair(comparison, high.level, low.level)
     gap = high.mean - low.mean
-    relative = gap / low.mean if low.mean else None
+    relative = f", or {fmt_percent(gap / low.mean)} more" if low.mean and low.mean > 0 else ""
     text = (
-        f"By {name}, {high.level} has the highest mean {words.label.lower()}, "
-        f"{words.value(high.mean)} ({words.interval(high.ci_low, high.ci_high)}), and {low.level} the lowest, "
-        f"{words.value(low.mean)} ({words.interval(low.ci_low, low.ci_high)}): a gap of {words.value(gap)}"
-        + (f" ({fmt_percent(relative)} more)." if relative is not None and low.mean > 0 else ".")
+        f"By {name}, {high.level} has the highest mean {words.lower}, {words.value(high.mean)}, and "
+        f"{low.level} the lowest, {words.value(low.mean)}: a gap of {words.value(gap)}"
     )
-    if _overlap(high, low):
-        certainty = f"The {words.level_name} intervals overlap: the data cannot separate these levels with confidence."
-        headline = f"By {name}: no clear difference"
-    else:
-        certainty = f"The {words.level_name} intervals do not overlap, so chance alone is an unlikely explanation."
+    if pair is not None and pair.ci_low is not None:
+        # The pair's difference is level_a − level_b; turn it round so the gap reads as high − low.
+        low_end, high_end = (
+            (pair.ci_low, pair.ci_high)
+            if pair.level_a == high.level
+            else (-pair.ci_high, -pair.ci_low)
+        )
+        text += f" ({words.level_name} interval {words.interval(low_end, high_end)})"
+    text += relative + "."
+    if p is not None and p < SIGNIFICANCE:
         headline = (
             f"By {name}: {high.level} highest ({words.value(high.mean)}), "
             f"{low.level} lowest ({words.value(low.mean)})"
         )
+        certainty = (
+            f"A gap this large would be unlikely if {name} made no difference ({test}, {_p(p)})."
+        )
+    else:
+        headline = f"By {name}: no clear difference"
+        certainty = (
+            f"Gaps this size arise by chance alone ({test}, {_p(p)}); the data do not show that "
+            f"{name} matters — nor that it does not."
+        )
+    if comparison.leans_on == "rank":
+        certainty += (
+            " Values are strongly skewed within groups, so the brief relies on a rank-based test."
+        )
+    return Finding(headline=headline, text=text, certainty=certainty, figure=figure)
+
+
+def _p(p: float | None) -> str:
+    # No-break spaces keep "p < 0.001" on one line.
+    text = fmt_p(p).replace(" ", "\u00a0")
+    return f"p\u00a0{text}" if text.startswith("<") else f"p\u00a0=\u00a0{text}"
+
+
+def _overlap_finding(
+    high: Summary, low: Summary, words: Wording, name: str, figure: str
+) -> Finding:
+    overlap = not (high.ci_low is None or low.ci_high is None or high.ci_low > low.ci_high)
+    text = (
+        f"By {name}, {high.level} has the highest mean {words.lower}, {words.value(high.mean)}, "
+        f"and {low.level} the lowest, {words.value(low.mean)}."
+    )
+    if overlap:
+        return Finding(f"By {name}: no clear difference", text, "Their intervals overlap.", figure)
     return Finding(
-        headline=headline, text=text, certainty=certainty, figure=f"group-{group.variable}"
+        f"By {name}: {high.level} highest, {low.level} lowest",
+        text,
+        "Their intervals do not overlap.",
+        figure,
     )
 
 
-def fit_finding(fit: RegressionFit, words: Wording, x_label: str) -> Finding | None:
+def cross_finding(
+    cross: CrossTable, words: Wording, row_name: str, column_name: str
+) -> Finding | None:
+    """The combination with the highest mean, against its row and column as a whole."""
+    trusted = [
+        c
+        for c in cross.cells
+        if c.row is not None and c.column is not None and not c.too_small and c.mean is not None
+    ]
+    if len(trusted) < 2:
+        return None
+    top = max(trusted, key=lambda c: c.mean)
+    row_margin = next((m for m in cross.row_margins if m.row == top.row), None)
+    column_margin = next((m for m in cross.column_margins if m.column == top.column), None)
+    text = (
+        f"Of the {len(trusted)} combinations of {row_name} and {column_name} with enough rows, "
+        f"{top.row} with {top.column} has the highest mean {words.lower}: {words.value(top.mean)} "
+        f"({words.interval(top.ci_low, top.ci_high)}, n = {fmt_count(top.n)})"
+    )
+    if row_margin and column_margin:
+        text += (
+            f", against {words.value(row_margin.mean)} for all of {top.row} and "
+            f"{words.value(column_margin.mean)} for all {top.column}."
+        )
+    else:
+        text += "."
+    stands_out = row_margin is not None and top.ci_low is not None and top.ci_low > row_margin.mean
+    certainty = (
+        f"Its interval lies wholly above the {top.row} average, so the combination matters, not just each part."
+        if stands_out
+        else "Its interval reaches the averages of its parts: the combination may add nothing."
+    )
+    small = sum(
+        1 for c in cross.cells if c.row is not None and c.column is not None and c.too_small
+    )
+    if small:
+        certainty += f" {small} combinations with fewer than {cross.min_cell} rows are marked and not ranked."
+    return Finding(
+        headline=f"Highest combination: {top.row} with {top.column} ({words.value(top.mean)})",
+        text=text,
+        certainty=certainty,
+        figure=f"cross-{cross.row_variable}-{cross.column_variable}",
+    )
+
+
+def trend_finding(trend: Trend, words: Wording) -> Finding | None:
+    if trend.change is None or not trend.periods:
+        return None
+    first, last = trend.first_time, trend.last_time
+    text = (
+        f"From {first:%-d %b %Y} to {last:%-d %b %Y} ({len(trend.periods)} {trend.period}s), the straight-line "
+        f"trend of {words.lower} changed by {_signed(trend.change, words)} across the span "
+        f"({words.level_name} interval {_signed(trend.change_ci_low, words)} to {_signed(trend.change_ci_high, words)})."
+    )
+    clear = trend.change_ci_low > 0 or trend.change_ci_high < 0
+    if clear:
+        direction = "rose" if trend.change > 0 else "fell"
+        headline = f"{words.label} {direction} over time ({_signed(trend.change, words)})"
+        certainty = "The interval excludes zero. A trend says what happened, not why."
+    else:
+        headline = f"No clear trend in {words.lower} over time"
+        certainty = "The interval includes zero: the data show no steady rise or fall."
+    return Finding(headline=headline, text=text, certainty=certainty, figure="trend")
+
+
+def _signed(value: float | None, words: Wording) -> str:
+    text = words.value(value)
+    return text if text.startswith("−") or text == "–" else f"+{text}"
+
+
+def fit_finding(
+    fit: RegressionFit,
+    correlation: Correlation | None,
+    log_fit: LogFit | None,
+    slopes: list[tuple[str, GroupSlopes]],
+    words: Wording,
+    x_label: str,
+) -> Finding | None:
+    """Slope per unit with its interval, strength, and whether groups change it."""
     if fit.slope is None or fit.slope_ci_low is None:
         return None
-    x_decimals = decimals_for(abs(fit.slope))
+    d = decimals_for(abs(fit.slope))
+    x_lower = x_label[:1].lower() + x_label[1:]
     direction = "rises" if fit.slope > 0 else "falls"
     text = (
-        f"{words.label} {direction} with {x_label.lower()}: each extra unit goes with "
-        f"{fmt(abs(fit.slope), x_decimals)} {'more' if fit.slope > 0 else 'less'} on average "
-        f"({words.level_name} interval {fmt(fit.slope_ci_low, x_decimals)} to {fmt(fit.slope_ci_high, x_decimals)}). "
-        f"{x_label} accounts for {fmt_percent(fit.r_squared)} of the variation (R², {fmt_count(fit.n)} rows)."
+        f"{words.label} {direction} with {x_lower}: each extra unit goes with "
+        f"{fmt(abs(fit.slope), d)} {'more' if fit.slope > 0 else 'less'} on average "
+        f"({words.level_name} interval {fmt(fit.slope_ci_low, d)} to {fmt(fit.slope_ci_high, d)}), "
+        f"and {x_lower} accounts for {fmt_percent(fit.r_squared)} of the variation (R², {fmt_count(fit.n)} rows)."
     )
+    if correlation is not None and correlation.spearman_rho is not None:
+        text += f" Rank correlation ρ = {correlation.spearman_rho:.2f} (Pearson r = {correlation.pearson_r:.2f})."
+    if log_fit is not None and log_fit.percent_change_per_unit is not None:
+        text += (
+            f" In relative terms, each unit adds about {fmt(log_fit.percent_change_per_unit, 1)}% "
+            f"({fmt(log_fit.percent_ci_low, 1)}% to {fmt(log_fit.percent_ci_high, 1)}%, fit on the log scale)."
+        )
+    differing = [name for name, s in slopes if s.p_value is not None and s.p_value < SIGNIFICANCE]
+    if differing:
+        text += (
+            f" The slope is not the same everywhere: it differs by {', '.join(differing)} (F test)."
+        )
     excludes_zero = fit.slope_ci_low > 0 or fit.slope_ci_high < 0
     certainty = (
         "The interval excludes zero. This is an association in these data, not proof of cause."
         if excludes_zero
         else "The interval includes zero: no clear straight-line relationship."
     )
+    per_unit = f"{'+' if fit.slope > 0 else '−'}{fmt(abs(fit.slope), d)} per unit"
     headline = (
-        f"{words.label} {direction} with {x_label.lower()}"
+        f"{words.label} {direction} with {x_lower} ({per_unit})"
         if excludes_zero
-        else f"No clear link with {x_label.lower()}"
+        else f"No clear link with {x_lower}"
     )
     return Finding(headline=headline, text=text, certainty=certainty, figure=f"fit-{fit.predictor}")
 
 
-def cautions(stats: BriefStats, words: Wording) -> list[str]:
+def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[str]:
     """What a reader must know before acting on the brief."""
     notes = []
     for group in stats.groups:
         small = [s for s in group.summaries if s.n < SMALL_GROUP]
         if small:
-            names = ", ".join(f"{s.level} (n = {s.n})" for s in small)
+            listed = ", ".join(f"{s.level} (n = {s.n})" for s in small)
             notes.append(
-                f"Small groups in {group.variable}: {names}. Their averages can move a lot with a few more rows."
+                f"Small groups in {names.get(group.variable, group.variable)}: {listed}. "
+                "Their averages can move a lot with a few more rows."
             )
-    if stats.fits:
+    skewed = [c for c in stats.comparisons if c.strongly_skewed]
+    if skewed:
         notes.append(
-            "Relationships shown are associations in these data; they do not show that one thing causes "
-            "another, and other factors not in the data may explain them."
+            f"{words.label} is strongly skewed: a few long values pull means up. The median is the better "
+            "'typical' value, and group tests were checked with rank-based tests."
+        )
+    if stats.fits or stats.crosses:
+        notes.append(
+            "Relationships and differences shown are associations in these data; they do not show that one "
+            "thing causes another, and factors not in the data may explain them."
+        )
+    many = sum(len(c.pairwise) for c in stats.comparisons)
+    if many > 3:
+        notes.append(
+            f"The brief makes {many} pairwise comparisons; some small p-values would arise by chance, so "
+            "pairwise p-values are adjusted for this (Holm's method)."
         )
     box = stats.overall_box
     if box is not None and box.outlier_count:
@@ -153,8 +321,11 @@ def cautions(stats: BriefStats, words: Wording) -> list[str]:
             f"{fmt_count(box.outlier_count)} values lie far from the rest (beyond 1.5 × IQR from the box). "
             "None were removed: every figure and average includes them."
         )
-    acc = stats.accounting
-    for dropped in acc.dropped:
+    if stats.trend is not None and any(p.partial for p in stats.trend.periods):
+        notes.append(
+            "The first or last period of the trend is only partly covered by the data; read its value with care."
+        )
+    for dropped in stats.accounting.dropped:
         notes.append(
             f"{fmt_count(dropped.rows)} rows left out of {dropped.analysis}: {dropped.reason}."
         )

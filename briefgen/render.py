@@ -91,6 +91,8 @@ def _plain(value):
         return [_plain(v) for v in value]
     if isinstance(value, float):
         return value if math.isfinite(value) else None
+    if isinstance(value, dt.date):  # datetime is a date too
+        return value.isoformat()
     if hasattr(value, "item"):  # numpy scalars
         return _plain(value.item())
     return value

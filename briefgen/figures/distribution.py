@@ -67,7 +67,7 @@ def _mark_edges(
 
 
 def distribution_chart(
-    group: GroupStats, overall: Summary, label: str, decimals: int, confidence: float
+    group: GroupStats, overall: Summary, label: str, decimals: int, confidence: float, name: str
 ) -> Chart:
     """Boxes (left) and means with intervals (right) for every level of one group."""
     boxes = [b for b in group.boxes]
@@ -170,15 +170,15 @@ def distribution_chart(
             "edge of the axis, which stops there so the boxes stay readable; arrows give their count."
         )
     caption = (
-        f"{label} by {group.variable}. Left: Tukey box plots. Right: means with {confidence:.0%} "
+        f"{label} by {name}. Left: Tukey box plots. Right: means with {confidence:.0%} "
         f"Student t intervals; dashed line: overall mean. n per level: {counts}. {outlier_note}"
     )
     high = max(boxes, key=lambda b: b.median)
     low = min(boxes, key=lambda b: b.median)
     alt = (
-        f"Box plots and means of {label.lower()} for {len(boxes)} levels of {group.variable}. "
+        f"Box plots and means of {label.lower()} for {len(boxes)} levels of {name}. "
         f"Highest median: {high.level} ({fmt(high.median, decimals)}); lowest: {low.level} "
         f"({fmt(low.median, decimals)})."
     )
-    title = f"{label} by {group.variable}"
+    title = f"{label} by {name}"
     return Chart(key=f"group-{group.variable}", title=title, svg=svg, alt=alt, caption=caption)

@@ -7,7 +7,7 @@
 from __future__ import annotations
 
 import logging
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import ibis
 
@@ -15,15 +15,37 @@ from briefgen.config import BriefSpec
 from briefgen.errors import DataError
 from briefgen.profile import MAX_LEVELS, fold_small_levels, level_order
 from briefgen.source import Source
-from briefgen.stats.accounting import Accounting, count_rows
+from briefgen.stats.accounting import Accounting, Dropped, count_rows
+from briefgen.stats.compare import GroupComparison, compare_groups
+from briefgen.stats.correlation import Correlation, correlate
 from briefgen.stats.frame import AnalysisFrame, build_frame
 from briefgen.stats.groups import ALL_ROWS, BoxStats, GroupStats, Summary, summarise_levels
 from briefgen.stats.regression import RegressionFit, fit_lines
+from briefgen.stats.relationships import (
+    GroupSlopes,
+    LogFit,
+    LogSkipped,
+    fit_log_target,
+    slopes_by_group,
+)
 from briefgen.stats.sample import Sample, draw_sample
+from briefgen.stats.trend import Trend, time_trend
+from briefgen.stats.twoway import CrossTable, cross_table
 
 log = logging.getLogger(__name__)
 
-__all__ = ["BriefStats", "BoxStats", "GroupStats", "RegressionFit", "Sample", "Summary", "compute"]
+__all__ = [
+    "BoxStats",
+    "BriefStats",
+    "CrossTable",
+    "GroupComparison",
+    "GroupStats",
+    "RegressionFit",
+    "Sample",
+    "Summary",
+    "Trend",
+    "compute",
+]
 
 
 @dataclass(frozen=True, slots=True)
@@ -35,9 +57,26 @@ class BriefStats:
     overall: Summary
     overall_box: BoxStats | None
     groups: tuple[GroupStats, ...]
+    comparisons: tuple[GroupComparison, ...]
+    crosses: tuple[CrossTable, ...]
+    trend: Trend | None
     fits: tuple[RegressionFit, ...]
+    correlations: tuple[Correlation, ...]
+    slopes_by_group: tuple[GroupSlopes, ...]
+    log_fits: tuple[LogFit, ...] | LogSkipped | None
     sample: Sample
     accounting: Accounting
+
+    def comparison(self, variable: str) -> GroupComparison | None:
+        return next((c for c in self.comparisons if c.variable == variable), None)
+
+    def correlation(self, predictor: str) -> Correlation | None:
+        return next((c for c in self.correlations if c.predictor == predictor), None)
+
+    def log_fit(self, predictor: str) -> LogFit | None:
+        if not isinstance(self.log_fits, tuple):
+            return None
+        return next((f for f in self.log_fits if f.predictor == predictor), None)
 
 
 def _group_stats(frame: AnalysisFrame, group: str, confidence: float) -> GroupStats:
@@ -64,38 +103,84 @@ def compute(source: Source, spec: BriefSpec) -> BriefStats:
     frame = build_frame(source.table, spec)
     table = frame.table
     confidence = spec.confidence
-    overall_rows = table.mutate(level=ibis.literal(ALL_ROWS))
-    summaries, boxes = summarise_levels(overall_rows, confidence)
+    summaries, boxes = summarise_levels(table.mutate(level=ibis.literal(ALL_ROWS)), confidence)
     if not summaries or summaries[0].n == 0:
         raise DataError(
             f"{source.label}: no row has a numeric value in '{spec.target}'; check the target column."
         )
-    overall = summaries[0]
     groups = tuple(_group_stats(frame, group, confidence) for group in spec.groups)
-    predictor_columns = list(frame.predictors)
-    fits = fit_lines(table, predictor_columns, confidence)
-    fits = tuple(_rename_fit(fit, frame.predictors[fit.predictor]) for fit in fits)
-    sample = draw_sample(table, predictor_columns)
-    sample = Sample(
-        rows_available=sample.rows_available,
-        y=sample.y,
-        x={frame.predictors[key]: values for key, values in sample.x.items()},
+    comparisons = tuple(
+        c
+        for group in groups
+        if (
+            c := compare_groups(
+                frame.levels(group.variable), group.summaries, confidence, variable=group.variable
+            )
+        )
     )
-    accounting = count_rows(source.table, frame, spec)
+    crosses = tuple(
+        cross_table(
+            table, frame.group_column(a), frame.group_column(b), a, b, confidence, spec.min_cell
+        )
+        for a, b in spec.cross_pairs
+    )
+    trend = time_trend(table, confidence, spec.time.period) if spec.time else None
+    columns = list(frame.predictors)
+    names = [frame.predictors[c] for c in columns]
+    fits = tuple(
+        replace(fit, predictor=frame.predictors[fit.predictor])
+        for fit in fit_lines(table, columns, confidence)
+    )
+    correlations = correlate(table, columns, names, confidence) if columns else ()
+    slopes = tuple(
+        slopes_by_group(table, frame.group_column(g), frame.predictor_column(p), g, p, confidence)
+        for p in spec.predictors
+        for g in spec.groups
+    )
+    log_fits = (
+        fit_log_target(table, columns, names, confidence) if spec.log_target and columns else None
+    )
+    if isinstance(log_fits, tuple):
+        log_fits = tuple(replace(f, line=replace(f.line, predictor=f.predictor)) for f in log_fits)
+    sample = draw_sample(table, columns)
+    sample = replace(sample, x={frame.predictors[key]: values for key, values in sample.x.items()})
+    accounting = _with_analysis_counts(count_rows(source.table, frame, spec), crosses, trend)
     log.info("statistics done: %d rows read", accounting.rows_read)
     return BriefStats(
         target=spec.target,
         confidence=confidence,
-        overall=overall,
+        overall=summaries[0],
         overall_box=boxes[0] if boxes else None,
         groups=groups,
+        comparisons=comparisons,
+        crosses=crosses,
+        trend=trend,
         fits=fits,
+        correlations=correlations,
+        slopes_by_group=slopes,
+        log_fits=log_fits,
         sample=sample,
         accounting=accounting,
     )
 
 
-def _rename_fit(fit: RegressionFit, name: str) -> RegressionFit:
-    from dataclasses import replace
-
-    return replace(fit, predictor=name)
+def _with_analysis_counts(accounting: Accounting, crosses, trend) -> Accounting:
+    """Add the rows each two-way table and the trend used, and what they left out."""
+    used = dict(accounting.used)
+    dropped = list(accounting.dropped)
+    with_target = accounting.used["target"]
+    for cross in crosses:
+        pair = f"{cross.row_variable} × {cross.column_variable}"
+        used[f"cross:{pair}"] = cross.total.n if cross.total else 0
+        if with_target > used[f"cross:{pair}"]:
+            reason = "no value in one of the two groups"
+            dropped.append(
+                Dropped(f"the table of {pair}", reason, with_target - used[f"cross:{pair}"])
+            )
+    if trend is not None:
+        used["trend"] = trend.rows_used
+        if with_target > trend.rows_used:
+            dropped.append(
+                Dropped("the trend over time", "no usable date", with_target - trend.rows_used)
+            )
+    return replace(accounting, used=used, dropped=tuple(dropped))

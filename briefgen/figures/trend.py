@@ -1,0 +1,83 @@
+"""Target over time: one mean per period with its interval, on a true date axis.
+
+Periods sit at their real dates, so gaps show as gaps. Partly covered periods
+are drawn hollow, and the straight-line trend from the full data is overlaid.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+
+import matplotlib.dates as mdates
+
+from briefgen.figures.theme import ACCENT, INK, LINE, Chart, new_figure, themed, to_svg
+from briefgen.numbers import fmt, fmt_count
+from briefgen.stats.trend import Trend
+
+
+def _middle(start: dt.date, end: dt.date) -> dt.datetime:
+    return dt.datetime.combine(start, dt.time()) + (end - start) / 2
+
+
+def trend_chart(trend: Trend, label: str, decimals: int, confidence: float) -> Chart | None:
+    """Means per period with intervals, and the fitted straight-line trend."""
+    if len(trend.periods) < 2:
+        return None
+    middles = [_middle(p.start, p.end) for p in trend.periods]
+    means = [p.mean for p in trend.periods]
+    lows = [p.ci_low if p.ci_low is not None else p.mean for p in trend.periods]
+    highs = [p.ci_high if p.ci_high is not None else p.mean for p in trend.periods]
+    with themed():
+        figure = new_figure(2.9)
+        axes = figure.subplots()
+        axes.vlines(middles, lows, highs, color=LINE, linewidth=1.6)
+        axes.plot(middles, means, color=LINE, linewidth=0.8, alpha=0.6)
+        full = [
+            (m, v) for m, v, p in zip(middles, means, trend.periods, strict=True) if not p.partial
+        ]
+        part = [(m, v) for m, v, p in zip(middles, means, trend.periods, strict=True) if p.partial]
+        if full:
+            axes.plot(
+                *zip(*full, strict=True), "o", color=LINE, markersize=4.5, label="period mean"
+            )
+        if part:
+            axes.plot(
+                *zip(*part, strict=True),
+                "o",
+                markerfacecolor="white",
+                markeredgecolor=LINE,
+                markersize=4.5,
+                label="period only partly covered",
+            )
+        if trend.fit is not None and trend.fit.slope is not None and trend.first_time is not None:
+            start, end = trend.first_time, trend.last_time
+            days = (end - start).total_seconds() / 86_400
+            ends = [trend.fit.intercept, trend.fit.intercept + trend.fit.slope * days]
+            axes.plot(
+                [start, end],
+                ends,
+                color=ACCENT,
+                linestyle=(0, (4, 2)),
+                linewidth=1.3,
+                label="straight-line trend",
+            )
+        locator = mdates.AutoDateLocator(minticks=4, maxticks=9)
+        axes.xaxis.set_major_locator(locator)
+        axes.xaxis.set_major_formatter(mdates.ConciseDateFormatter(locator))
+        axes.set_ylabel(f"Mean {label[:1].lower() + label[1:]}")
+        axes.legend(loc="upper left", ncols=3, fontsize=8)
+        axes.margins(y=0.25)
+        axes.tick_params(colors=INK)
+        svg = to_svg(figure)
+    n = sum(p.n for p in trend.periods)
+    caption = (
+        f"Mean {label[:1].lower() + label[1:]} per {trend.period} with {confidence:.0%} Student t intervals, "
+        f"{fmt_count(n)} rows over {len(trend.periods)} {trend.period}s. Hollow points: periods the data cover "
+        "only in part. Dashed: least-squares straight line through all rows."
+    )
+    alt = (
+        f"Line chart of mean {label.lower()} per {trend.period} from {trend.periods[0].start:%d %b %Y} to "
+        f"{trend.periods[-1].start:%d %b %Y}, ranging from {fmt(min(means), decimals)} to "
+        f"{fmt(max(means), decimals)}."
+    )
+    return Chart(key="trend", title=f"{label} over time", svg=svg, alt=alt, caption=caption)

@@ -1,0 +1,280 @@
+"""Results ─► tables of formatted cells, for the body of the brief and its appendix.
+
+Every cell is written with the same formatter as the findings, so a number in a
+table and the same number in a sentence always read alike.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from briefgen.findings import Wording
+from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_p, fmt_percent
+from briefgen.stats import BriefStats
+from briefgen.stats.compare import GroupComparison
+from briefgen.stats.groups import GroupStats
+from briefgen.stats.trend import Trend
+from briefgen.stats.twoway import CrossTable
+
+SMALL_MARK = "†"
+
+
+@dataclass(frozen=True, slots=True)
+class Table:
+    """Header and rows of already formatted cells; ``numeric`` marks right-aligned columns."""
+
+    key: str
+    caption: str
+    header: tuple[str, ...]
+    rows: tuple[tuple[str, ...], ...]
+    numeric: tuple[bool, ...]
+    notes: tuple[str, ...] = ()
+
+
+def group_table(group: GroupStats, words: Wording, name: str) -> Table:
+    rows = []
+    boxes = {b.level: b for b in group.boxes}
+    for s in group.summaries:
+        box = boxes.get(s.level)
+        rows.append(
+            (
+                s.level,
+                fmt_count(s.n),
+                words.value(s.mean),
+                words.interval(s.ci_low, s.ci_high) if s.ci_low is not None else "–",
+                words.value(s.median),
+                f"{words.value(s.q1)} – {words.value(s.q3)}" if s.q1 is not None else "–",
+                fmt_count(box.outlier_count) if box else "–",
+            )
+        )
+    notes = []
+    if group.rows_without_level:
+        notes.append(
+            f"{fmt_count(group.rows_without_level)} rows have no {name} and are not in this table."
+        )
+    return Table(
+        key=f"table-group-{group.variable}",
+        caption=f"{words.label} by {name}",
+        header=(
+            "Level",
+            "n",
+            "Mean",
+            f"{words.level_name} interval",
+            "Median",
+            "Middle half (Q1 – Q3)",
+            "Outliers",
+        ),
+        rows=tuple(rows),
+        numeric=(False, True, True, True, True, True, True),
+        notes=tuple(notes),
+    )
+
+
+def pairwise_table(comparison: GroupComparison, words: Wording, name: str) -> Table:
+    rows = []
+    for pair in comparison.pairwise:
+        rows.append(
+            (
+                f"{pair.level_a} − {pair.level_b}",
+                words.value(pair.difference),
+                words.interval(pair.ci_low, pair.ci_high) if pair.ci_low is not None else "–",
+                fmt_p(pair.p_value),
+                fmt_p(pair.p_holm),
+            )
+        )
+    test = "Welch's t-test" if comparison.test == "welch_t" else "Welch's ANOVA"
+    notes = [
+        f"Overall: {test}, p {fmt_p(comparison.p_value)}."
+        + (
+            f" Rank-based check ({'Mann–Whitney' if comparison.rank_test.test == 'mann_whitney' else 'Kruskal–Wallis'}): "
+            f"p {fmt_p(comparison.rank_test.p_value)}."
+            if comparison.rank_test is not None
+            else ""
+        )
+        + f" The brief leans on the {'rank-based test' if comparison.leans_on == 'rank' else 'Welch test'}: "
+        f"{comparison.leans_on_reason}."
+    ]
+    notes += list(comparison.notes)
+    return Table(
+        key=f"table-pairs-{comparison.variable}",
+        caption=f"Differences in mean {words.lower} between levels of {name}",
+        header=(
+            "Pair (first − second)",
+            "Difference",
+            f"{words.level_name} interval",
+            "p",
+            "p (Holm)",
+        ),
+        rows=tuple(rows),
+        numeric=(False, True, True, True, True),
+        notes=tuple(notes),
+    )
+
+
+def cross_table_view(cross: CrossTable, words: Wording, names: tuple[str, str]) -> Table:
+    """Mean (n) per cell, with row margins; small cells carry a mark and a note."""
+    header = (names[0], *cross.columns, "All")
+    rows = []
+    for row in cross.rows:
+        cells = []
+        for column in cross.columns:
+            c = cross.cell(row, column)
+            if c is None:
+                cells.append("–")
+                continue
+            mark = SMALL_MARK if c.too_small else ""
+            cells.append(f"{words.value(c.mean)} ({fmt_count(c.n)}){mark}")
+        margin = cross.cell(row, None)
+        cells.append(f"{words.value(margin.mean)} ({fmt_count(margin.n)})" if margin else "–")
+        rows.append((row, *cells))
+    totals = [cross.cell(None, column) for column in cross.columns]
+    rows.append(
+        (
+            "All",
+            *[f"{words.value(t.mean)} ({fmt_count(t.n)})" if t else "–" for t in totals],
+            f"{words.value(cross.total.mean)} ({fmt_count(cross.total.n)})" if cross.total else "–",
+        )
+    )
+    notes = [f"Mean {words.lower} (n) per combination; rows: {names[0]}, columns: {names[1]}."]
+    if any(c.too_small for c in cross.cells):
+        notes.append(f"{SMALL_MARK} fewer than {cross.min_cell} rows: too few to trust.")
+    return Table(
+        key=f"table-cross-{cross.row_variable}-{cross.column_variable}",
+        caption=f"Mean {words.lower} by {names[0]} and {names[1]}",
+        header=header,
+        rows=tuple(rows),
+        numeric=(False, *[True] * (len(header) - 1)),
+        notes=tuple(notes),
+    )
+
+
+def trend_table(trend: Trend, words: Wording) -> Table:
+    rows = []
+    for p in trend.periods:
+        rows.append(
+            (
+                f"{p.start:%Y-%m-%d}" + (" (part)" if p.partial else ""),
+                fmt_count(p.n),
+                words.value(p.mean),
+                words.interval(p.ci_low, p.ci_high) if p.ci_low is not None else "–",
+                words.value(p.median),
+            )
+        )
+    notes = []
+    if trend.gaps:
+        notes.append(f"{len(trend.gaps)} {trend.period}s in the span have no rows.")
+    return Table(
+        key="table-trend",
+        caption=f"{words.label} per {trend.period} (period starting)",
+        header=("Period", "n", "Mean", f"{words.level_name} interval", "Median"),
+        rows=tuple(rows),
+        numeric=(False, True, True, True, True),
+        notes=tuple(notes),
+    )
+
+
+def fits_table(stats: BriefStats, labels: dict[str, str], words: Wording) -> Table:
+    rows = []
+    for fit in stats.fits:
+        d = decimals_for(abs(fit.slope) if fit.slope else None)
+        corr = stats.correlation(fit.predictor)
+        log_fit = stats.log_fit(fit.predictor)
+        rows.append(
+            (
+                labels.get(fit.predictor, fit.predictor),
+                fmt_count(fit.n),
+                fmt(fit.slope, d),
+                f"{fmt(fit.slope_ci_low, d)} to {fmt(fit.slope_ci_high, d)}",
+                fmt(fit.r_squared, 2) if fit.r_squared is not None else "–",
+                fmt(corr.pearson_r, 2) if corr and corr.pearson_r is not None else "–",
+                fmt(corr.spearman_rho, 2) if corr and corr.spearman_rho is not None else "–",
+                f"{fmt(log_fit.percent_change_per_unit, 1)}%" if log_fit else "–",
+            )
+        )
+    notes = [
+        "Slope: change in the target per unit of the predictor (least squares). ρ: Spearman rank correlation."
+    ]
+    if stats.log_fits is not None and not isinstance(stats.log_fits, tuple):
+        notes.append(f"No log-scale fit: {stats.log_fits.reason}")
+    elif stats.log_fits:
+        notes.append("% per unit: relative change per unit from a fit on the log of the target.")
+    return Table(
+        key="table-fits",
+        caption=f"Straight-line fits of {words.lower}",
+        header=(
+            "Predictor",
+            "n",
+            "Slope",
+            f"{words.level_name} interval",
+            "R²",
+            "Pearson r",
+            "ρ",
+            "% per unit",
+        ),
+        rows=tuple(rows),
+        numeric=(False, True, True, True, True, True, True, True),
+        notes=tuple(notes),
+    )
+
+
+def slopes_table(stats: BriefStats, labels: dict[str, str], names: dict[str, str]) -> Table:
+    rows = []
+    for s in stats.slopes_by_group:
+        slopes = [lv.slope for lv in s.levels if lv.slope is not None]
+        d = decimals_for(max(abs(v) for v in slopes) if slopes else None)
+        rows.append(
+            (
+                f"{labels.get(s.predictor, s.predictor)} by {names.get(s.group, s.group)}",
+                f"{fmt(min(slopes), d)} to {fmt(max(slopes), d)}" if slopes else "–",
+                fmt(s.f_statistic, 2) if s.f_statistic is not None else "–",
+                f"{s.df_between}, {s.df_within}" if s.df_between is not None else "–",
+                fmt_p(s.p_value),
+            )
+        )
+    return Table(
+        key="table-slopes",
+        caption="Does the slope differ between groups?",
+        header=("Slope of", "Range of level slopes", "F", "df", "p"),
+        rows=tuple(rows),
+        numeric=(False, True, True, True, True),
+        notes=(
+            "F test of separate lines per level against parallel lines; small p: the slopes differ.",
+        ),
+    )
+
+
+def accounting_table(stats: BriefStats, labels: dict[str, str]) -> Table:
+    acc = stats.accounting
+    rows = [("Rows read", fmt_count(acc.rows_read), fmt_percent(1.0))]
+
+    def share(n: int) -> str:
+        return fmt_percent(n / acc.rows_read, 1) if acc.rows_read else "–"
+
+    for name, n in acc.used.items():
+        kind, _, what = name.partition(":")
+        title = {
+            "target": "Used: overall summary",
+            "group": f"Used: comparison by {what}",
+            "fit": f"Used: relationship with {labels.get(what, what)}",
+            "cross": f"Used: table of {what}",
+            "trend": "Used: trend over time",
+        }[kind]
+        rows.append((title, fmt_count(n), share(n)))
+    rows += [
+        (f"Left out of {d.analysis}: {d.reason}", fmt_count(d.rows), share(d.rows))
+        for d in acc.dropped
+    ]
+    missing = [f"{column} {fmt_count(n)}" for column, n in acc.missing_by_column.items() if n]
+    notes = [
+        "Empty cells per column: " + ", ".join(missing) + "."
+        if missing
+        else "No column has empty cells."
+    ]
+    return Table(
+        key="table-rows",
+        caption="Where every row went",
+        header=("", "Rows", "Share"),
+        rows=tuple(rows),
+        numeric=(False, True, True),
+        notes=tuple(notes),
+    )
