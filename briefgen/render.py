@@ -110,6 +110,11 @@ def render_json(stats: BriefStats, spec: BriefSpec, built_on: str) -> str:
         "predictors": list(spec.predictors),
         "stats": _plain(stats),
     }
-    payload["stats"].pop("sample", None)
-    payload["sample_size"] = stats.sample.size
+    # The sampled rows themselves stay out of the JSON; how many were drawn goes in.
+    sample = stats.sample
+    payload["stats"]["sample"] = {
+        "size": sample.size,
+        "rows_available": sample.rows_available,
+        "points_drawn": {name: sample.points(name) for name in sample.x},
+    }
     return json.dumps(payload, indent=2, ensure_ascii=False, allow_nan=False) + "\n"

@@ -28,6 +28,10 @@ class Sample:
     def size(self) -> int:
         return len(self.y)
 
+    def points(self, predictor: str) -> int:
+        """Sampled rows with both the target and ``predictor``: the points a scatter draws."""
+        return sum(1 for x in self.x[predictor] if x is not None)
+
 
 def draw_sample(
     frame: ir.Table, predictors: list[str], size: int = SAMPLE_SIZE, seed: int = SEED
