@@ -33,6 +33,7 @@ class Finding:
     text: str
     certainty: str
     figure: str | None = None
+    detail: str = ""  # a further sentence for the section; page 1 shows only the certainty
 
 
 @dataclass(frozen=True, slots=True)
@@ -139,11 +140,12 @@ def group_finding(
             f"Gaps this size arise by chance alone ({test}, {_p(p)}); the data do not show that "
             f"{name} matters — nor that it does not."
         )
+    detail = ""
     if comparison.leans_on == "rank":
-        certainty += (
-            " Values are strongly skewed within groups, so the brief relies on a rank-based test."
+        detail = (
+            "Values are strongly skewed within groups, so the brief relies on a rank-based test."
         )
-    return Finding(headline=headline, text=text, certainty=certainty, figure=figure)
+    return Finding(headline=headline, text=text, certainty=certainty, figure=figure, detail=detail)
 
 
 def _p(p: float | None) -> str:
@@ -205,13 +207,17 @@ def cross_finding(
     small = sum(
         1 for c in cross.cells if c.row is not None and c.column is not None and c.too_small
     )
-    if small:
-        certainty += f" {small} combinations with fewer than {cross.min_cell} rows are marked and not ranked."
+    detail = (
+        f"{small} combinations with fewer than {cross.min_cell} rows are marked and not ranked."
+        if small
+        else ""
+    )
     return Finding(
         headline=f"Highest combination: {top.row} with {top.column} ({words.value(top.mean)})",
         text=text,
         certainty=certainty,
         figure=f"cross-{cross.row_variable}-{cross.column_variable}",
+        detail=detail,
     )
 
 
