@@ -33,8 +33,8 @@ demo: system-deps $(STAMP)
 	$(BIN)/briefgen demo --out out/demo
 
 lint: $(TEST_STAMP)
-	$(BIN)/ruff check briefgen tests benchmarks
-	$(BIN)/ruff format --check briefgen tests benchmarks
+	$(BIN)/ruff check .
+	$(BIN)/ruff format --check .
 
 test: system-deps $(TEST_STAMP) lint
 	$(BIN)/pytest -q
