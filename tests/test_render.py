@@ -167,3 +167,20 @@ def test_stats_json_is_plain_json(demo_build):
     assert payload["target"] == "delivery_minutes"
     assert payload["built_on"] == BUILT_ON
     assert payload["stats"]["overall"]["n"] > 0
+
+
+def test_example_output_is_current(demo_build):
+    """example_output/ must be rebuilt (make example) whenever the brief's numbers or words change.
+
+    Figures are compared by presence only: their bytes depend on the matplotlib release.
+    """
+    from pathlib import Path
+
+    example = Path(__file__).parents[1] / "example_output"
+    assert (example / "stats.json").read_bytes() == (demo_build / "stats.json").read_bytes()
+
+    def words(path: Path) -> str:
+        return re.sub(r"data:image/svg\+xml;base64,[A-Za-z0-9+/=]+", "", path.read_text(encoding="utf-8"))
+
+    assert words(example / "brief.html") == words(demo_build / "brief.html")
+    assert (example / "brief.pdf").stat().st_size > 0
