@@ -17,6 +17,7 @@ from briefgen.figures.theme import Chart
 from briefgen.figures.trend import trend_chart
 from briefgen.findings import (
     Finding,
+    Wording,
     cautions,
     cross_finding,
     fit_finding,
@@ -26,7 +27,7 @@ from briefgen.findings import (
     wording_for,
 )
 from briefgen.numbers import decimals_for, fmt_count
-from briefgen.stats import BriefStats
+from briefgen.stats import BriefStats, CrossTable, RegressionFit, Trend
 from briefgen.tables import (
     Table,
     accounting_table,
@@ -106,10 +107,13 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
     return tuple(notes)
 
 
-def _sections(stats: BriefStats, spec: BriefSpec, words) -> tuple[list[Section], list[Table]]:
+def _group_sections(
+    stats: BriefStats, spec: BriefSpec, words: Wording
+) -> tuple[list[Section], list[Table]]:
+    """One section per group, and the pairwise tests of each compared group for the appendix."""
     label, decimals, confidence = words.label, words.unit_decimals, stats.confidence
     sections: list[Section] = []
-    appendix: list[Table] = []
+    pairwise: list[Table] = []
     for group in stats.groups:
         name = name_for(spec, group.variable)
         comparison = stats.comparison(group.variable)
@@ -129,57 +133,75 @@ def _sections(stats: BriefStats, spec: BriefSpec, words) -> tuple[list[Section],
             )
         )
         if comparison is not None:
-            appendix.append(pairwise_table(comparison, words, name))
-    for cross in stats.crosses:
-        names = (name_for(spec, cross.row_variable), name_for(spec, cross.column_variable))
-        finding = cross_finding(cross, words, *names)
-        sections.append(
-            Section(
-                f"cross-{cross.row_variable}-{cross.column_variable}",
-                f"{label} by {names[0]} and {names[1]}",
-                finding,
-                cross_chart(cross, label, decimals, names),
-                cross_table_view(cross, words, names),
-            )
-        )
+            pairwise.append(pairwise_table(comparison, words, name))
+    return sections, pairwise
+
+
+def _cross_section(cross: CrossTable, spec: BriefSpec, words: Wording) -> Section:
+    """The two-way means of one pair of groups."""
+    label, decimals = words.label, words.unit_decimals
+    names = (name_for(spec, cross.row_variable), name_for(spec, cross.column_variable))
+    finding = cross_finding(cross, words, *names)
+    return Section(
+        f"cross-{cross.row_variable}-{cross.column_variable}",
+        f"{label} by {names[0]} and {names[1]}",
+        finding,
+        cross_chart(cross, label, decimals, names),
+        cross_table_view(cross, words, names),
+    )
+
+
+def _trend_section(trend: Trend, words: Wording, confidence: float) -> Section:
+    """The target over time; its period-by-period table goes to the appendix."""
+    return Section(
+        "trend",
+        f"{words.label} over time",
+        trend_finding(trend, words),
+        trend_chart(trend, words.label, words.unit_decimals, confidence),
+        None,
+    )
+
+
+def _fit_section(
+    stats: BriefStats, fit: RegressionFit, words: Wording, x_label: str, names: dict[str, str]
+) -> Section:
+    """The straight-line fit on one predictor, with its correlation and per-group slopes."""
+    label = words.label
+    slopes = [(names[s.group], s) for s in stats.slopes_by_group if s.predictor == fit.predictor]
+    finding = fit_finding(
+        fit,
+        stats.correlation(fit.predictor),
+        stats.log_fit(fit.predictor),
+        slopes,
+        words,
+        x_label,
+    )
+    chart = relationship_chart(
+        fit,
+        stats.sample,
+        x_label,
+        label,
+        # The slope gets its own decimals: its scale is target units per predictor unit.
+        decimals_for(abs(fit.slope or 0) or None),
+        stats.confidence,
+    )
+    return Section(f"fit-{fit.predictor}", f"{label} and {x_label}", finding, chart, None)
+
+
+def _sections(
+    stats: BriefStats, spec: BriefSpec, words: Wording
+) -> tuple[list[Section], list[Table]]:
+    """Every analysis as a section in reading order, and the detail tables for the appendix."""
+    sections, appendix = _group_sections(stats, spec, words)
+    sections += [_cross_section(cross, spec, words) for cross in stats.crosses]
     if stats.trend is not None:
-        sections.append(
-            Section(
-                "trend",
-                f"{label} over time",
-                trend_finding(stats.trend, words),
-                trend_chart(stats.trend, label, decimals, confidence),
-                None,
-            )
-        )
+        sections.append(_trend_section(stats.trend, words, stats.confidence))
         appendix.append(trend_table(stats.trend, words))
     labels = {p: label_for(spec, p) for p in spec.predictors}
     names = {g: name_for(spec, g) for g in spec.groups}
-    for fit in stats.fits:
-        x_label = labels[fit.predictor]
-        slopes = [
-            (names[s.group], s) for s in stats.slopes_by_group if s.predictor == fit.predictor
-        ]
-        finding = fit_finding(
-            fit,
-            stats.correlation(fit.predictor),
-            stats.log_fit(fit.predictor),
-            slopes,
-            words,
-            x_label,
-        )
-        chart = relationship_chart(
-            fit,
-            stats.sample,
-            x_label,
-            label,
-            decimals_for(abs(fit.slope or 0) or None),
-            decimals,
-            confidence,
-        )
-        sections.append(
-            Section(f"fit-{fit.predictor}", f"{label} and {x_label}", finding, chart, None)
-        )
+    sections += [
+        _fit_section(stats, fit, words, labels[fit.predictor], names) for fit in stats.fits
+    ]
     if stats.fits:
         appendix.append(fits_table(stats, labels, words))
     if stats.slopes_by_group:

@@ -117,7 +117,10 @@ def group_finding(
         f"By {name}, {high.level} has the highest mean {words.lower}, {words.value(high.mean)}, and "
         f"{low.level} the lowest, {words.value(low.mean)}: a gap of {words.value(gap)}"
     )
-    if pair is not None and pair.ci_low is not None:
+    clear = p is not None and p < SIGNIFICANCE
+    # The interval is shown only when the overall test finds a difference: highest against
+    # lowest is chosen after seeing the data, so its own interval alone would overstate certainty.
+    if clear and pair is not None and pair.ci_low is not None:
         # The pair's difference is level_a − level_b; turn it round so the gap reads as high − low.
         low_end, high_end = (
             (pair.ci_low, pair.ci_high)
@@ -126,7 +129,7 @@ def group_finding(
         )
         text += f" ({words.level_name} interval {words.interval(low_end, high_end)})"
     text += relative + "."
-    if p is not None and p < SIGNIFICANCE:
+    if clear:
         headline = (
             f"By {name}: {high.level} highest ({words.value(high.mean)}), "
             f"{low.level} lowest ({words.value(low.mean)})"

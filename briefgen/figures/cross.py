@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from briefgen.figures.theme import OKABE_ITO, Chart, new_figure, themed, to_svg
 from briefgen.numbers import fmt
-from briefgen.stats.twoway import CrossTable
+from briefgen.stats.twoway import CrossCell, CrossTable
 
 # Dark-to-light order keeps neighbouring series apart in lightness as well as hue.
 SERIES_COLOURS = (
@@ -22,6 +22,75 @@ SERIES_COLOURS = (
 )
 SERIES_MARKERS = ("o", "s", "D", "^", "v", "P")
 MAX_SERIES = len(SERIES_MARKERS)
+
+
+def _trusted_points(
+    cells: list[tuple[float, str, CrossCell | None]], serie: str, left_out: list[str]
+) -> list[tuple[float, float, float, float]]:
+    """(height, mean, interval low, interval high) for one series' cells large enough to trust.
+
+    Cells below the size threshold are named in ``left_out`` for the caption instead.
+    """
+    points = []
+    for height, row, cell in cells:
+        if cell is None or cell.mean is None:
+            continue
+        if cell.too_small:
+            left_out.append(f"{row} with {serie} (n = {cell.n})")
+            continue
+        low = cell.ci_low if cell.ci_low is not None else cell.mean
+        high = cell.ci_high if cell.ci_high is not None else cell.mean
+        points.append((height, cell.mean, low, high))
+    return points
+
+
+def _draw_series(
+    axes, index: int, serie: str, points: list[tuple[float, float, float, float]]
+) -> None:
+    """One series' means and intervals, in its own colour, shape and fill."""
+    ys = [p[0] for p in points]
+    xs = [p[1] for p in points]
+    lows = [p[2] for p in points]
+    highs = [p[3] for p in points]
+    colour = SERIES_COLOURS[index]
+    axes.hlines(ys, lows, highs, color=colour, linewidth=1.4)
+    axes.plot(
+        xs,
+        ys,
+        SERIES_MARKERS[index],
+        color=colour,
+        markersize=5,
+        label=serie,
+        # Alternate filled and hollow markers so neighbours differ even in grayscale.
+        markerfacecolor=colour if index % 2 == 0 else "white",
+        markeredgewidth=1.2,
+    )
+
+
+def _caption(
+    cross: CrossTable, label: str, row_name: str, series_name: str, left_out: list[str]
+) -> str:
+    """What the dots show, and which cells were too small to draw."""
+    caption = (
+        f"Mean {label[:1].lower() + label[1:]} for each combination of {row_name} and {series_name}, with "
+        f"{cross.confidence:.0%} intervals. Rows are sorted by their overall mean."
+    )
+    if left_out:
+        caption += f" Left out, fewer than {cross.min_cell} rows: {', '.join(left_out)}."
+    return caption
+
+
+def _alt(cross: CrossTable, label: str, decimals: int, row_name: str, series_name: str) -> str:
+    """Text alternative for screen readers: the highest trusted cell."""
+    top = max(
+        (c for c in cross.cells if c.row and c.column and c.mean is not None and not c.too_small),
+        key=lambda c: c.mean,
+        default=None,
+    )
+    alt = f"Dot plot of mean {label.lower()} by {row_name} and {series_name}."
+    if top is not None:
+        alt += f" Highest: {top.row} with {top.column}, {fmt(top.mean, decimals)}."
+    return alt
 
 
 def cross_chart(
@@ -46,36 +115,15 @@ def cross_chart(
     }
     ordered = sorted(rows, key=lambda r: -(margins.get(r) or 0.0))
     positions = {row: len(ordered) - i for i, row in enumerate(ordered)}
+    # Series sit side by side within a row so their intervals never overlap.
     offsets = [(i - (len(series) - 1) / 2) * 0.22 for i in range(len(series))]
     left_out = []
     with themed():
         figure = new_figure(0.9 + 0.36 * max(len(ordered), 2))
         axes = figure.subplots()
         for i, serie in enumerate(series):
-            ys, xs, lows, highs = [], [], [], []
-            for row in ordered:
-                c = cell(row, serie)
-                if c is None or c.mean is None:
-                    continue
-                if c.too_small:
-                    left_out.append(f"{row} with {serie} (n = {c.n})")
-                    continue
-                ys.append(positions[row] + offsets[i])
-                xs.append(c.mean)
-                lows.append(c.ci_low if c.ci_low is not None else c.mean)
-                highs.append(c.ci_high if c.ci_high is not None else c.mean)
-            colour = SERIES_COLOURS[i]
-            axes.hlines(ys, lows, highs, color=colour, linewidth=1.4)
-            axes.plot(
-                xs,
-                ys,
-                SERIES_MARKERS[i],
-                color=colour,
-                markersize=5,
-                label=serie,
-                markerfacecolor=colour if i % 2 == 0 else "white",
-                markeredgewidth=1.2,
-            )
+            cells = [(positions[row] + offsets[i], row, cell(row, serie)) for row in ordered]
+            _draw_series(axes, i, serie, _trusted_points(cells, serie, left_out))
         axes.set_yticks([positions[r] for r in ordered], ordered)
         axes.grid(axis="y", visible=False)
         axes.set_xlabel(f"Mean {label[:1].lower() + label[1:]}")
@@ -89,21 +137,10 @@ def cross_chart(
             edgecolor="none",
         )
         svg = to_svg(figure)
-    caption = (
-        f"Mean {label[:1].lower() + label[1:]} for each combination of {row_name} and {series_name}, with "
-        f"{cross.confidence:.0%} intervals. Rows are sorted by their overall mean."
-    )
-    if left_out:
-        caption += f" Left out, fewer than {cross.min_cell} rows: {', '.join(left_out)}."
-    top = max(
-        (c for c in cross.cells if c.row and c.column and c.mean is not None and not c.too_small),
-        key=lambda c: c.mean,
-        default=None,
-    )
-    alt = f"Dot plot of mean {label.lower()} by {row_name} and {series_name}."
-    if top is not None:
-        alt += f" Highest: {top.row} with {top.column}, {fmt(top.mean, decimals)}."
-    key = f"cross-{cross.row_variable}-{cross.column_variable}"
     return Chart(
-        key=key, title=f"{label} by {row_name} and {series_name}", svg=svg, alt=alt, caption=caption
+        key=f"cross-{cross.row_variable}-{cross.column_variable}",
+        title=f"{label} by {row_name} and {series_name}",
+        svg=svg,
+        alt=_alt(cross, label, decimals, row_name, series_name),
+        caption=_caption(cross, label, row_name, series_name, left_out),
     )

@@ -66,94 +66,85 @@ def _mark_edges(
     return marked
 
 
-def distribution_chart(
-    group: GroupStats, overall: Summary, label: str, decimals: int, confidence: float, name: str
-) -> Chart:
-    """Boxes (left) and means with intervals (right) for every level of one group."""
-    boxes = [b for b in group.boxes]
-    levels = [b.level for b in boxes]
-    summaries = {s.level: s for s in group.summaries}
-    height = 0.9 + 0.34 * max(len(levels), 2)
-    with themed():
-        figure = new_figure(height)
-        left, right = figure.subplots(1, 2, sharey=True, width_ratios=(1.35, 1))
-        positions = list(range(len(levels), 0, -1))
-        pad = 0.04 * ((boxes[0].axis_high - boxes[0].axis_low) or 1.0)
-        lower, upper = boxes[0].axis_low - pad, boxes[0].axis_high + pad
-        left.bxp(
-            [_bxp_stats(b, b.axis_low, b.axis_high) for b in boxes],
-            positions=positions,
-            orientation="horizontal",
-            widths=0.55,
-            patch_artist=True,
-            showmeans=False,
-            shownotches=False,
-            boxprops={"facecolor": BOX_FILL, "edgecolor": INK, "linewidth": 0.9},
-            medianprops={"color": INK, "linewidth": 1.8},
-            whiskerprops={"color": INK, "linewidth": 0.8},
-            capprops={"color": INK, "linewidth": 0.8},
-            flierprops={
-                "marker": "o",
-                "markersize": 3,
-                "markerfacecolor": "none",
-                "markeredgecolor": MUTED,
-                "markeredgewidth": 0.7,
-            },
-        )
-        left.set_xlim(lower, upper)
-        beyond_edge = _mark_edges(left, boxes, positions, lower, upper)
-        left.set_yticks(positions, levels)
-        left.set_xlabel(label)
-        left.set_title(
-            "Spread: box = middle half, line = median", fontsize=8.5, fontweight="normal"
-        )
-        left.grid(axis="y", visible=False)
+def _draw_boxes(axes, boxes: list[BoxStats], positions: list[int], label: str) -> int:
+    """Tukey boxes on a shared axis range; returns how many values lie past its edges."""
+    pad = 0.04 * ((boxes[0].axis_high - boxes[0].axis_low) or 1.0)
+    lower, upper = boxes[0].axis_low - pad, boxes[0].axis_high + pad
+    axes.bxp(
+        [_bxp_stats(b, b.axis_low, b.axis_high) for b in boxes],
+        positions=positions,
+        orientation="horizontal",
+        widths=0.55,
+        patch_artist=True,
+        showmeans=False,
+        shownotches=False,
+        boxprops={"facecolor": BOX_FILL, "edgecolor": INK, "linewidth": 0.9},
+        medianprops={"color": INK, "linewidth": 1.8},
+        whiskerprops={"color": INK, "linewidth": 0.8},
+        capprops={"color": INK, "linewidth": 0.8},
+        flierprops={
+            "marker": "o",
+            "markersize": 3,
+            "markerfacecolor": "none",
+            "markeredgecolor": MUTED,
+            "markeredgewidth": 0.7,
+        },
+    )
+    axes.set_xlim(lower, upper)
+    beyond_edge = _mark_edges(axes, boxes, positions, lower, upper)
+    axes.set_yticks(positions, [b.level for b in boxes])
+    axes.set_xlabel(label)
+    axes.set_title("Spread: box = middle half, line = median", fontsize=8.5, fontweight="normal")
+    axes.grid(axis="y", visible=False)
+    return beyond_edge
 
-        means = [summaries[level].mean for level in levels]
-        lows = [
-            summaries[level].ci_low
-            if summaries[level].ci_low is not None
-            else summaries[level].mean
-            for level in levels
-        ]
-        highs = [
-            summaries[level].ci_high
-            if summaries[level].ci_high is not None
-            else summaries[level].mean
-            for level in levels
-        ]
-        right.hlines(positions, lows, highs, color=LINE, linewidth=2.2)
-        right.plot(
-            means,
-            positions,
-            "o",
-            color=LINE,
-            markersize=5,
-            markeredgecolor="white",
-            markeredgewidth=0.6,
-        )
-        right.axvline(overall.mean, color=ACCENT, linestyle=(0, (4, 2)), linewidth=1.1)
-        right.annotate(
-            f"overall {fmt(overall.mean, decimals)}",
-            xy=(overall.mean, 1.0),
-            xycoords=("data", "axes fraction"),
-            xytext=(3, -2),
-            textcoords="offset points",
-            va="top",
-            fontsize=8,
-            color=ACCENT,
-        )
-        right.set_xlabel(f"Mean {label.lower()}")
-        right.set_title(
-            f"Average with {confidence:.0%} interval", fontsize=8.5, fontweight="normal"
-        )
-        right.grid(axis="y", visible=False)
-        right.tick_params(axis="y", length=0)
-        svg = to_svg(figure)
-    counts = ", ".join(f"{b.level} {fmt_count(b.n)}" for b in boxes)
+
+def _draw_means(
+    axes,
+    summaries: list[Summary],
+    positions: list[int],
+    overall: Summary,
+    label: str,
+    decimals: int,
+    confidence: float,
+) -> None:
+    """Each level's mean with its interval, against a dashed line at the overall mean."""
+    # A level too small for an interval is drawn as a bare point at its mean.
+    means = [s.mean for s in summaries]
+    lows = [s.ci_low if s.ci_low is not None else s.mean for s in summaries]
+    highs = [s.ci_high if s.ci_high is not None else s.mean for s in summaries]
+    axes.hlines(positions, lows, highs, color=LINE, linewidth=2.2)
+    axes.plot(
+        means,
+        positions,
+        "o",
+        color=LINE,
+        markersize=5,
+        markeredgecolor="white",
+        markeredgewidth=0.6,
+    )
+    axes.axvline(overall.mean, color=ACCENT, linestyle=(0, (4, 2)), linewidth=1.1)
+    axes.annotate(
+        f"overall {fmt(overall.mean, decimals)}",
+        xy=(overall.mean, 1.0),
+        xycoords=("data", "axes fraction"),
+        xytext=(3, -2),
+        textcoords="offset points",
+        va="top",
+        fontsize=8,
+        color=ACCENT,
+    )
+    axes.set_xlabel(f"Mean {label.lower()}")
+    axes.set_title(f"Average with {confidence:.0%} interval", fontsize=8.5, fontweight="normal")
+    axes.grid(axis="y", visible=False)
+    axes.tick_params(axis="y", length=0)
+
+
+def _outlier_note(boxes: list[BoxStats], beyond_edge: int) -> str:
+    """How many values are outliers, how many are drawn, and how many fall past the axis."""
     shown = sum(len(b.outliers) for b in boxes)
     total_out = sum(b.outlier_count for b in boxes)
-    outlier_note = (
+    note = (
         f"{fmt_count(total_out)} values lie beyond the whiskers (1.5 × IQR, Tukey)"
         + (
             f"; the {fmt_count(shown)} farthest are drawn as circles"
@@ -165,20 +156,55 @@ def distribution_chart(
         else "No values lie beyond the whiskers (1.5 × IQR, Tukey)."
     )
     if beyond_edge:
-        outlier_note += (
+        note += (
             f" {fmt_count(beyond_edge)} far-out values (more than 3 × IQR from the box) lie past the "
             "edge of the axis, which stops there so the boxes stay readable; arrows give their count."
         )
-    caption = (
+    return note
+
+
+def _caption(
+    boxes: list[BoxStats], beyond_edge: int, label: str, confidence: float, name: str
+) -> str:
+    """What both panels show, the size of each level, and what happened to outliers."""
+    counts = ", ".join(f"{b.level} {fmt_count(b.n)}" for b in boxes)
+    return (
         f"{label} by {name}. Left: Tukey box plots. Right: means with {confidence:.0%} "
-        f"Student t intervals; dashed line: overall mean. n per level: {counts}. {outlier_note}"
+        f"Student t intervals; dashed line: overall mean. n per level: {counts}. "
+        f"{_outlier_note(boxes, beyond_edge)}"
     )
+
+
+def _alt(boxes: list[BoxStats], label: str, decimals: int, name: str) -> str:
+    """Text alternative for screen readers: the levels with the highest and lowest medians."""
     high = max(boxes, key=lambda b: b.median)
     low = min(boxes, key=lambda b: b.median)
-    alt = (
+    return (
         f"Box plots and means of {label.lower()} for {len(boxes)} levels of {name}. "
         f"Highest median: {high.level} ({fmt(high.median, decimals)}); lowest: {low.level} "
         f"({fmt(low.median, decimals)})."
     )
-    title = f"{label} by {name}"
-    return Chart(key=f"group-{group.variable}", title=title, svg=svg, alt=alt, caption=caption)
+
+
+def distribution_chart(
+    group: GroupStats, overall: Summary, label: str, decimals: int, confidence: float, name: str
+) -> Chart:
+    """Boxes (left) and means with intervals (right) for every level of one group."""
+    boxes = list(group.boxes)
+    summaries = {s.level: s for s in group.summaries}
+    level_summaries = [summaries[b.level] for b in boxes]
+    # First level at the top: matplotlib counts positions upwards from the bottom.
+    positions = list(range(len(boxes), 0, -1))
+    with themed():
+        figure = new_figure(0.9 + 0.34 * max(len(boxes), 2))
+        left, right = figure.subplots(1, 2, sharey=True, width_ratios=(1.35, 1))
+        beyond_edge = _draw_boxes(left, boxes, positions, label)
+        _draw_means(right, level_summaries, positions, overall, label, decimals, confidence)
+        svg = to_svg(figure)
+    return Chart(
+        key=f"group-{group.variable}",
+        title=f"{label} by {name}",
+        svg=svg,
+        alt=_alt(boxes, label, decimals, name),
+        caption=_caption(boxes, beyond_edge, label, confidence, name),
+    )

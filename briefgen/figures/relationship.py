@@ -19,8 +19,7 @@ def relationship_chart(
     sample: Sample,
     x_label: str,
     y_label: str,
-    decimals: int,
-    x_decimals: int,
+    slope_decimals: int,
     confidence: float,
 ) -> Chart | None:
     """Scatter of the sample with the least-squares line and its confidence band."""
@@ -51,13 +50,13 @@ def relationship_chart(
     caption = (
         f"{y_label} against {x_label.lower()}. Points: {points}. Line: least-squares fit on all "
         f"{fmt_count(fit.n)} rows with both values; shaded: {confidence:.0%} confidence band of the line. "
-        f"Slope {fmt(fit.slope, decimals)} per unit, R² {fit.r_squared:.2f}."
+        f"Slope {fmt(fit.slope, slope_decimals)} per unit, R² {fit.r_squared:.2f}."
     )
     alt = (
         f"Scatter plot of {y_label.lower()} against {x_label.lower()} with a rising"
         if fit.slope > 0
         else f"Scatter plot of {y_label.lower()} against {x_label.lower()} with a falling"
-    ) + f" fitted line; each unit adds {fmt(fit.slope, decimals)} on average."
+    ) + f" fitted line; each unit adds {fmt(fit.slope, slope_decimals)} on average."
     return Chart(
         key=f"fit-{fit.predictor}",
         title=f"{y_label} against {x_label}",

@@ -98,18 +98,24 @@ def _group_stats(frame: AnalysisFrame, group: str, confidence: float) -> GroupSt
     )
 
 
-def compute(source: Source, spec: BriefSpec) -> BriefStats:
-    """Run the analyses named by ``spec`` on ``source`` in its engine."""
-    frame = build_frame(source.table, spec)
-    table = frame.table
-    confidence = spec.confidence
-    summaries, boxes = summarise_levels(table.mutate(level=ibis.literal(ALL_ROWS)), confidence)
+def _overall(
+    source: Source, spec: BriefSpec, frame: AnalysisFrame
+) -> tuple[Summary, BoxStats | None]:
+    """Summary and box of the target over all rows; stops with a message if no value is usable."""
+    all_rows = frame.table.mutate(level=ibis.literal(ALL_ROWS))
+    summaries, boxes = summarise_levels(all_rows, spec.confidence)
     if not summaries or summaries[0].n == 0:
         raise DataError(
             f"{source.label}: no row has a numeric value in '{spec.target}'; check the target column."
         )
-    groups = tuple(_group_stats(frame, group, confidence) for group in spec.groups)
-    comparisons = tuple(
+    return summaries[0], boxes[0] if boxes else None
+
+
+def _comparisons(
+    frame: AnalysisFrame, groups: tuple[GroupStats, ...], confidence: float
+) -> tuple[GroupComparison, ...]:
+    """Tests between the levels of each group with at least two levels of n ≥ 2."""
+    return tuple(
         c
         for group in groups
         if (
@@ -118,13 +124,35 @@ def compute(source: Source, spec: BriefSpec) -> BriefStats:
             )
         )
     )
-    crosses = tuple(
+
+
+def _crosses(frame: AnalysisFrame, spec: BriefSpec) -> tuple[CrossTable, ...]:
+    """Two-way tables of means for each configured pair of groups."""
+    return tuple(
         cross_table(
-            table, frame.group_column(a), frame.group_column(b), a, b, confidence, spec.min_cell
+            frame.table,
+            frame.group_column(a),
+            frame.group_column(b),
+            a,
+            b,
+            spec.confidence,
+            spec.min_cell,
         )
         for a, b in spec.cross_pairs
     )
-    trend = time_trend(table, confidence, spec.time.period) if spec.time else None
+
+
+def _relationships(
+    frame: AnalysisFrame, spec: BriefSpec
+) -> tuple[
+    tuple[RegressionFit, ...],
+    tuple[Correlation, ...],
+    tuple[GroupSlopes, ...],
+    tuple[LogFit, ...] | LogSkipped | None,
+]:
+    """Line fits, correlations, per-group slopes and log fits, named by predictor."""
+    table, confidence = frame.table, spec.confidence
+    # Queries run on the frame's x0.. columns; results carry the configured predictor names.
     columns = list(frame.predictors)
     names = [frame.predictors[c] for c in columns]
     fits = tuple(
@@ -142,15 +170,33 @@ def compute(source: Source, spec: BriefSpec) -> BriefStats:
     )
     if isinstance(log_fits, tuple):
         log_fits = tuple(replace(f, line=replace(f.line, predictor=f.predictor)) for f in log_fits)
-    sample = draw_sample(table, columns)
-    sample = replace(sample, x={frame.predictors[key]: values for key, values in sample.x.items()})
+    return fits, correlations, slopes, log_fits
+
+
+def _sample(frame: AnalysisFrame) -> Sample:
+    """Seeded sample of points for scatter plots, keyed by predictor name."""
+    sample = draw_sample(frame.table, list(frame.predictors))
+    return replace(sample, x={frame.predictors[key]: values for key, values in sample.x.items()})
+
+
+def compute(source: Source, spec: BriefSpec) -> BriefStats:
+    """Run the analyses named by ``spec`` on ``source`` in its engine."""
+    frame = build_frame(source.table, spec)
+    confidence = spec.confidence
+    overall, overall_box = _overall(source, spec, frame)
+    groups = tuple(_group_stats(frame, group, confidence) for group in spec.groups)
+    comparisons = _comparisons(frame, groups, confidence)
+    crosses = _crosses(frame, spec)
+    trend = time_trend(frame.table, confidence, spec.time.period) if spec.time else None
+    fits, correlations, slopes, log_fits = _relationships(frame, spec)
+    sample = _sample(frame)
     accounting = _with_analysis_counts(count_rows(source.table, frame, spec), crosses, trend)
     log.info("statistics done: %d rows read", accounting.rows_read)
     return BriefStats(
         target=spec.target,
         confidence=confidence,
-        overall=summaries[0],
-        overall_box=boxes[0] if boxes else None,
+        overall=overall,
+        overall_box=overall_box,
         groups=groups,
         comparisons=comparisons,
         crosses=crosses,

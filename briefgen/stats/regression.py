@@ -56,12 +56,23 @@ def _columns(frame: ir.Table, predictor: str):
     return x, y, both
 
 
-def fit_lines(
-    frame: ir.Table, predictors: list[str], confidence: float
-) -> tuple[RegressionFit, ...]:
-    """Fit ``y`` on each predictor column of ``frame`` (columns already float, NaN as null)."""
-    if not predictors:
-        return ()
+def _one_row(frame: ir.Table, expressions: dict) -> dict:
+    """Run one aggregate query over ``frame`` and return its single row; empty if nothing to ask."""
+    return frame.aggregate(**expressions).to_pyarrow().to_pylist()[0] if expressions else {}
+
+
+def _deviations(frame: ir.Table, predictor: str, i: int, refs: dict, means: dict):
+    """Centred x and y of one predictor's rows, and the mask of rows with both values."""
+    # Deviation from the mean as (value − reference) − mean shift: the reference is a data
+    # value, so the first difference is exact, and the rounded mean never meets the offset.
+    x, y, both = _columns(frame, predictor)
+    dx = (x - refs[f"xr{i}"]) - means[f"dx{i}"]
+    dy = (y - refs[f"yr{i}"]) - means[f"dy{i}"]
+    return dx, dy, both
+
+
+def _reference_pass(frame: ir.Table, predictors: list[str]) -> dict:
+    """Pass 1: rows with both values, median references for x and y, and the range of x."""
     first = {}
     for i, p in enumerate(predictors):
         x, y, both = _columns(frame, p)
@@ -72,69 +83,85 @@ def fit_lines(
             f"xmin{i}": x.min(where=both),
             f"xmax{i}": x.max(where=both),
         }
-    refs = frame.aggregate(**first).to_pyarrow().to_pylist()[0]
+    return _one_row(frame, first)
 
+
+def _mean_pass(
+    frame: ir.Table, predictors: list[str], refs: dict
+) -> tuple[dict, dict[int, tuple[float, float]]]:
+    """Pass 2: mean shifts from the references, and the exact (x̄, ȳ) of each fittable predictor."""
     means_expr = {}
     for i, p in enumerate(predictors):
         x, y, both = _columns(frame, p)
         if refs[f"n{i}"]:
             means_expr[f"dx{i}"] = (x - refs[f"xr{i}"]).mean(where=both)
             means_expr[f"dy{i}"] = (y - refs[f"yr{i}"]).mean(where=both)
-    means = frame.aggregate(**means_expr).to_pyarrow().to_pylist()[0] if means_expr else {}
+    means = _one_row(frame, means_expr)
     centre = {
         i: (refs[f"xr{i}"] + means[f"dx{i}"], refs[f"yr{i}"] + means[f"dy{i}"])
         for i in range(len(predictors))
         if refs[f"n{i}"]
     }
+    return means, centre
 
+
+def _sums_pass(
+    frame: ir.Table, predictors: list[str], refs: dict, means: dict, centre: dict
+) -> dict:
+    """Pass 3: centred sums of squares and cross-products Sxx, Sxy, Syy."""
     sums_expr = {}
-
-    def deviations(i: int):
-        # Deviation from the mean as (value − reference) − mean shift: the reference is a data
-        # value, so the first difference is exact, and the rounded mean never meets the offset.
-        x, y, both = _columns(frame, predictors[i])
-        dx = (x - refs[f"xr{i}"]) - means[f"dx{i}"]
-        dy = (y - refs[f"yr{i}"]) - means[f"dy{i}"]
-        return dx, dy, both
-
     for i in centre:
-        dx, dy, both = deviations(i)
+        dx, dy, both = _deviations(frame, predictors[i], i, refs, means)
         sums_expr |= {
             f"sxx{i}": (dx * dx).sum(where=both),
             f"sxy{i}": (dx * dy).sum(where=both),
             f"syy{i}": (dy * dy).sum(where=both),
         }
-    sums = frame.aggregate(**sums_expr).to_pyarrow().to_pylist()[0] if sums_expr else {}
+    return _one_row(frame, sums_expr)
+
+
+def _residual_pass(
+    frame: ir.Table, predictors: list[str], refs: dict, means: dict, slopes: dict[int, float]
+) -> dict:
+    """Pass 4: residual sum of squares around each fitted line, summed directly for accuracy."""
+    sse_expr = {}
+    for i, slope in slopes.items():
+        dx, dy, both = _deviations(frame, predictors[i], i, refs, means)
+        residual = dy - slope * dx
+        sse_expr[f"sse{i}"] = (residual * residual).sum(where=both)
+    return _one_row(frame, sse_expr)
+
+
+def fit_lines(
+    frame: ir.Table, predictors: list[str], confidence: float
+) -> tuple[RegressionFit, ...]:
+    """Fit ``y`` on each predictor column of ``frame`` (columns already float, NaN as null)."""
+    if not predictors:
+        return ()
+    refs = _reference_pass(frame, predictors)
+    means, centre = _mean_pass(frame, predictors, refs)
+    sums = _sums_pass(frame, predictors, refs, means, centre)
     slopes = {
         i: sums[f"sxy{i}"] / sums[f"sxx{i}"]
         for i in centre
         if refs[f"n{i}"] >= 2 and sums[f"sxx{i}"] and sums[f"sxx{i}"] > 0
     }
-
-    sse_expr = {}
-    for i, slope in slopes.items():
-        dx, dy, both = deviations(i)
-        residual = dy - slope * dx
-        sse_expr[f"sse{i}"] = (residual * residual).sum(where=both)
-    sse = frame.aggregate(**sse_expr).to_pyarrow().to_pylist()[0] if sse_expr else {}
-
-    fits = []
-    for i, p in enumerate(predictors):
-        fits.append(
-            _assemble(
-                p,
-                int(refs[f"n{i}"] or 0),
-                centre.get(i),
-                sums,
-                slopes.get(i),
-                sse.get(f"sse{i}"),
-                i,
-                refs[f"xmin{i}"],
-                refs[f"xmax{i}"],
-                confidence,
-            )
+    sse = _residual_pass(frame, predictors, refs, means, slopes)
+    return tuple(
+        _assemble(
+            p,
+            int(refs[f"n{i}"] or 0),
+            centre.get(i),
+            sums,
+            slopes.get(i),
+            sse.get(f"sse{i}"),
+            i,
+            refs[f"xmin{i}"],
+            refs[f"xmax{i}"],
+            confidence,
         )
-    return tuple(fits)
+        for i, p in enumerate(predictors)
+    )
 
 
 def _assemble(predictor, n, centre, sums, slope, sse, i, x_min, x_max, confidence) -> RegressionFit:
