@@ -225,7 +225,7 @@ def cross_finding(
 
 
 def trend_finding(trend: Trend, words: Wording) -> Finding | None:
-    if trend.change is None or not trend.periods:
+    if trend.change is None or trend.change_ci_low is None or not trend.periods:
         return None
     first, last = trend.first_time, trend.last_time
     text = (

@@ -64,6 +64,13 @@ def check_columns(table: ir.Table, spec: BriefSpec, label: str) -> None:
     """Every column the spec names exists and has a usable type."""
     schema = table.schema()
     columns = list(schema.names)
+    if len(columns) == 1 and any(sep in columns[0] for sep in ",;\t|"):
+        raise DataError(
+            f"{label}: the header could not be split into columns ({columns[0][:60]!r}); check the "
+            "delimiter and that every row has the same number of fields."
+        )
+    if table.limit(1).count().to_pyarrow().as_py() == 0:
+        raise DataError(f"{label}: the file has no data rows; check that the export finished.")
     wanted = [("target", spec.target)]
     wanted += [(f"groups[{i}]", g) for i, g in enumerate(spec.groups)]
     wanted += [(f"predictors[{i}]", p) for i, p in enumerate(spec.predictors)]
@@ -77,6 +84,10 @@ def check_columns(table: ir.Table, spec: BriefSpec, label: str) -> None:
     for key, name in [("target", spec.target)] + [
         (f"predictors[{i}]", p) for i, p in enumerate(spec.predictors)
     ]:
+        if schema[name].is_null():
+            raise DataError(
+                f"{label}: column '{name}' named by '{key}' is empty in every row; check the export."
+            )
         if not schema[name].is_numeric():
             raise DataError(
                 f"{label}: column '{name}' named by '{key}' holds {schema[name]}, not numbers; "

@@ -2,11 +2,14 @@
 
 from __future__ import annotations
 
+import json
 import shutil
 from pathlib import Path
 
 import pandas as pd
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
 from briefgen.cli import main
 
@@ -104,3 +107,69 @@ def test_check_validates_without_building(tmp_path, capsys):
     config = _write_case(tmp_path)
     assert main(["check", str(config)]) == 0
     assert not (tmp_path / "out").exists()
+
+
+@pytest.mark.parametrize(
+    ("content", "expected"),
+    [
+        ("site,distance,minutes,label\n", "has no data rows"),
+        (
+            "site,distance,minutes,label\nnorth,1,2,x,9,9\nsouth\n",
+            "header could not be split into columns",
+        ),
+    ],
+)
+def test_malformed_files_get_a_sentence(tmp_path, capsys, content, expected):
+    config = _write_case(tmp_path)
+    (tmp_path / "data.csv").write_text(content)
+    assert main(["build", str(config)]) == 3
+    err = " ".join(capsys.readouterr().err.split())
+    assert expected in err and "Traceback" not in err
+
+
+def test_unparseable_dates_are_counted_not_fatal(tmp_path, capsys):
+    config = _write_case(tmp_path, config_extra="time: when\n")
+    frame = pd.read_csv(tmp_path / "data.csv")
+    frame["when"] = [
+        "2026-01-0" + str(1 + i % 9) if i % 5 else "not a date" for i in range(len(frame))
+    ]
+    frame.to_csv(tmp_path / "data.csv", index=False)
+    assert main(["build", str(config)]) == 0
+    stats = json.loads((tmp_path / "out" / "stats.json").read_text())["stats"]
+    assert stats["trend"]["rows_without_time"] == ROWS // 5
+    assert any(
+        d["reason"] == "no usable date" and d["rows"] == ROWS // 5
+        for d in stats["accounting"]["dropped"]
+    )
+
+
+@settings(
+    max_examples=12, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture]
+)
+@given(
+    values=st.lists(
+        st.one_of(st.none(), st.floats(allow_nan=True, allow_infinity=True, width=32)),
+        min_size=1,
+        max_size=8,
+    ),
+    levels=st.lists(st.sampled_from(["a", "b", "c", None]), min_size=8, max_size=8),
+    offset=st.sampled_from([0.0, 1e9, 1e12]),
+)
+def test_tiny_and_odd_data_never_crash(tmp_path_factory, values, levels, offset):
+    """Whatever the rows hold, the answer is a brief or one sentence, never an internal error."""
+    folder = tmp_path_factory.mktemp("odd")
+    n = len(values)
+    frame = pd.DataFrame(
+        {
+            "site": levels[:n],
+            "distance": [float(i) for i in range(n)],
+            "minutes": [None if v is None else offset + v for v in values],
+            "when": [f"2026-03-{1 + i:02d}" for i in range(n)],
+        }
+    )
+    frame.to_parquet(folder / "data.parquet", index=False)
+    (folder / "brief.yaml").write_text(
+        "title: odd\ndata:\n  path: data.parquet\ntarget: minutes\ngroups: [site]\n"
+        "predictors: [distance]\ntime: when\nlog_target: true\noutput:\n  dir: out\n  formats: [html, json]\n"
+    )
+    assert main(["build", str(folder / "brief.yaml")]) in (0, 3)

@@ -180,7 +180,9 @@ def test_example_output_is_current(demo_build):
     assert (example / "stats.json").read_bytes() == (demo_build / "stats.json").read_bytes()
 
     def words(path: Path) -> str:
-        return re.sub(r"data:image/svg\+xml;base64,[A-Za-z0-9+/=]+", "", path.read_text(encoding="utf-8"))
+        return re.sub(
+            r"data:image/svg\+xml;base64,[A-Za-z0-9+/=]+", "", path.read_text(encoding="utf-8")
+        )
 
     assert words(example / "brief.html") == words(demo_build / "brief.html")
     assert (example / "brief.pdf").stat().st_size > 0

@@ -68,7 +68,9 @@ def _mark_edges(
 
 def _draw_boxes(axes, boxes: list[BoxStats], positions: list[int], label: str) -> int:
     """Tukey boxes on a shared axis range; returns how many values lie past its edges."""
-    pad = 0.04 * ((boxes[0].axis_high - boxes[0].axis_low) or 1.0)
+    # A constant target has no range; pad by its magnitude so the axis still has width.
+    span = (boxes[0].axis_high - boxes[0].axis_low) or max(abs(boxes[0].axis_high), 1.0)
+    pad = 0.04 * span
     lower, upper = boxes[0].axis_low - pad, boxes[0].axis_high + pad
     axes.bxp(
         [_bxp_stats(b, b.axis_low, b.axis_high) for b in boxes],

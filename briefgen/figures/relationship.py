@@ -50,7 +50,7 @@ def relationship_chart(
     caption = (
         f"{y_label} against {x_label.lower()}. Points: {points}. Line: least-squares fit on all "
         f"{fmt_count(fit.n)} rows with both values; shaded: {confidence:.0%} confidence band of the line. "
-        f"Slope {fmt(fit.slope, slope_decimals)} per unit, R² {fit.r_squared:.2f}."
+        f"Slope {fmt(fit.slope, slope_decimals)} per unit, R² {fmt(fit.r_squared, 2)}."
     )
     alt = (
         f"Scatter plot of {y_label.lower()} against {x_label.lower()} with a rising"

@@ -55,7 +55,8 @@ def build_frame(table: ir.Table, spec: BriefSpec, cache: bool = True) -> Analysi
     time = spec.time.column if spec.time else None
     if time:
         raw = table[time]
-        columns["t"] = raw.cast(dt.timestamp) if not raw.type().is_timestamp() else raw
+        # Text that does not parse as a date becomes missing (and is counted), not a crash.
+        columns["t"] = raw if raw.type().is_timestamp() else raw.try_cast(dt.timestamp)
     narrow = table.select(**columns)
     if cache:
         # One scan of the file; every later pass reads the engine's columnar copy.
