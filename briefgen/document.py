@@ -31,7 +31,9 @@ from briefgen.stats import BriefStats, CrossTable, RegressionFit, Trend
 from briefgen.tables import (
     Table,
     accounting_table,
+    cross_cells_table,
     cross_table_view,
+    effects_table,
     fits_table,
     group_table,
     pairwise_table,
@@ -134,6 +136,7 @@ def _group_sections(
         )
         if comparison is not None:
             pairwise.append(pairwise_table(comparison, words, name))
+            pairwise.append(effects_table(comparison, words, name))
     return sections, pairwise
 
 
@@ -194,6 +197,14 @@ def _sections(
     """Every analysis as a section in reading order, and the detail tables for the appendix."""
     sections, appendix = _group_sections(stats, spec, words)
     sections += [_cross_section(cross, spec, words) for cross in stats.crosses]
+    appendix += [
+        cross_cells_table(
+            cross,
+            words,
+            (name_for(spec, cross.row_variable), name_for(spec, cross.column_variable)),
+        )
+        for cross in stats.crosses
+    ]
     if stats.trend is not None:
         sections.append(_trend_section(stats.trend, words, stats.confidence))
         appendix.append(trend_table(stats.trend, words))

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_p, fmt_percent
+from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_percent, p_text
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
 from briefgen.stats.correlation import Correlation
@@ -134,13 +134,11 @@ def group_finding(
             f"By {name}: {high.level} highest ({words.value(high.mean)}), "
             f"{low.level} lowest ({words.value(low.mean)})"
         )
-        certainty = (
-            f"A gap this large would be unlikely if {name} made no difference ({test}, {_p(p)})."
-        )
+        certainty = f"A gap this large would be unlikely if {name} made no difference ({test}, {p_text(p)})."
     else:
         headline = f"By {name}: no clear difference"
         certainty = (
-            f"Gaps this size arise by chance alone ({test}, {_p(p)}); the data do not show that "
+            f"Gaps this size arise by chance alone ({test}, {p_text(p)}); the data do not show that "
             f"{name} matters — nor that it does not."
         )
     detail = ""
@@ -149,12 +147,6 @@ def group_finding(
             "Values are strongly skewed within groups, so the brief relies on a rank-based test."
         )
     return Finding(headline=headline, text=text, certainty=certainty, figure=figure, detail=detail)
-
-
-def _p(p: float | None) -> str:
-    # No-break spaces keep "p < 0.001" on one line.
-    text = fmt_p(p).replace(" ", "\u00a0")
-    return f"p\u00a0{text}" if text.startswith("<") else f"p\u00a0=\u00a0{text}"
 
 
 def _overlap_finding(

@@ -45,6 +45,13 @@ def fmt_p(p: float | None) -> str:
     return f"{p:.2g}" if p < 0.1 else f"{p:.2f}"
 
 
+def p_text(p: float | None) -> str:
+    """'p < 0.001' or 'p = 0.38', joined by no-break spaces so it never splits across lines."""
+    text = fmt_p(p)
+    phrase = f"p {text}" if text.startswith("<") else f"p = {text}"
+    return phrase.replace(" ", "\u00a0")
+
+
 def parse_number(text: str) -> float:
     """Inverse of ``fmt`` for tests and checks: '−1,234.5' ─► -1234.5."""
     return float(text.replace("−", "-").replace(",", "").rstrip("%"))

@@ -9,7 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from briefgen.findings import Wording
-from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_p, fmt_percent
+from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_p, fmt_percent, p_text
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
 from briefgen.stats.groups import GroupStats
@@ -84,10 +84,10 @@ def pairwise_table(comparison: GroupComparison, words: Wording, name: str) -> Ta
         )
     test = "Welch's t-test" if comparison.test == "welch_t" else "Welch's ANOVA"
     notes = [
-        f"Overall: {test}, p {fmt_p(comparison.p_value)}."
+        f"Overall: {test}, {p_text(comparison.p_value)}."
         + (
             f" Rank-based check ({'Mann–Whitney' if comparison.rank_test.test == 'mann_whitney' else 'Kruskal–Wallis'}): "
-            f"p {fmt_p(comparison.rank_test.p_value)}."
+            f"{p_text(comparison.rank_test.p_value)}."
             if comparison.rank_test is not None
             else ""
         )
@@ -105,6 +105,81 @@ def pairwise_table(comparison: GroupComparison, words: Wording, name: str) -> Ta
             "p",
             "p (Holm)",
         ),
+        rows=tuple(rows),
+        numeric=(False, True, True, True, True),
+        notes=tuple(notes),
+    )
+
+
+def effects_table(comparison: GroupComparison, words: Wording, name: str) -> Table:
+    """Each level against the reference level and the overall mean, in units and in percent."""
+    rows = []
+    for effect in comparison.effects:
+        is_reference = effect.level == comparison.reference_level
+        rows.append(
+            (
+                effect.level + (" (reference)" if is_reference else ""),
+                fmt_count(effect.n),
+                words.value(effect.mean),
+                "–" if is_reference else words.value(effect.difference),
+                "–"
+                if is_reference or effect.ci_low is None
+                else words.interval(effect.ci_low, effect.ci_high),
+                "–" if is_reference else _percent(effect.percent_of_reference),
+                _percent(effect.percent_vs_overall),
+            )
+        )
+    return Table(
+        key=f"table-effects-{comparison.variable}",
+        caption=f"Each level of {name} against {comparison.reference_level}, the largest level",
+        header=(
+            "Level",
+            "n",
+            "Mean",
+            f"Difference from {comparison.reference_level}",
+            f"{words.level_name} interval",
+            "Relative",
+            "Against overall mean",
+        ),
+        rows=tuple(rows),
+        numeric=(False, True, True, True, True, True, True),
+        notes=(
+            f"Overall mean {words.value(comparison.overall_mean)}. Intervals are Welch intervals of the "
+            "difference, not adjusted for the number of levels.",
+        ),
+    )
+
+
+def _percent(value: float | None) -> str:
+    """Percent values arrive already multiplied by 100; show a sign so direction reads at once."""
+    if value is None:
+        return "–"
+    text = fmt(value, 1)
+    return (text if text.startswith("−") or text == "0.0" else f"+{text}") + "%"
+
+
+def cross_cells_table(cross: CrossTable, words: Wording, names: tuple[str, str]) -> Table:
+    """Every combination with n, mean, interval and median; small ones marked."""
+    rows = []
+    for c in cross.cells:
+        rows.append(
+            (
+                f"{c.row} · {c.column}",
+                fmt_count(c.n) + (f" {SMALL_MARK}" if c.too_small else ""),
+                words.value(c.mean),
+                words.interval(c.ci_low, c.ci_high) if c.ci_low is not None else "–",
+                words.value(c.median),
+            )
+        )
+    notes = (
+        [f"{SMALL_MARK} fewer than {cross.min_cell} rows: too few to trust."]
+        if any(c.too_small for c in cross.cells)
+        else []
+    )
+    return Table(
+        key=f"table-cells-{cross.row_variable}-{cross.column_variable}",
+        caption=f"{words.label} for each combination of {names[0]} and {names[1]}",
+        header=(f"{names[0]} · {names[1]}", "n", "Mean", f"{words.level_name} interval", "Median"),
         rows=tuple(rows),
         numeric=(False, True, True, True, True),
         notes=tuple(notes),
@@ -227,7 +302,7 @@ def slopes_table(stats: BriefStats, labels: dict[str, str], names: dict[str, str
                 f"{labels.get(s.predictor, s.predictor)} by {names.get(s.group, s.group)}",
                 f"{fmt(min(slopes), d)} to {fmt(max(slopes), d)}" if slopes else "–",
                 fmt(s.f_statistic, 2) if s.f_statistic is not None else "–",
-                f"{s.df_between}, {s.df_within}" if s.df_between is not None else "–",
+                f"{s.df_between}, {fmt_count(s.df_within)}" if s.df_between is not None else "–",
                 fmt_p(s.p_value),
             )
         )

@@ -178,8 +178,14 @@ def test_every_number_in_the_text_is_in_stats_json(built):
         values.append(sum(b["beyond_axis_low"] + b["beyond_axis_high"] for b in boxes))
     # Differences the text derives (gap between two means, change of a margin) come from pairs in the JSON.
     allowed = set().union(*(_renderings(v) for v in values)) | STATED_CONSTANTS
+    # The row-accounting table shows each count as a share of rows read.
+    accounting = payload["stats"]["accounting"]
+    counts = list(accounting["used"].values()) + [d["rows"] for d in accounting["dropped"]]
+    allowed |= set().union(*(_renderings(n / accounting["rows_read"]) for n in counts))
+    allowed |= _renderings(1.0)
+    cells = [cell for table in page.tables.values() for row in table[1:] for cell in row[1:]]
     unexplained = []
-    for paragraph in page.paragraphs:
+    for paragraph in page.paragraphs + cells:
         if re.search(r"\d{4}-\d{2}-\d{2}|\d{1,2} \w{3} \d{4}", paragraph):
             paragraph = re.sub(r"\d{4}-\d{2}-\d{2}|\d{1,2} \w{3} \d{4}", "", paragraph)  # dates
         paragraph = re.sub(r"\b\d{2}-\d{2}\b", "", paragraph)  # time-slot labels such as 07-10
