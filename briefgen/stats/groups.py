@@ -176,15 +176,25 @@ def extreme_outliers(
 
 
 def summarise_levels(
-    frame: ir.Table, confidence: float, order: list[str] | None = None
+    frame: ir.Table,
+    confidence: float,
+    order: list[str] | None = None,
+    list_outliers: bool = True,
 ) -> tuple[tuple[Summary, ...], tuple[BoxStats, ...]]:
-    """Summaries and boxes for a table with columns ``level`` (text) and ``y`` (float)."""
-    pass1_expr = order_statistics(frame)
-    pass1 = pass1_expr.to_pyarrow().to_pylist()
+    """Summaries and boxes for a table with columns ``level`` (text) and ``y`` (float).
+
+    ``list_outliers=False`` skips the query that fetches the most extreme values, for
+    callers that draw no box plot (two-way cells, periods).
+    """
+    pass1_arrow = order_statistics(frame).to_pyarrow()
+    pass1 = pass1_arrow.to_pylist()
+    # Later passes join this small result back as a literal table, so the engine does not
+    # recompute the quantiles (a sort per level) inside every later query.
+    quartiles = ibis.memtable(pass1_arrow.select(["level", "q1", "median", "q3"]))
     axis = axis_range(pass1)
-    pass2_rows = shifted_moments(frame, pass1_expr, axis).to_pyarrow().to_pylist()
+    pass2_rows = shifted_moments(frame, quartiles, axis).to_pyarrow().to_pylist()
     pass2 = {row["level"]: row for row in pass2_rows}
-    extremes = extreme_outliers(frame, pass1_expr)
+    extremes = extreme_outliers(frame, quartiles) if list_outliers else {}
     by_level = {row["level"]: row for row in pass1}
     levels = order if order is not None else sorted(by_level, key=str)
     summaries, boxes = [], []

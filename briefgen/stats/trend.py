@@ -136,7 +136,7 @@ def _counts(frame_table: ir.Table) -> dict:
 
 def _period_summaries(usable: ir.Table, period: str, confidence: float) -> list[PeriodStats]:
     levels = usable.select(level=usable.t.truncate(_TRUNCATE_UNIT[period]).date(), y=usable.y)
-    summaries, _boxes = summarise_levels(levels, confidence)
+    summaries, _boxes = summarise_levels(levels, confidence, list_outliers=False)
     result = []
     for s in sorted(summaries, key=lambda s: s.level):
         start = _as_date(s.level)

@@ -168,7 +168,7 @@ def cross_table(
     Levels are listed in label order.
     """
     stacked = _tagged_levels(frame_table, row_column, col_column)
-    summaries, _boxes = summarise_levels(stacked, confidence)
+    summaries, _boxes = summarise_levels(stacked, confidence, list_outliers=False)
     cells, row_margins, column_margins, total = [], [], [], None
     for summary in summaries:
         tag, row, column = _decode(str(summary.level))
