@@ -1,4 +1,4 @@
-"""Command line: ``briefgen build``, ``check`` and ``demo``.
+"""Command line: ``briefgen build``, ``check``, ``init`` and ``demo``.
 
 The only place that prints, colours output and turns errors into exit codes.
 """
@@ -37,6 +37,13 @@ def _parser() -> argparse.ArgumentParser:
         "check", help="validate a config and its data columns, build nothing"
     )
     check.add_argument("config", type=Path)
+    init = commands.add_parser("init", help="propose a config from a data file's columns")
+    init.add_argument("data", type=Path, help="CSV or Parquet file")
+    init.add_argument(
+        "--config", type=Path, default=Path("brief.yaml"), help="file to write (default brief.yaml)"
+    )
+    init.add_argument("--title", help="the brief's title")
+    init.add_argument("--force", action="store_true", help="overwrite an existing config")
     demo = commands.add_parser("demo", help="build the demo brief from the invented courier data")
     demo.add_argument(
         "--out", type=Path, default=Path("out/demo"), help="output folder (default out/demo)"
@@ -83,6 +90,11 @@ def main(argv: list[str] | None = None) -> int:
             _build(args.config, args.out, console)
         elif args.command == "check":
             _check(args.config, console)
+        elif args.command == "init":
+            from briefgen.starter import write_starter
+
+            path = write_starter(args.data, args.config, args.title, args.force)
+            console.print(f"[green]wrote[/green] {path}; check it, then run: briefgen build {path}")
         elif args.command == "demo":
             _build(demo_config_path(), args.out, console)
     except BriefError as exc:

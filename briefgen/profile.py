@@ -1,13 +1,16 @@
-"""Chart-plan rules: the order levels are shown in, and when small levels are folded.
+"""Column roles and chart-plan rules.
 
-Practice of statistical graphics: sort categories by value unless they have a
-natural order; with more than about eight, show the largest and fold the rest
-into one "other" level, and say so in the caption.
+Roles (measure, category, time, id) are guessed from types and distinct counts so
+``briefgen init`` can propose a config. Chart plan, after the practice of
+statistical graphics: sort categories by value unless they have a natural order;
+with more than about eight, show the largest and fold the rest into one "other"
+level, and say so in the caption.
 """
 
 from __future__ import annotations
 
 import re
+from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
 import ibis
@@ -52,3 +55,51 @@ def fold_small_levels(rows: ir.Table, summaries: tuple[Summary, ...]) -> ir.Tabl
     folded = len(summaries) - len(keep)
     label = f"{OTHER_PREFIX} ({folded} levels)"
     return rows.mutate(level=ibis.ifelse(rows.level.isin(keep), rows.level, label))
+
+
+# Column roles: what a column is for, guessed from its type and how many values it takes.
+MAX_GROUP_LEVELS = 50  # more distinct labels than this reads as free text or an id, not a group
+SMALL_INTEGER_LEVELS = 12  # integers taking this few values (years, ratings) read as groups
+
+
+@dataclass(frozen=True, slots=True)
+class ColumnRole:
+    """One column's guessed role: ``measure``, ``category``, ``time`` or ``id``."""
+
+    name: str
+    role: str
+    distinct: int
+    missing: int
+
+
+def column_roles(table: ir.Table) -> tuple[ColumnRole, ...]:
+    """Guess each column's role from one aggregate query (distinct and missing counts)."""
+    schema = table.schema()
+    counts = {"rows": table.count()}
+    for i, name in enumerate(schema.names):
+        counts[f"d{i}"] = table[name].nunique()
+        counts[f"m{i}"] = table[name].isnull().sum()
+    row = table.aggregate(**counts).to_pyarrow().to_pylist()[0]
+    rows = int(row["rows"])
+    roles = []
+    for i, name in enumerate(schema.names):
+        kind, distinct = schema[name], int(row[f"d{i}"])
+        roles.append(ColumnRole(name, _role(kind, distinct, rows), distinct, int(row[f"m{i}"])))
+    return tuple(roles)
+
+
+def _role(kind, distinct: int, rows: int) -> str:
+    if kind.is_temporal():
+        return "time"
+    unique = rows > MAX_GROUP_LEVELS and distinct >= 0.95 * rows
+    if kind.is_floating() or kind.is_decimal():
+        return "measure"
+    if kind.is_integer():
+        if unique:
+            return "id"
+        return "category" if distinct <= SMALL_INTEGER_LEVELS else "measure"
+    if kind.is_boolean():
+        return "category"
+    if unique or distinct > MAX_GROUP_LEVELS:
+        return "id"
+    return "category"

@@ -1,0 +1,86 @@
+"""`briefgen init`: propose a starting config from a data file's columns.
+
+The proposal is a guess from column roles (see profile.column_roles); the file it
+writes says so, lists what it left out, and validates as it stands.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+import yaml
+
+from briefgen.errors import ConfigError
+from briefgen.profile import ColumnRole, column_roles
+from briefgen.source import read_table
+
+MAX_GROUPS = 3
+MAX_PREDICTORS = 3
+
+
+def _data_format(path: Path) -> str:
+    return "parquet" if path.suffix.lower() in {".parquet", ".pq"} else "csv"
+
+
+def propose(roles: tuple[ColumnRole, ...]) -> dict:
+    """Target, groups, predictors and time from the roles; the last measure is the target.
+
+    Exports usually put the outcome last, after the columns that describe it.
+    """
+    measures = [r.name for r in roles if r.role == "measure"]
+    categories = [r for r in roles if r.role == "category"]
+    times = [r.name for r in roles if r.role == "time"]
+    if not measures:
+        return {}
+    target = measures[-1]
+    # Fewer levels first: they make the clearest comparisons.
+    groups = [r.name for r in sorted(categories, key=lambda r: r.distinct)][:MAX_GROUPS]
+    proposal = {"target": target, "groups": groups, "predictors": measures[:-1][:MAX_PREDICTORS]}
+    if times:
+        proposal["time"] = times[0]
+    return proposal
+
+
+def starter_text(data: Path, config: Path, title: str | None = None) -> str:
+    """The YAML text of a proposed config for ``data``, written to sit at ``config``."""
+    label = str(data)
+    table = read_table(data, _data_format(data), label)
+    roles = column_roles(table)
+    proposal = propose(roles)
+    if not proposal:
+        raise ConfigError(
+            f"{label}: no numeric column to report on; a brief needs a numeric target."
+        )
+    relative = os.path.relpath(data.resolve(), config.resolve().parent)
+    body = {
+        "title": title or data.stem.replace("_", " ").capitalize(),
+        "data": {"path": relative},
+        **proposal,
+        "output": {"dir": "out", "formats": ["html", "pdf", "json"], "paper": "a4"},
+    }
+    used = {proposal["target"], *proposal["groups"], *proposal["predictors"], proposal.get("time")}
+    skipped = [f"{r.name} ({r.role})" for r in roles if r.name not in used]
+    header = [
+        f"# Proposed by `briefgen init` from the columns of {data.name}.",
+        "# Check the target first: it is the last numeric column, a guess.",
+    ]
+    if skipped:
+        header.append(f"# Not used: {', '.join(skipped)}.")
+    header.append("# Reference of every key: README, section 'Config reference'.")
+    return (
+        "\n".join(header)
+        + "\n"
+        + yaml.safe_dump(body, sort_keys=False, allow_unicode=True, default_flow_style=None)
+    )
+
+
+def write_starter(data: Path, config: Path, title: str | None = None, force: bool = False) -> Path:
+    """Write the proposed config, refusing to overwrite an existing file unless ``force``."""
+    if config.exists() and not force:
+        raise ConfigError(f"{config}: already exists; choose another name or pass --force.")
+    if not data.exists():
+        raise ConfigError(f"{data}: data file not found; check the path.")
+    text = starter_text(data, config, title)
+    config.write_text(text, encoding="utf-8")
+    return config
