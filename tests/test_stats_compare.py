@@ -326,6 +326,31 @@ def test_welch_pair_on_summaries_matches_statsmodels(engine_table):
     assert (pair.ci_low, pair.ci_high) == pytest.approx((low, high), rel=1e-9)
 
 
+@pytest.mark.parametrize("offset", [0.0, 1e6, 1e12])
+def test_mean_shift_is_the_mean_less_the_median_at_full_precision(engine_table, offset):
+    rng = np.random.default_rng(11)
+    groups = {level: list(offset + rng.normal(0, 0.1, 17)) for level in ("a", "b", "c")}
+    _, summaries = _prepared(engine_table, groups)
+    for summary in summaries:
+        values = np.asarray(groups[summary.level])
+        median = np.median(values)  # reference: numpy median (type 7, like the engine's)
+        assert summary.median == median
+        # reference: numpy mean of the deviations from the median; each subtraction is
+        # exact (Sterbenz 1974), so this is the full-precision mean − median at any offset
+        expected = np.mean(values - median)
+        assert summary.mean_shift == pytest.approx(expected, rel=1e-12, abs=1e-15)
+    # Differences of means keep their digits at 1e12 (rounded means near 1e12 are
+    # 1.2e-4 apart, which would leave about 3 digits of a 0.1 difference).
+    a, b = (np.asarray(groups[level]) for level in ("a", "b"))
+    shifted_a, shifted_b = a - a[0], b - a[0]  # exact, same data without the offset
+    pair = welch_pair(summaries[0], summaries[1])
+    reference = scipy_stats.ttest_ind(
+        shifted_a, shifted_b, equal_var=False
+    )  # reference: scipy.stats.ttest_ind(equal_var=False) on the exactly shifted values
+    assert pair.difference == pytest.approx(shifted_a.mean() - shifted_b.mean(), rel=1e-11)
+    assert pair.t == pytest.approx(reference.statistic, rel=1e-11)
+
+
 EPSILON = np.finfo(float).eps
 
 

@@ -8,8 +8,15 @@ rank-based test runs as well and the brief leans on it.
 
 Everything here works from the per-level n, mean and sd that
 ``briefgen.stats.groups.summarise_levels`` computed stably; only the skewness
-and the rank test go back to the engine (see ``briefgen.stats.ranks``). Means
-are compared as differences from one level's mean, never as large raw sums.
+and the rank test go back to the engine (see ``briefgen.stats.ranks``).
+
+Means are never differenced as rounded float64 values. Near an offset of 1e12
+float64 values are 1.2e-4 apart, so two rounded means 0.1 apart keep only 3
+digits of their difference. Each mean is held instead as its level's median (a
+data value) plus ``mean_shift`` (mean − median at full precision): medians close
+together difference exactly (Sterbenz 1974), the shifts are small, so
+(median_a − median_b) + (shift_a − shift_b) keeps nearly every digit. Sums over
+levels use deviations from one common reference, the first level's median.
 """
 
 from __future__ import annotations
@@ -120,9 +127,35 @@ class GroupComparison:
     notes: tuple[str, ...]
 
 
+def _anchored(summary: Summary) -> tuple[float, float]:
+    """The mean as (anchor, shift), anchor + shift = mean: the median and mean − median.
+
+    Falls back to (mean, 0) for a summary built without ``mean_shift``.
+    """
+    if summary.mean_shift is None or summary.median is None:
+        return summary.mean, 0.0
+    return summary.median, summary.mean_shift
+
+
+def _mean_difference(a: Summary, b: Summary) -> float:
+    """mean(a) − mean(b) without rounding either mean to the data's offset first."""
+    anchor_a, shift_a = _anchored(a)
+    anchor_b, shift_b = _anchored(b)
+    return (anchor_a - anchor_b) + (shift_a - shift_b)
+
+
+def _deviations(summaries: Sequence[Summary], reference: float) -> list[float]:
+    """Each level's mean − ``reference``, computed from its median and shift."""
+    deviations = []
+    for summary in summaries:
+        anchor, shift = _anchored(summary)
+        deviations.append((anchor - reference) + shift)
+    return deviations
+
+
 def welch_pair(a: Summary, b: Summary, confidence: float = 0.95) -> PairwiseComparison:
     """Welch's t-test and interval for mean(a) − mean(b); needs n ≥ 2 in both."""
-    difference = a.mean - b.mean
+    difference = _mean_difference(a, b)
     share_a, share_b = a.sd**2 / a.n, b.sd**2 / b.n
     variance = share_a + share_b
     if variance <= 0:
@@ -146,10 +179,9 @@ def welch_anova(summaries: Sequence[Summary]) -> tuple[float, float, float, floa
     if len(summaries) < 2 or any(s.sd is None or s.sd <= 0 for s in summaries):
         return None
     k = len(summaries)
-    base = summaries[0].mean  # deviations from one level's mean keep large offsets harmless
     weights = [s.n / s.sd**2 for s in summaries]
     total_weight = sum(weights)
-    deviations = [s.mean - base for s in summaries]
+    deviations = _deviations(summaries, _anchored(summaries[0])[0])
     weighted_mean = sum(w * d for w, d in zip(weights, deviations, strict=True)) / total_weight
     between = sum(
         w * (d - weighted_mean) ** 2 for w, d in zip(weights, deviations, strict=True)
@@ -166,9 +198,9 @@ def classical_anova(summaries: Sequence[Summary]) -> ClassicalAnova:
     """Equal-variance one-way ANOVA from per-level n, mean and sd (levels with n ≥ 1)."""
     used = [s for s in summaries if s.n >= 1 and s.mean is not None]
     total = sum(s.n for s in used)
-    base = used[0].mean
-    grand = sum(s.n * (s.mean - base) for s in used) / total  # grand mean − base
-    ss_between = sum(s.n * (s.mean - base - grand) ** 2 for s in used)
+    deviations = _deviations(used, _anchored(used[0])[0])
+    grand = sum(s.n * d for s, d in zip(used, deviations, strict=True)) / total
+    ss_between = sum(s.n * (d - grand) ** 2 for s, d in zip(used, deviations, strict=True))
     ss_within = sum((s.n - 1) * s.sd**2 for s in used if s.n >= 2 and s.sd is not None)
     df_between, df_within = len(used) - 1, total - len(used)
     f = p_value = residual_sd = r_squared = None
@@ -230,8 +262,11 @@ def level_effects(
     tested: Sequence[Summary], reference: Summary, overall_mean: float, confidence: float
 ) -> tuple[LevelEffect, ...]:
     """Each tested level against the reference level and against the overall mean."""
+    # Against the overall mean only the overall mean's own rounding remains: the
+    # anchor (a data value) minus it is exact when they are close (Sterbenz 1974).
+    versus_overall = _deviations(tested, overall_mean)
     effects = []
-    for s in tested:
+    for s, above_overall in zip(tested, versus_overall, strict=True):
         if s is reference:
             low = high = None
             difference = 0.0
@@ -247,7 +282,7 @@ def level_effects(
                 ci_low=low,
                 ci_high=high,
                 percent_of_reference=_percent(difference, reference.mean),
-                percent_vs_overall=_percent(s.mean - overall_mean, overall_mean),
+                percent_vs_overall=_percent(above_overall, overall_mean),
             )
         )
     return tuple(effects)
@@ -256,8 +291,10 @@ def level_effects(
 def overall_mean(summaries: Sequence[Summary]) -> float:
     """Mean of the target over every row with a level and a value."""
     used = [s for s in summaries if s.n >= 1 and s.mean is not None]
-    base = used[0].mean
-    return base + sum(s.n * (s.mean - base) for s in used) / sum(s.n for s in used)
+    base = _anchored(used[0])[0]
+    deviations = _deviations(used, base)
+    weighted = sum(s.n * d for s, d in zip(used, deviations, strict=True))
+    return base + weighted / sum(s.n for s in used)
 
 
 def _leaning(skewness: float | None, ranks: RankTest | None) -> tuple[str, str]:

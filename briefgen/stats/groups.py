@@ -31,6 +31,11 @@ class Summary:
     ``rows`` counts rows in the level; ``missing`` those without a usable target
     value; ``n`` the rest. Quantiles are type 7 (Hyndman & Fan 1996). The interval
     is Student t at the brief's confidence level.
+
+    ``mean_shift`` is mean − median at full precision, the mean of the deviations
+    from the median (None when n = 0). ``mean`` rounds to the spacing of float64 near
+    the data's offset; comparisons difference means as (median_a − median_b) +
+    (mean_shift_a − mean_shift_b), which keeps the digits the rounding would lose.
     """
 
     level: str
@@ -46,6 +51,7 @@ class Summary:
     median: float | None
     q3: float | None
     max: float | None
+    mean_shift: float | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -215,10 +221,11 @@ def _assemble(
 ):
     rows, n = int(first["rows"]), int(first["n"])
     median = _float(first["median"])
-    mean = sd = None
+    mean = mean_shift = sd = None
     if n >= 1 and median is not None:
         sum_d, sum_d2 = float(second["sum_d"]), float(second["sum_d2"])
-        mean = median + sum_d / n
+        mean_shift = sum_d / n
+        mean = median + mean_shift
         if n >= 2:
             centred = max(sum_d2 - sum_d * sum_d / n, 0.0)
             sd = math.sqrt(centred / (n - 1))
@@ -237,6 +244,7 @@ def _assemble(
         median=median,
         q3=_float(first["q3"]),
         max=_float(first["max"]),
+        mean_shift=mean_shift,
     )
     if n == 0:
         return summary, None
