@@ -73,6 +73,21 @@ class BriefSpec(_Strict):
     output: OutputSpec = Field(default_factory=OutputSpec)
     source_file: str = ""
 
+    @field_validator("cross")
+    @classmethod
+    def _cross_names_groups(cls, value, info):
+        # A two-way table crosses two of the brief's groups; anything else is a typo.
+        groups = info.data.get("groups") or []
+        for pair in value or []:
+            missing = [name for name in pair if name not in groups]
+            if missing:
+                raise ValueError(
+                    f"'{missing[0]}' is not listed in groups; add it there or fix the name"
+                )
+            if pair[0] == pair[1]:
+                raise ValueError(f"a pair needs two different groups, not '{pair[0]}' twice")
+        return value
+
     @field_validator("time", mode="before")
     @classmethod
     def _time_shorthand(cls, value: Any) -> Any:

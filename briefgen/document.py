@@ -26,7 +26,7 @@ from briefgen.findings import (
     trend_finding,
     wording_for,
 )
-from briefgen.numbers import decimals_for, fmt_count
+from briefgen.numbers import decimals_for, fmt_count, fmt_level
 from briefgen.stats import BriefStats, CrossTable, RegressionFit, Trend
 from briefgen.tables import (
     Table,
@@ -42,6 +42,7 @@ from briefgen.tables import (
 )
 
 MAX_KEY_FINDINGS = 8
+MAX_MATRIX_COLUMNS = 7  # level columns that fit across A4 text width at 8.5 pt
 
 
 @dataclass(frozen=True, slots=True)
@@ -83,7 +84,7 @@ def name_for(spec: BriefSpec, column: str) -> str:
 
 
 def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
-    level = f"{stats.confidence:.0%}"
+    level = fmt_level(stats.confidence)
     notes = [
         "All statistics were computed by the database engine over every row; charts are drawn from those "
         "results (scatter plots show a seeded random sample of at most 5,000 points).",
@@ -150,7 +151,8 @@ def _cross_section(cross: CrossTable, spec: BriefSpec, words: Wording) -> Sectio
         f"{label} by {names[0]} and {names[1]}",
         finding,
         cross_chart(cross, label, decimals, names),
-        cross_table_view(cross, words, names),
+        # A wide matrix would run off the page; the long form in the appendix has every cell.
+        cross_table_view(cross, words, names) if len(cross.columns) <= MAX_MATRIX_COLUMNS else None,
     )
 
 
@@ -221,10 +223,20 @@ def _sections(
     return sections, appendix
 
 
+def _why_empty(key: str, stats: BriefStats) -> str:
+    if key == "trend":
+        return "the usable dates fall in fewer than two periods, too few for a trend"
+    return "the predictor takes a single value in the rows used (or too few rows have it), so no line can be fitted"
+
+
 def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label: str) -> Document:
     """Assemble findings, charts and tables into the page model."""
     words = wording_for(stats, label_for(spec, spec.target))
     sections, appendix = _sections(stats, spec, words)
+    # An analysis with neither a finding nor a chart has nothing to show; say why instead.
+    empty = [s for s in sections if s.finding is None and s.chart is None and s.table is None]
+    sections = [s for s in sections if s not in empty]
+    not_shown = [f"{s.heading}: not shown, {_why_empty(s.key, stats)}." for s in empty]
     found = [s.finding for s in sections if s.finding is not None]
     # Page 1 leads with clear results; "no clear difference" findings follow them.
     clear = [f for f in found if "no clear" not in f.headline.lower()]
@@ -239,7 +251,7 @@ def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label
         built_on=built_on,
         paper=spec.output.paper,
         key_findings=tuple(key),
-        cautions=tuple(cautions(stats, words, names)),
+        cautions=tuple(not_shown + cautions(stats, words, names)),
         sections=tuple(sections),
         appendix=tuple(appendix),
         method=method_notes(stats, spec),

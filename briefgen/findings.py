@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_percent, p_text
+from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_level, fmt_percent, p_text
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
 from briefgen.stats.correlation import Correlation
@@ -52,7 +52,7 @@ class Wording:
 
     @property
     def level_name(self) -> str:
-        return f"{self.confidence:.0%}"
+        return fmt_level(self.confidence)
 
     @property
     def lower(self) -> str:
@@ -100,24 +100,40 @@ def _test_phrase(comparison: GroupComparison) -> tuple[str, float | None]:
 def group_finding(
     group: GroupStats, comparison: GroupComparison | None, words: Wording, name: str
 ) -> Finding | None:
-    """Highest against lowest mean, with the test the brief leans on."""
+    """Highest against lowest level, worded by the test the brief leans on.
+
+    Welch's tests compare means, so the sentence compares means; rank tests compare
+    typical values, so the sentence compares medians; a sentence never pairs one
+    test's verdict with the other's numbers.
+    """
     usable = [s for s in group.summaries if s.n >= 2 and s.mean is not None]
     if len(usable) < 2:
         return None
-    high = max(usable, key=lambda s: s.mean)
-    low = min(usable, key=lambda s: s.mean)
     figure = f"group-{group.variable}"
     if comparison is None:
+        high = max(usable, key=lambda s: s.mean)
+        low = min(usable, key=lambda s: s.mean)
         return _overlap_finding(high, low, words, name, figure)
     test, p = _test_phrase(comparison)
+    if p is None:
+        return _untested_finding(comparison, words, name, figure)
+    if comparison.leans_on == "rank":
+        finding = _median_finding(usable, words, name, test, p, figure)
+    else:
+        finding = _mean_finding(usable, comparison, words, name, test, p, figure)
+    return _with_disagreement(finding, comparison)
+
+
+def _mean_finding(usable, comparison, words, name, test, p, figure) -> Finding:
+    high = max(usable, key=lambda s: s.mean)
+    low = min(usable, key=lambda s: s.mean)
     pair = _pair(comparison, high.level, low.level)
     gap = high.mean - low.mean
-    relative = f", or {fmt_percent(gap / low.mean)} more" if low.mean and low.mean > 0 else ""
     text = (
         f"By {name}, {high.level} has the highest mean {words.lower}, {words.value(high.mean)}, and "
         f"{low.level} the lowest, {words.value(low.mean)}: a gap of {words.value(gap)}"
     )
-    clear = p is not None and p < SIGNIFICANCE
+    clear = p < SIGNIFICANCE
     # The interval is shown only when the overall test finds a difference: highest against
     # lowest is chosen after seeing the data, so its own interval alone would overstate certainty.
     if clear and pair is not None and pair.ci_low is not None:
@@ -128,7 +144,9 @@ def group_finding(
             else (-pair.ci_high, -pair.ci_low)
         )
         text += f" ({words.level_name} interval {words.interval(low_end, high_end)})"
-    text += relative + "."
+    if low.mean and low.mean > 0 and abs(gap / low.mean) >= 0.005:
+        text += f", or {fmt_percent(gap / low.mean)} more"
+    text += "."
     if clear:
         headline = (
             f"By {name}: {high.level} highest ({words.value(high.mean)}), "
@@ -137,16 +155,67 @@ def group_finding(
         certainty = f"A gap this large would be unlikely if {name} made no difference ({test}, {p_text(p)})."
     else:
         headline = f"By {name}: no clear difference"
-        certainty = (
-            f"Gaps this size arise by chance alone ({test}, {p_text(p)}); the data do not show that "
-            f"{name} matters — nor that it does not."
+        certainty = _chance_phrase(name, test, p)
+    return Finding(headline=headline, text=text, certainty=certainty, figure=figure)
+
+
+def _median_finding(usable, words, name, test, p, figure) -> Finding:
+    high = max(usable, key=lambda s: s.median)
+    low = min(usable, key=lambda s: s.median)
+    text = (
+        f"By {name}, the typical (median) {words.lower} is highest for {high.level}, "
+        f"{words.value(high.median)}, and lowest for {low.level}, {words.value(low.median)}; "
+        f"their means are {words.value(high.mean)} and {words.value(low.mean)}."
+    )
+    if p < SIGNIFICANCE:
+        headline = (
+            f"By {name}: {high.level} typically highest ({words.value(high.median)}), "
+            f"{low.level} lowest ({words.value(low.median)})"
         )
-    detail = ""
-    if comparison.leans_on == "rank":
-        detail = (
-            "Values are strongly skewed within groups, so the brief relies on a rank-based test."
-        )
+        certainty = f"Values differ between levels of {name} more than chance would explain ({test}, {p_text(p)})."
+    else:
+        headline = f"By {name}: no clear difference"
+        certainty = _chance_phrase(name, test, p)
+    detail = "Values are strongly skewed within groups, so the brief relies on a rank-based test."
     return Finding(headline=headline, text=text, certainty=certainty, figure=figure, detail=detail)
+
+
+def _chance_phrase(name: str, test: str, p: float) -> str:
+    return (
+        f"Gaps this size could easily arise by chance ({test}, {p_text(p)}): the data do not show "
+        f"that {name} matters, which is not the same as showing that it does not."
+    )
+
+
+def _with_disagreement(finding: Finding, comparison: GroupComparison) -> Finding:
+    """Say so when the test on means and the test on ranks reach different verdicts."""
+    ranks = comparison.rank_test
+    if ranks is None or ranks.p_value is None or comparison.p_value is None:
+        return finding
+    welch_clear = comparison.p_value < SIGNIFICANCE
+    rank_clear = ranks.p_value < SIGNIFICANCE
+    if welch_clear == rank_clear:
+        return finding
+    other = (
+        f"the test on means (Welch) gives {p_text(comparison.p_value)}"
+        if comparison.leans_on == "rank"
+        else f"the rank test on typical values gives {p_text(ranks.p_value)}"
+    )
+    note = f"Means and typical values tell different stories here: {other}."
+    detail = f"{finding.detail} {note}".strip()
+    return Finding(finding.headline, finding.text, finding.certainty, finding.figure, detail)
+
+
+def _untested_finding(
+    comparison: GroupComparison, words: Wording, name: str, figure: str
+) -> Finding:
+    reason = getattr(comparison, "undefined_reason", None) or "too few levels vary"
+    return Finding(
+        headline=f"By {name}: difference not tested",
+        text=f"The levels of {name} could not be compared with a test: {reason.rstrip('.')}.",
+        certainty="Read the table of levels instead; no statement of certainty is possible.",
+        figure=figure,
+    )
 
 
 def _overlap_finding(
@@ -265,7 +334,8 @@ def fit_finding(
         text += f" Rank correlation ρ = {correlation.spearman_rho:.2f} (Pearson r = {correlation.pearson_r:.2f})."
     if log_fit is not None and log_fit.percent_change_per_unit is not None:
         text += (
-            f" In relative terms, each unit adds about {fmt(log_fit.percent_change_per_unit, 1)}% "
+            f" In relative terms, each extra unit goes with a change of about "
+            f"{fmt(log_fit.percent_change_per_unit, 1)}% in {words.lower} "
             f"({fmt(log_fit.percent_ci_low, 1)}% to {fmt(log_fit.percent_ci_high, 1)}%, fit on the log scale)."
         )
     differing = [name for name, s in slopes if s.p_value is not None and s.p_value < SIGNIFICANCE]
@@ -290,7 +360,10 @@ def fit_finding(
 
 def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[str]:
     """What a reader must know before acting on the brief."""
-    notes = []
+    notes = [
+        f"{fmt_count(dropped.rows)} rows left out of {dropped.analysis}: {dropped.reason}."
+        for dropped in stats.accounting.dropped
+    ]
     for group in stats.groups:
         small = [s for s in group.summaries if s.n < SMALL_GROUP]
         if small:
@@ -299,10 +372,15 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
                 f"Small groups in {names.get(group.variable, group.variable)}: {listed}. "
                 "Their averages can move a lot with a few more rows."
             )
-    skewed = [c for c in stats.comparisons if c.strongly_skewed]
+    skewed = [c for c in stats.comparisons if c.strongly_skewed and c.skewness is not None]
     if skewed:
+        pull = (
+            "a few high values pull means up"
+            if skewed[0].skewness > 0
+            else "a few low values pull means down"
+        )
         notes.append(
-            f"{words.label} is strongly skewed: a few long values pull means up. The median is the better "
+            f"{words.label} is strongly skewed: {pull}. The median is the better "
             "'typical' value, and group tests were checked with rank-based tests."
         )
     if stats.fits or stats.crosses:
@@ -325,9 +403,5 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
     if stats.trend is not None and any(p.partial for p in stats.trend.periods):
         notes.append(
             "The first or last period of the trend is only partly covered by the data; read its value with care."
-        )
-    for dropped in stats.accounting.dropped:
-        notes.append(
-            f"{fmt_count(dropped.rows)} rows left out of {dropped.analysis}: {dropped.reason}."
         )
     return notes

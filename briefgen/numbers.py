@@ -26,6 +26,11 @@ def fmt(value: float | None, decimals: int) -> str:
     return text.replace("-", "−")
 
 
+def fmt_level(confidence: float) -> str:
+    """A confidence level as people write it: 0.95 ─► '95%', 0.995 ─► '99.5%' (never rounded)."""
+    return f"{confidence * 100:.10g}%"
+
+
 def fmt_count(value: int) -> str:
     return f"{value:,}"
 
@@ -42,7 +47,9 @@ def fmt_p(p: float | None) -> str:
         return "–"
     if p < 0.001:
         return "< 0.001"
-    return f"{p:.2g}" if p < 0.1 else f"{p:.2f}"
+    text = f"{p:.2g}" if p < 0.1 else f"{p:.2f}"
+    # Near the conventional 0.05 line, two digits would print 0.0496 and 0.0504 alike.
+    return f"{p:.3g}" if text == "0.05" else text
 
 
 def p_text(p: float | None) -> str:

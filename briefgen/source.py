@@ -95,6 +95,10 @@ def check_columns(table: ir.Table, spec: BriefSpec, label: str) -> None:
             raise DataError(
                 f"{label}: column '{name}' named by '{key}' is empty in every row; check the export."
             )
+        if not schema[name].is_numeric() and table[name].count().to_pyarrow().as_py() == 0:
+            raise DataError(
+                f"{label}: column '{name}' named by '{key}' is empty in every row; check the export."
+            )
         if not schema[name].is_numeric():
             raise DataError(
                 f"{label}: column '{name}' named by '{key}' holds {schema[name]}, not numbers; "

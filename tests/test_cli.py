@@ -173,3 +173,13 @@ def test_tiny_and_odd_data_never_crash(tmp_path_factory, values, levels, offset)
         "predictors: [distance]\ntime: when\nlog_target: true\noutput:\n  dir: out\n  formats: [html, json]\n"
     )
     assert main(["build", str(folder / "brief.yaml")]) in (0, 3)
+
+
+def test_values_too_large_to_square_get_a_sentence(tmp_path, capsys):
+    config = _write_case(tmp_path)
+    frame = pd.read_csv(tmp_path / "data.csv")
+    frame["minutes"] = frame["minutes"] * 1e300
+    frame.to_csv(tmp_path / "data.csv", index=False)
+    assert main(["build", str(config)]) == 3
+    err = " ".join(capsys.readouterr().err.split())
+    assert "too large to square" in err and "'minutes'" in err

@@ -106,3 +106,14 @@ def test_packaged_demo_config_matches_the_repository_copy():
     assert packaged.data_path == repo.data_path
     same = {"data", "output", "source_file"}
     assert packaged.model_dump(exclude=same) == repo.model_dump(exclude=same)
+
+
+def test_cross_pairs_must_name_two_different_groups():
+    base = GOOD.replace("groups: [site]", "groups: [site, shift]")
+    with pytest.raises(
+        ConfigError, match=r"line 10: key 'cross' is invalid: 'team' is not listed in groups"
+    ):
+        parse_spec(base + "cross: [[site, team]]\n", "brief.yaml")
+    with pytest.raises(ConfigError, match="two different groups"):
+        parse_spec(base + "cross: [[site, site]]\n", "brief.yaml")
+    assert parse_spec(base + "cross: [[shift, site]]\n").cross_pairs == [("shift", "site")]

@@ -8,7 +8,7 @@ and named in the caption.
 from __future__ import annotations
 
 from briefgen.figures.theme import OKABE_ITO, Chart, new_figure, themed, to_svg
-from briefgen.numbers import fmt
+from briefgen.numbers import fmt, fmt_level
 from briefgen.stats.twoway import CrossCell, CrossTable
 
 # Dark-to-light order keeps neighbouring series apart in lightness as well as hue.
@@ -73,7 +73,7 @@ def _caption(
     """What the dots show, and which cells were too small to draw."""
     caption = (
         f"Mean {label[:1].lower() + label[1:]} for each combination of {row_name} and {series_name}, with "
-        f"{cross.confidence:.0%} intervals. Rows are sorted by their overall mean."
+        f"{fmt_level(cross.confidence)} intervals. Rows are sorted by their overall mean."
     )
     if left_out:
         caption += f" Left out, fewer than {cross.min_cell} rows: {', '.join(left_out)}."

@@ -18,7 +18,7 @@ from briefgen.figures.theme import (
     themed,
     to_svg,
 )
-from briefgen.numbers import fmt, fmt_count
+from briefgen.numbers import fmt, fmt_count, fmt_level
 from briefgen.stats.groups import BoxStats, GroupStats, Summary
 
 
@@ -137,7 +137,9 @@ def _draw_means(
         color=ACCENT,
     )
     axes.set_xlabel(f"Mean {label.lower()}")
-    axes.set_title(f"Average with {confidence:.0%} interval", fontsize=8.5, fontweight="normal")
+    axes.set_title(
+        f"Average with {fmt_level(confidence)} interval", fontsize=8.5, fontweight="normal"
+    )
     axes.grid(axis="y", visible=False)
     axes.tick_params(axis="y", length=0)
 
@@ -171,7 +173,7 @@ def _caption(
     """What both panels show, the size of each level, and what happened to outliers."""
     counts = ", ".join(f"{b.level} {fmt_count(b.n)}" for b in boxes)
     return (
-        f"{label} by {name}. Left: Tukey box plots. Right: means with {confidence:.0%} "
+        f"{label} by {name}. Left: Tukey box plots. Right: means with {fmt_level(confidence)} "
         f"Student t intervals; dashed line: overall mean. n per level: {counts}. "
         f"{_outlier_note(boxes, beyond_edge)}"
     )

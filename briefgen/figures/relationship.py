@@ -9,7 +9,7 @@ from __future__ import annotations
 import numpy as np
 
 from briefgen.figures.theme import BAND, LINE, POINT, Chart, new_figure, themed, to_svg
-from briefgen.numbers import fmt, fmt_count
+from briefgen.numbers import fmt, fmt_count, fmt_level
 from briefgen.stats.regression import RegressionFit
 from briefgen.stats.sample import Sample
 
@@ -49,14 +49,14 @@ def relationship_chart(
     )
     caption = (
         f"{y_label} against {x_label.lower()}. Points: {points}. Line: least-squares fit on all "
-        f"{fmt_count(fit.n)} rows with both values; shaded: {confidence:.0%} confidence band of the line. "
+        f"{fmt_count(fit.n)} rows with both values; shaded: {fmt_level(confidence)} confidence band of the line. "
         f"Slope {fmt(fit.slope, slope_decimals)} per unit, R² {fmt(fit.r_squared, 2)}."
     )
     alt = (
         f"Scatter plot of {y_label.lower()} against {x_label.lower()} with a rising"
         if fit.slope > 0
         else f"Scatter plot of {y_label.lower()} against {x_label.lower()} with a falling"
-    ) + f" fitted line; each unit adds {fmt(fit.slope, slope_decimals)} on average."
+    ) + f" fitted line; each unit goes with {fmt(fit.slope, slope_decimals)} more on average."
     return Chart(
         key=f"fit-{fit.predictor}",
         title=f"{y_label} against {x_label}",

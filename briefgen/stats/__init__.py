@@ -98,10 +98,32 @@ def _group_stats(frame: AnalysisFrame, group: str, confidence: float) -> GroupSt
     )
 
 
+# Squares of values beyond about 1e154 overflow double precision (max ≈ 1.8e308).
+LARGEST_SQUARABLE = 1e150
+
+
+def _check_magnitudes(source: Source, frame: AnalysisFrame) -> None:
+    """Stop with a sentence before any sum of squares can overflow to infinity."""
+    table = frame.table
+    names = {"y": frame.target} | frame.predictors
+    row = (
+        table.aggregate(**{key: table[key].abs().max() for key in names})
+        .to_pyarrow()
+        .to_pylist()[0]
+    )
+    for key, name in names.items():
+        if row[key] is not None and row[key] > LARGEST_SQUARABLE:
+            raise DataError(
+                f"{source.label}: values in '{name}' reach {row[key]:.3g}, too large to square in double "
+                "precision; rescale the column (for example divide it by a power of ten)."
+            )
+
+
 def _overall(
     source: Source, spec: BriefSpec, frame: AnalysisFrame
 ) -> tuple[Summary, BoxStats | None]:
     """Summary and box of the target over all rows; stops with a message if no value is usable."""
+    _check_magnitudes(source, frame)
     all_rows = frame.table.mutate(level=ibis.literal(ALL_ROWS))
     summaries, boxes = summarise_levels(all_rows, spec.confidence)
     if not summaries or summaries[0].n == 0:

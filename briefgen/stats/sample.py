@@ -39,10 +39,15 @@ def draw_sample(
     """Seeded sample of rows with a target value; ``frame`` has ``y`` and the predictors."""
     usable = frame.filter(frame.y.notnull())
     available = int(usable.count().to_pyarrow().as_py())
+    values = ["y", *predictors]
+    # Identical rows would share a hash and be taken all together or not at all; numbering
+    # the copies gives each its own key, still deterministic since copies are interchangeable.
+    numbered = usable.mutate(_copy=ibis.row_number().over(group_by=[usable[c] for c in values]))
     key = ibis.literal(str(seed))
-    for name in ["y", *predictors]:
-        key = key + "|" + usable[name].cast("string").fill_null("")
-    ranked = usable.mutate(_order=key.hash())
+    for name in values:
+        key = key + "|" + numbered[name].cast("string").fill_null("")
+    key = key + "|" + numbered["_copy"].cast("string")
+    ranked = numbered.mutate(_order=key.hash())
     chosen = ranked.order_by(["_order", "y", *predictors]).limit(size).select("y", *predictors)
     columns = chosen.to_pyarrow().to_pydict()
     return Sample(
