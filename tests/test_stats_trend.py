@@ -106,24 +106,38 @@ def test_counts_of_rows_used_and_left_out(tmp_path):
     assert sum(p.n for p in trend.periods) == trend.rows_used
 
 
-def test_overall_change_matches_linregress_and_statsmodels(tmp_path):
-    frame = timed_frame(300, 800, seed=8)
+def reference_period_points(frame: pd.DataFrame, period: str) -> tuple[np.ndarray, np.ndarray]:
+    """Period midpoints (days since the first usable time) and period means, from pandas."""
+    usable = frame.dropna(subset=["t", "y"])
+    freq = {"day": "D", "week": "W-SUN", "month": "M"}[period]
+    labels = usable.t.dt.to_period(freq)
+    means = usable.groupby(labels)["y"].mean()  # reference: pandas groupby mean
+    starts = means.index.start_time
+    middles = starts + ((means.index + 1).start_time - starts) / 2
+    days = (middles - usable.t.min()).total_seconds().to_numpy() / 86_400
+    return days, means.to_numpy()
+
+
+@pytest.mark.parametrize(("period", "days"), [("day", 45), ("week", 300), ("month", 900)])
+def test_overall_change_matches_linregress_and_statsmodels_on_period_means(tmp_path, period, days):
+    frame = timed_frame(days, 1500, seed=8)
     frame.loc[frame.index[::25], "y"] = np.nan
-    trend = time_trend(engine_table(frame, tmp_path))
+    trend = time_trend(engine_table(frame, tmp_path), period=period)
+    x, y = reference_period_points(frame, period)
     usable = frame.dropna()
-    days = (usable.t - usable.t.min()).dt.total_seconds().to_numpy() / 86_400
-    span = days.max()
-    fit = scipy_stats.linregress(days, usable.y.to_numpy())  # reference: scipy linregress
-    t_quantile = scipy_stats.t.ppf(0.975, len(days) - 2)
+    span = (usable.t.max() - usable.t.min()).total_seconds() / 86_400
     assert trend.span_days == pytest.approx(span, rel=1e-12)
-    assert trend.change == pytest.approx(fit.slope * span, rel=1e-9)
-    assert trend.fit.slope_se == pytest.approx(fit.stderr, rel=1e-9)
-    assert trend.change_ci_low == pytest.approx(
-        (fit.slope - t_quantile * fit.stderr) * span, rel=1e-9
-    )
-    assert trend.change_per_30_days == pytest.approx(fit.slope * 30, rel=1e-9)
-    # reference: statsmodels OLS conf_int on time in days
-    ols = sm.OLS(usable.y.to_numpy(), sm.add_constant(days)).fit()
+    assert trend.fit.n == len(x) == len(trend.periods)
+    line = scipy_stats.linregress(x, y)  # reference: scipy linregress on the period means
+    assert trend.change == pytest.approx(line.slope * span, rel=1e-9)
+    assert trend.change_per_30_days == pytest.approx(line.slope * 30, rel=1e-9)
+    assert trend.fit.slope_se == pytest.approx(line.stderr, rel=1e-9)
+    assert trend.fit.intercept == pytest.approx(line.intercept, rel=1e-9)
+    assert trend.fit.intercept_se == pytest.approx(line.intercept_stderr, rel=1e-9)
+    assert trend.fit.pearson_r == pytest.approx(line.rvalue, rel=1e-9)
+    # reference: statsmodels OLS conf_int of the slope, periods − 2 df
+    ols = sm.OLS(y, sm.add_constant(x)).fit()
+    assert ols.df_resid == len(x) - 2
     low, high = ols.conf_int(alpha=0.05)[1]
     assert (trend.change_ci_low, trend.change_ci_high) == pytest.approx(
         (low * span, high * span), rel=1e-9
@@ -131,6 +145,75 @@ def test_overall_change_matches_linregress_and_statsmodels(tmp_path):
     assert (trend.change_per_30_days_ci_low, trend.change_per_30_days_ci_high) == pytest.approx(
         (low * 30, high * 30), rel=1e-9
     )
+    assert trend.fit.residual_sd == pytest.approx(math.sqrt(ols.scale), rel=1e-9)
+    assert trend.fit.r_squared == pytest.approx(ols.rsquared, rel=1e-9)
+
+
+def clustered_days(runs: int, days: int, rows_per_day: int, seed: int) -> pd.DataFrame:
+    """No trend; every row of a day shares that day's shock (sd 1) plus its own noise (sd 3)."""
+    rng = np.random.default_rng(seed)
+    day = np.repeat(np.arange(days), rows_per_day)
+    run = np.repeat(np.arange(runs), days * rows_per_day)
+    day_shock = np.repeat(rng.normal(0, 1, runs * days), rows_per_day)
+    seconds = rng.uniform(0, 86_400, runs * days * rows_per_day).round()
+    t = pd.Timestamp("2024-01-01") + pd.to_timedelta(np.tile(day, runs) * 86_400 + seconds, "s")
+    y = 20 + day_shock + rng.normal(0, 3, len(t))
+    return pd.DataFrame({"run": run, "t": t.as_unit("us"), "y": y})
+
+
+def row_level_interval(frame: pd.DataFrame) -> tuple[float, float]:
+    """The row-level slope interval × span: what a fit treating rows as independent gives."""
+    days = (frame.t - frame.t.min()).dt.total_seconds().to_numpy() / 86_400
+    ols = sm.OLS(frame.y.to_numpy(), sm.add_constant(days)).fit()  # reference: statsmodels OLS
+    low, high = ols.conf_int(alpha=0.05)[1]
+    return low * days.max(), high * days.max()
+
+
+def test_clustered_noise_widens_the_interval(tmp_path):
+    frame = clustered_days(runs=1, days=60, rows_per_day=500, seed=31)
+    trend = time_trend(engine_table(frame, tmp_path), period="day")
+    x, y = reference_period_points(frame, "day")
+    # reference: statsmodels OLS on the 60 day means, one point per day
+    low, high = sm.OLS(y, sm.add_constant(x)).fit().conf_int(alpha=0.05)[1]
+    assert (trend.change_ci_low, trend.change_ci_high) == pytest.approx(
+        (low * trend.span_days, high * trend.span_days), rel=1e-9
+    )
+    row_low, row_high = row_level_interval(frame)
+    # Day means carry the shared shock (variance 1 + 9/500) once per day, rows as if it were
+    # independent 500 times: the honest interval is about √(1.018·30000/(10·60)) ≈ 7 times wider.
+    width = trend.change_ci_high - trend.change_ci_low
+    assert width > 4 * (row_high - row_low)
+
+
+def test_clustered_noise_without_trend_rarely_excludes_zero(tmp_path):
+    runs = 100
+    frame = clustered_days(runs=runs, days=30, rows_per_day=100, seed=7)
+    table = engine_table(frame, tmp_path)
+    excluded_by_periods = excluded_by_rows = 0
+    for run in range(runs):
+        trend = time_trend(table.filter(table.run == run), period="day")
+        excluded_by_periods += not trend.change_ci_low < 0 < trend.change_ci_high
+        row_low, row_high = row_level_interval(frame[frame.run == run])
+        excluded_by_rows += not row_low < 0 < row_high
+    # A 95% interval should exclude a true zero in about 5% of runs: Binomial(100, 0.05)
+    # exceeds 12 with probability 0.0015 (reference: scipy.stats.binom.sf(12, 100, 0.05)).
+    assert excluded_by_periods <= 12
+    # Rows as independent (design effect 1 + 99·0.1 ≈ 11, Kish 1965) miss about half the time.
+    assert excluded_by_rows >= 30
+
+
+def test_two_periods_give_a_line_without_an_interval(tmp_path):
+    stamps = pd.to_datetime(["2024-05-06 08:00", "2024-05-06 20:00", "2024-05-07 09:00"])
+    frame = pd.DataFrame({"t": stamps, "y": [1.0, 3.0, 5.0]})
+    trend = time_trend(engine_table(frame, tmp_path), period="day")
+    x, y = reference_period_points(frame, "day")
+    slope, intercept = np.polyfit(x, y, 1)  # reference: numpy polyfit through the two means
+    assert trend.change == pytest.approx(slope * 25 / 24, rel=1e-12)
+    assert trend.fit.intercept == pytest.approx(intercept, rel=1e-12)
+    assert trend.change_per_30_days == pytest.approx(slope * 30, rel=1e-12)
+    assert trend.change_ci_low is None and trend.change_ci_high is None
+    assert trend.change_per_30_days_ci_low is None and trend.change_per_30_days_ci_high is None
+    assert trend.fit.slope_se is None and trend.fit.residual_sd is None
 
 
 def test_large_offset_exact(tmp_path):
@@ -146,10 +229,11 @@ def test_large_offset_exact(tmp_path):
         sd = expected[p.start]["sd"]  # reference: numpy sd on the offset-free data
         assert abs(p.sd - sd) / sd < 1e-9
         assert abs((p.mean - 1e9) - expected[p.start]["mean"]) < 4 * np.spacing(1e9)
-    days = (frame.t - frame.t.min()).dt.total_seconds().to_numpy() / 86_400
-    fit = scipy_stats.linregress(days, shifted.y.to_numpy())  # reference: offset-free linregress
-    assert trend.fit.slope == pytest.approx(fit.slope, rel=1e-6)
-    assert trend.fit.slope_se == pytest.approx(fit.stderr, rel=1e-6)
+    x, y = reference_period_points(shifted, "week")
+    line = scipy_stats.linregress(x, y)  # reference: linregress on the offset-free period means
+    assert trend.fit.slope == pytest.approx(line.slope, rel=1e-9)
+    assert trend.fit.slope_se == pytest.approx(line.stderr, rel=1e-9)
+    assert trend.fit.intercept - 1e9 == pytest.approx(line.intercept, abs=4 * np.spacing(1e9))
 
 
 def test_auto_period_rule():
@@ -200,8 +284,9 @@ def test_single_period_and_single_row_period(tmp_path):
     trend = time_trend(engine_table(frame, tmp_path))
     assert trend.period == "day" and len(trend.periods) == 1
     assert_periods_match(trend, reference_periods(frame, "day", 0.95))
-    fit = scipy_stats.linregress((stamps - stamps[0]).total_seconds() / 86_400, frame.y)
-    assert trend.change == pytest.approx(fit.slope * 0.5, rel=1e-9)  # reference: linregress
+    # One period is one point: no slope, so no change (common practice, no published source).
+    assert trend.change is None and trend.change_ci_low is None and trend.change_ci_high is None
+    assert trend.change_per_30_days is None and trend.fit.n == 1
 
     lone = pd.DataFrame(
         {"t": pd.to_datetime(["2024-05-06", "2024-05-07", "2024-05-07"]), "y": [3.0, 1.0, 2.0]}

@@ -1,7 +1,8 @@
 """Target over time: one mean per period with its interval, on a true date axis.
 
 Periods sit at their real dates, so gaps show as gaps. Partly covered periods
-are drawn hollow, and the straight-line trend from the full data is overlaid.
+are drawn hollow, and the straight-line trend through the period means (the line
+the brief's change comes from, ``Trend.fit``) is overlaid.
 """
 
 from __future__ import annotations
@@ -11,7 +12,7 @@ import datetime as dt
 import matplotlib.dates as mdates
 
 from briefgen.figures.theme import ACCENT, INK, LINE, Chart, new_figure, themed, to_svg
-from briefgen.numbers import fmt, fmt_count
+from briefgen.numbers import fmt, fmt_count, fmt_level
 from briefgen.stats.trend import Trend
 
 
@@ -42,13 +43,13 @@ def _draw_periods(axes, trend: Trend, middles: list[dt.datetime]) -> None:
 
 
 def _draw_fit(axes, trend: Trend) -> None:
-    """The least-squares line over all rows, from the first to the last timestamp."""
+    """The least-squares line through the period means, from the first to the last timestamp."""
     if trend.fit is None or trend.fit.slope is None or trend.first_time is None:
         return
     start, end = trend.first_time, trend.last_time
-    # The fit's slope is per day, measured from the first timestamp.
-    days = (end - start).total_seconds() / 86_400
-    ends = [trend.fit.intercept, trend.fit.intercept + trend.fit.slope * days]
+    # The fit's slope is per day, measured from the first timestamp; its rise over the
+    # span is the brief's change.
+    ends = [trend.fit.intercept, trend.fit.intercept + trend.fit.slope * trend.span_days]
     axes.plot(
         [start, end],
         ends,
@@ -63,9 +64,9 @@ def _caption(trend: Trend, label: str, confidence: float) -> str:
     """What the points, hollow points and dashed line mean, and how many rows they rest on."""
     n = sum(p.n for p in trend.periods)
     return (
-        f"Mean {label[:1].lower() + label[1:]} per {trend.period} with {confidence:.0%} Student t intervals, "
+        f"Mean {label[:1].lower() + label[1:]} per {trend.period} with {fmt_level(confidence)} Student t intervals, "
         f"{fmt_count(n)} rows over {len(trend.periods)} {trend.period}s. Hollow points: periods the data cover "
-        "only in part. Dashed: least-squares straight line through all rows."
+        "only in part. Dashed: least-squares straight line through the period means."
     )
 
 

@@ -2,9 +2,18 @@
 
 Periods are calendar days, ISO 8601 weeks (starting Monday) or calendar months,
 truncated by the engine. Each period's mean, sd, median and interval come from
-``summarise_levels`` (exact median-shifted two passes, type 7 quantiles). The
-overall change is the ordinary least squares slope of the target on time in days
-(``fit_lines``, centred sums) times the span in days.
+``summarise_levels`` (exact median-shifted two passes, type 7 quantiles).
+
+The overall change comes from the periods, not the rows: an ordinary least squares
+line through the period means against the period midpoints (days since the first
+timestamp), one point per period, periods − 2 degrees of freedom. Rows within a
+period often share a shock (a busy day, a holiday week); a row-level fit treats
+them as independent and gives intervals far too narrow. Fitting one value per
+period is robust to shocks shared within a period: it avoids pseudo-replication
+(Hurlbert 1984, Ecological Monographs 54). The fit is unweighted, each period one
+point whatever its row count: the simplest choice, and a conservative one, since
+it lends no extra weight to busy periods (a thin partial period counts as much as
+a full one). It runs in Python on the per-period results (period-sized data).
 """
 
 from __future__ import annotations
@@ -12,12 +21,14 @@ from __future__ import annotations
 import dataclasses
 import datetime as dt
 import logging
+import math
 
-import ibis
 import ibis.expr.types as ir
+import numpy as np
+from scipy import stats as scipy_stats
 
 from briefgen.stats.groups import summarise_levels
-from briefgen.stats.regression import RegressionFit, fit_lines
+from briefgen.stats.regression import RegressionFit
 
 log = logging.getLogger(__name__)
 
@@ -27,8 +38,21 @@ _TRUNCATE_UNIT = {"day": "D", "week": "W", "month": "M"}
 # points for spans from 8 days to 5 years (see choose_period).
 MAX_DAILY_SPAN = 60
 MAX_WEEKLY_SPAN = 420
-MICROSECONDS_PER_DAY = 86_400_000_000
 CHANGE_WINDOW_DAYS = 30
+# RegressionFit fields that need two periods (slope, intercept) or three (the rest).
+_ESTIMATES = (
+    "slope",
+    "slope_se",
+    "slope_ci_low",
+    "slope_ci_high",
+    "intercept",
+    "intercept_se",
+    "intercept_ci_low",
+    "intercept_ci_high",
+    "r_squared",
+    "pearson_r",
+    "residual_sd",
+)
 
 
 @dataclasses.dataclass(frozen=True, slots=True)
@@ -57,11 +81,16 @@ class PeriodStats:
 class Trend:
     """Per-period summaries and the change in the target across the time span.
 
-    ``change`` is slope × ``span_days`` with its interval from the slope's t
-    interval; ``change_per_30_days`` the same for 30 days. ``gaps`` lists period
-    starts inside the span with no usable rows (they are absent from
-    ``periods``). ``fit`` is the underlying line of y on days since
-    ``first_time``; its ``band`` gives the confidence band for a figure.
+    ``fit`` is the straight line through the period means (y) against the period
+    midpoints in days since ``first_time`` (x): ``predictor`` is "days", ``n`` the
+    number of periods, intervals on n − 2 df; ``fit.intercept`` is the line's value
+    at ``first_time`` and ``fit.slope`` its change per day, which is what a figure
+    draws. ``change`` is ``fit.slope`` × ``span_days``, the line's rise from the
+    first to the last timestamp, with its interval from the slope's t interval;
+    ``change_per_30_days`` the same for 30 days. With two periods the line (and
+    ``change``) exist but their intervals are None; with one period all are None.
+    ``gaps`` lists period starts inside the span with no usable rows (they are
+    absent from ``periods``).
     """
 
     period: str
@@ -134,11 +163,15 @@ def _counts(frame_table: ir.Table) -> dict:
     )
 
 
-def _period_summaries(usable: ir.Table, period: str, confidence: float) -> list[PeriodStats]:
+def _period_summaries(
+    usable: ir.Table, period: str, confidence: float
+) -> tuple[list[PeriodStats], list[float]]:
+    """The periods in time order, and each one's mean − median at full precision."""
     levels = usable.select(level=usable.t.truncate(_TRUNCATE_UNIT[period]).date(), y=usable.y)
     summaries, _boxes = summarise_levels(levels, confidence, list_outliers=False)
-    result = []
+    result, mean_shifts = [], []
     for s in sorted(summaries, key=lambda s: s.level):
+        mean_shifts.append(float(s.mean_shift))
         start = _as_date(s.level)
         result.append(
             PeriodStats(
@@ -155,7 +188,7 @@ def _period_summaries(usable: ir.Table, period: str, confidence: float) -> list[
                 partial=False,
             )
         )
-    return result
+    return result, mean_shifts
 
 
 def _mark_partial(periods: list[PeriodStats], first: dt.date, last: dt.date) -> list[PeriodStats]:
@@ -184,6 +217,70 @@ def _scaled(value: float | None, factor: float) -> float | None:
     return None if value is None else float(value) * factor
 
 
+def _midpoint_days(p: PeriodStats, first_time: dt.datetime) -> float:
+    """Days from the first timestamp to the middle of the period, as the figure places it."""
+    middle = dt.datetime.combine(p.start, dt.time()) + (p.end - p.start) / 2
+    # Periods are wall-clock dates, so compare on the wall clock of the first timestamp.
+    return (middle - first_time.replace(tzinfo=None)).total_seconds() / 86_400
+
+
+def _period_line(
+    days: np.ndarray, offset: float, deviations: np.ndarray, confidence: float
+) -> RegressionFit:
+    """Unweighted least squares of period means (``offset`` + ``deviations``) on ``days``.
+
+    The means arrive as a reference value plus exact deviations from it, so data
+    with a large offset keep their digits; sums are centred (never Σx² − n·x̄²).
+    """
+    n = len(days)
+    x_mean, deviation_mean = float(np.mean(days)), float(np.mean(deviations))
+    dx, dy = days - x_mean, deviations - deviation_mean
+    sxx, sxy, syy = float(dx @ dx), float(dx @ dy), float(dy @ dy)
+    y_mean = offset + deviation_mean
+    base = {"predictor": "days", "n": n, "x_mean": x_mean, "y_mean": y_mean, "sxx": sxx}
+    base |= {"x_min": float(days.min()), "x_max": float(days.max())}
+    empty = dict.fromkeys(_ESTIMATES)
+    if n < 2 or sxx <= 0:
+        return RegressionFit(**base, **empty)
+    slope = sxy / sxx
+    intercept = y_mean - slope * x_mean
+    if n < 3:
+        return RegressionFit(**base, **(empty | {"slope": slope, "intercept": intercept}))
+    residuals = dy - slope * dx  # summed directly rather than Syy − slope·Sxy, for accuracy
+    sse = float(residuals @ residuals)
+    residual_sd = math.sqrt(sse / (n - 2))
+    slope_se = residual_sd / math.sqrt(sxx)
+    intercept_se = residual_sd * math.sqrt(1 / n + x_mean * x_mean / sxx)
+    t = float(scipy_stats.t.ppf(0.5 + confidence / 2, n - 2))
+    return RegressionFit(
+        **base,
+        slope=slope,
+        slope_se=slope_se,
+        slope_ci_low=slope - t * slope_se,
+        slope_ci_high=slope + t * slope_se,
+        intercept=intercept,
+        intercept_se=intercept_se,
+        intercept_ci_low=intercept - t * intercept_se,
+        intercept_ci_high=intercept + t * intercept_se,
+        r_squared=1 - sse / syy if syy > 0 else None,
+        pearson_r=sxy / math.sqrt(sxx * syy) if syy > 0 else None,
+        residual_sd=residual_sd,
+    )
+
+
+def _fit_periods(
+    periods: list[PeriodStats], mean_shifts: list[float], first_time: dt.datetime, confidence: float
+) -> RegressionFit:
+    """The trend line through the period means, one point per period."""
+    days = np.array([_midpoint_days(p, first_time) for p in periods])
+    # Each mean is median + mean_shift; differencing medians first keeps an offset's digits.
+    offset = periods[len(periods) // 2].median
+    deviations = np.array(
+        [(p.median - offset) + shift for p, shift in zip(periods, mean_shifts, strict=True)]
+    )
+    return _period_line(days, offset, deviations, confidence)
+
+
 def time_trend(frame_table: ir.Table, confidence: float = 0.95, period: str = "auto") -> Trend:
     """Summarise ``y`` per period of ``t`` and estimate its change across the span.
 
@@ -209,10 +306,9 @@ def time_trend(frame_table: ir.Table, confidence: float = 0.95, period: str = "a
     periods: list[PeriodStats] = []
     fit = None
     if first_time is not None:
-        periods = _period_summaries(usable, chosen, confidence)
+        periods, mean_shifts = _period_summaries(usable, chosen, confidence)
         periods = _mark_partial(periods, _as_date(first_time), _as_date(last_time))
-        days = usable.t.delta(ibis.literal(first_time), unit="microsecond") / MICROSECONDS_PER_DAY
-        (fit,) = fit_lines(usable.select(days=days, y=usable.y), ["days"], confidence)
+        fit = _fit_periods(periods, mean_shifts, first_time, confidence)
     slope = fit.slope if fit else None
     low = fit.slope_ci_low if fit else None
     high = fit.slope_ci_high if fit else None
