@@ -282,38 +282,142 @@ def test_one_usable_level_gives_no_comparison(engine_table):
     assert compare_groups(table, summaries) is None
 
 
+# scipy warns about its own cancellation on constant samples; the results are exact.
+@pytest.mark.filterwarnings("ignore::RuntimeWarning")
 def test_levels_without_spread_do_not_crash(engine_table):
-    table, summaries = _prepared(engine_table, {"a": [2.0, 2.0, 2.0], "b": [5.0, 5.0]})
+    groups = {"a": [2.0, 2.0, 2.0], "b": [5.0, 5.0]}
+    table, summaries = _prepared(engine_table, groups)
     result = compare_groups(table, summaries)
     pair = result.pairwise[0]
     assert pair.difference == -3.0 and pair.t is None and pair.p_holm is None
-    assert result.statistic is None and result.notes
+    assert result.statistic is None and result.p_value is None and result.notes
+    assert result.undefined_reason is not None and result.welch_levels == ()
+    # scipy agrees the test is undefined: zero standard error gives t = -inf or nan, not a number
+    reference = scipy_stats.ttest_ind(groups["a"], groups["b"], equal_var=False)
+    assert not np.isfinite(reference.statistic)  # reference: scipy.stats.ttest_ind
 
 
+# scipy warns about its own cancellation on constant samples; the results are exact.
+@pytest.mark.filterwarnings("ignore::RuntimeWarning")
 def test_one_level_without_spread_keeps_welch_t(engine_table):
     groups = {"a": [2.0, 2.0, 2.0], "b": [5.0, 6.0, 8.0, 4.0]}
     table, summaries = _prepared(engine_table, groups)
-    pair = compare_groups(table, summaries).pairwise[0]
+    result = compare_groups(table, summaries)
+    pair = result.pairwise[0]
     reference = scipy_stats.ttest_ind(groups["a"], groups["b"], equal_var=False)  # reference: scipy
     assert pair.t == pytest.approx(reference.statistic, rel=RELATIVE)
     assert pair.df == pytest.approx(reference.df, rel=RELATIVE)
+    # Two levels: Welch's t needs spread in only one, so the constant level stays in.
+    assert result.welch_levels == ("a", "b") and result.undefined_reason is None
+    assert result.statistic == pytest.approx(reference.statistic, rel=RELATIVE)
+    assert result.p_value == pytest.approx(reference.pvalue, rel=1e-8)
 
 
-def test_welch_anova_with_a_constant_level_is_undefined_not_a_crash(engine_table):
-    groups = {"a": [2.0, 2.0, 2.0], "b": [5.0, 6.0, 8.0], "c": [1.0, 4.0, 3.0]}
+def _by_name(result, level_a: str, level_b: str):
+    return next(p for p in result.pairwise if {p.level_a, p.level_b} == {level_a, level_b})
+
+
+# scipy warns about its own cancellation on constant samples; the results are exact.
+@pytest.mark.filterwarnings("ignore::RuntimeWarning")
+def test_a_constant_level_leaves_the_overall_test_to_the_others(engine_table):
+    # The review's repro: a constant level used to make the whole test undefined, so an
+    # obvious difference between a and b was reported as "no clear difference".
+    rng = np.random.default_rng(20240602)
+    groups = {"a": list(rng.normal(10, 1, 50)), "b": list(rng.normal(20, 1, 50)), "c": [15, 15]}
     table, summaries = _prepared(engine_table, groups)
     result = compare_groups(table, summaries)
-    assert result.test == "welch_anova" and result.statistic is None
-    assert all(pair.p_holm is not None for pair in result.pairwise)
+    assert result.levels == ("a", "b", "c") and result.excluded_levels == ()
+    assert result.welch_levels == ("a", "b") and result.undefined_reason is None
+    assert any("'c'" in note and "15" in note for note in result.notes)
+    reference = scipy_stats.ttest_ind(
+        groups["a"], groups["b"], equal_var=False
+    )  # reference: scipy.stats.ttest_ind(equal_var=False) on a and b alone
+    assert result.test == "welch_t"
+    assert result.statistic == pytest.approx(reference.statistic, rel=RELATIVE)
+    assert result.df1 == pytest.approx(reference.df, rel=RELATIVE)
+    assert result.p_value == pytest.approx(reference.pvalue, rel=1e-8)
+    # c stays in the pairwise tests, defined because the other level has spread.
+    for other in ("a", "b"):
+        pair = _by_name(result, other, "c")
+        reference = scipy_stats.ttest_ind(
+            groups[pair.level_a], groups[pair.level_b], equal_var=False
+        )  # reference: scipy.stats.ttest_ind(equal_var=False)
+        assert pair.t == pytest.approx(reference.statistic, rel=RELATIVE)
+        assert pair.p_value == pytest.approx(reference.pvalue, rel=1e-8)
+    assert [e.level for e in result.effects] == ["a", "b", "c"]
+
+
+def test_welch_anova_runs_on_the_levels_with_spread(engine_table):
+    groups = {key: values for key, values in FOUR.items()} | {"flat": [4.5] * 6}
+    table, summaries = _prepared(engine_table, groups)
+    result = compare_groups(table, summaries)
+    assert result.welch_levels == ("a", "b", "c", "d") and "flat" in result.levels
+    varying = _frame(FOUR)
+    reference = anova_oneway(
+        varying["y"].to_numpy(), varying["level"].to_numpy(), use_var="unequal"
+    )  # reference: statsmodels anova_oneway(use_var="unequal") on the four levels with spread
+    assert result.test == "welch_anova"
+    assert result.statistic == pytest.approx(reference.statistic, rel=RELATIVE)
+    assert result.df2 == pytest.approx(reference.df[1], rel=RELATIVE)
+    assert result.p_value == pytest.approx(reference.pvalue, rel=1e-8)
+    # The classical ANOVA keeps the constant level: it pools the spread, so sd 0 is fine.
     assert result.classical.f == pytest.approx(
         scipy_stats.f_oneway(*groups.values()).statistic, rel=RELATIVE
     )  # reference: scipy.stats.f_oneway
+    assert len(result.pairwise) == 10 and all(p.p_holm is not None for p in result.pairwise)
 
 
+def test_constant_levels_that_differ_say_why_and_lean_on_ranks(engine_table):
+    groups = {"five": [5.0] * 6, "seven": [7.0] * 4}
+    table, summaries = _prepared(engine_table, groups)
+    result = compare_groups(table, summaries)
+    assert result.statistic is None and result.p_value is None and result.welch_levels == ()
+    assert "5" in result.undefined_reason and "7" in result.undefined_reason
+    assert any(result.undefined_reason in note for note in result.notes)
+    assert result.leans_on == "rank" and "tie" in result.leans_on_reason
+    # reference: scipy.stats.mannwhitneyu(method="asymptotic"); tie and continuity corrections
+    reference = scipy_stats.mannwhitneyu(
+        groups["five"], groups["seven"], alternative="two-sided", method="asymptotic"
+    )
+    assert result.rank_test.test == "mann_whitney"
+    assert result.rank_test.statistic == pytest.approx(reference.statistic, rel=1e-12)
+    assert result.rank_test.p_value == pytest.approx(reference.pvalue, rel=1e-9)
+
+
+def test_one_varying_level_among_constants_gives_kruskal_wallis(engine_table):
+    groups = {"low": [1.0] * 5, "high": [9.0] * 3, "spread": [2.0, 4.0, 6.0, 8.0]}
+    table, summaries = _prepared(engine_table, groups)
+    result = compare_groups(table, summaries)
+    assert result.test == "welch_anova" and result.statistic is None
+    assert "'spread'" in result.undefined_reason
+    reference = scipy_stats.kruskal(*groups.values())  # reference: scipy.stats.kruskal
+    assert result.leans_on == "rank" and result.rank_test.test == "kruskal_wallis"
+    assert result.rank_test.statistic == pytest.approx(reference.statistic, rel=1e-12)
+    assert result.rank_test.p_value == pytest.approx(reference.pvalue, rel=1e-9)
+
+
+# scipy warns about its own cancellation on constant samples; the results are exact.
+@pytest.mark.filterwarnings("ignore::RuntimeWarning")
+def test_every_value_the_same_runs_no_test(engine_table):
+    groups = {"a": [3.0, 3.0], "b": [3.0, 3.0, 3.0]}
+    table, summaries = _prepared(engine_table, groups)
+    result = compare_groups(table, summaries)
+    assert result.undefined_reason is not None and result.p_value is None
+    # reference: scipy.stats.kruskal gives nan when every value ties (the tie correction is 0);
+    # scipy.stats.mannwhitneyu returns p = 1 by convention, we report "undefined" instead.
+    assert math.isnan(scipy_stats.kruskal(groups["a"], groups["b"]).pvalue)
+    assert result.rank_test.p_value is None and result.leans_on == "welch"
+
+
+# scipy warns about its own cancellation on constant samples; the results are exact.
+@pytest.mark.filterwarnings("ignore::RuntimeWarning")
 def test_all_values_tied_gives_undefined_rank_test(engine_table):
     table = engine_table(_frame({"a": [3.0, 3.0], "b": [3.0, 3.0, 3.0]}))
     result = rank_test(table, ["a", "b"])
-    assert result.p_value is None  # scipy.stats.mannwhitneyu returns nan here
+    # reference: scipy.stats.kruskal gives nan here (tie correction 0); scipy 1.17's
+    # mannwhitneyu returns p = 1 by convention, where we report the test as undefined.
+    assert result.p_value is None
+    assert math.isnan(scipy_stats.kruskal([3.0, 3.0], [3.0, 3.0, 3.0]).pvalue)
 
 
 def test_welch_pair_on_summaries_matches_statsmodels(engine_table):
@@ -395,3 +499,43 @@ def test_welch_t_and_kruskal_match_scipy_with_large_offsets(engine_table, offset
     assert ours_h.statistic == pytest.approx(
         reference_h.statistic, rel=1e-12, abs=64 * EPSILON * 3 * (total + 1)
     )
+
+
+@pytest.mark.filterwarnings("ignore::RuntimeWarning")
+@settings(
+    max_examples=15,
+    deadline=None,
+    suppress_health_check=[HealthCheck.function_scoped_fixture],
+)
+@given(
+    levels=st.lists(
+        st.one_of(
+            st.lists(st.integers(-20, 20), min_size=2, max_size=12),  # usually varies
+            st.tuples(st.integers(-20, 20), st.integers(2, 6)).map(lambda v: [v[0]] * v[1]),
+        ),
+        min_size=3,
+        max_size=5,
+    )
+)
+def test_overall_welch_uses_exactly_the_levels_with_spread(engine_table, levels):
+    groups = {f"g{i}": [float(v) for v in values] for i, values in enumerate(levels)}
+    table, summaries = _prepared(engine_table, groups)
+    result = compare_groups(table, summaries)
+    varying = [level for level, values in groups.items() if np.ptp(values) > 0]
+    if len(varying) < 2:
+        assert result.undefined_reason and result.p_value is None and result.welch_levels == ()
+        return
+    assert result.undefined_reason is None and set(result.welch_levels) == set(varying)
+    if len(varying) == 2:
+        a, b = result.welch_levels
+        reference = scipy_stats.ttest_ind(
+            groups[a], groups[b], equal_var=False
+        )  # reference: scipy.stats.ttest_ind(equal_var=False) on the two levels with spread
+        assert result.statistic == pytest.approx(reference.statistic, rel=1e-9)
+    else:
+        frame = _frame({level: groups[level] for level in varying})
+        reference = anova_oneway(
+            frame["y"].to_numpy(), frame["level"].to_numpy(), use_var="unequal"
+        )  # reference: statsmodels anova_oneway(use_var="unequal") on the levels with spread
+        assert result.statistic == pytest.approx(reference.statistic, rel=1e-9)
+        assert result.df2 == pytest.approx(reference.df[1], rel=1e-9)

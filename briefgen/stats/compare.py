@@ -6,6 +6,14 @@ Holm's (1979) step-down correction. The classical one-way ANOVA comes along for
 reference. When the residuals are strongly skewed (|g1| > 1, Bulmer 1979) a
 rank-based test runs as well and the brief leans on it.
 
+A level whose values are all the same (sd 0) cannot enter Welch's ANOVA, whose
+weights are n/s². With more than two levels such levels are left out of the
+overall test, which runs on the rest (Welch's t when two remain); they stay in
+the pairwise tests, which need spread in only one of the two levels. When fewer
+than two levels with spread remain, the overall test is not run and
+``undefined_reason`` says why; the rank test, which handles ties, then runs and
+the brief leans on it when it is defined.
+
 Everything here works from the per-level n, mean and sd that
 ``briefgen.stats.groups.summarise_levels`` computed stably; only the skewness
 and the rank test go back to the engine (see ``briefgen.stats.ranks``).
@@ -31,9 +39,12 @@ import ibis.expr.types as ir
 from scipy import stats as scipy_stats
 
 from briefgen.stats.groups import Summary
-from briefgen.stats.ranks import STRONG_SKEW, RankTest, rank_test, within_level_skewness
+from briefgen.stats.ranks import STRONG_SKEW, RankTest, lean_on, rank_test, within_level_skewness
 
 logger = logging.getLogger(__name__)
+
+# The overall test: (test name, statistic, df1, df2, p-value).
+MainTest = tuple[str, float | None, float | None, float | None, float | None]
 
 
 @dataclass(frozen=True, slots=True)
@@ -96,18 +107,31 @@ class LevelEffect:
 class GroupComparison:
     """Every comparison the brief reports for one group variable.
 
-    ``test`` is "welch_t" (statistic t, df1 its Welch df, df2 None) or
-    "welch_anova" (statistic F, df1 = k − 1, df2 Welch's denominator df).
-    ``levels`` are the levels tested; ``excluded_levels`` had fewer than two values.
-    ``skewness`` is g1 of the residuals from the level means; ``rank_test`` is run
-    only when it is strongly skewed. ``leans_on`` ("welch" or "rank") names the
-    test the brief's sentence rests on, ``leans_on_reason`` says why in a phrase.
-    ``notes`` explain anything left undefined.
+    ``levels`` are the levels compared (n ≥ 2): pairwise, effects, classical ANOVA
+    and rank test cover them; ``excluded_levels`` had fewer than two values.
+    ``welch_levels`` are those the overall Welch test ran on: ``levels`` less, when
+    there are more than two, the levels without spread (sd 0), whose Welch weight
+    n/s² would be infinite. ``test`` is "welch_t" when ``welch_levels`` has two
+    (statistic t of first − second, df1 its Welch df, df2 None) and "welch_anova"
+    when more (statistic F, df1 = k − 1, df2 Welch's denominator df).
+
+    ``undefined_reason`` is None when the overall test ran, else a phrase saying why
+    it could not (fewer than two levels with spread); ``welch_levels`` is then
+    empty, statistic, df1, df2 and p_value are None, and ``test`` names the test
+    that would have run. Use it to tell "test not run" from "test ran, p large".
+
+    ``skewness`` is g1 of the residuals from the level means. ``rank_test`` runs when
+    that is strongly skewed or when the Welch test could not run. ``leans_on``
+    ("welch" or "rank") names the test the brief's sentence rests on: "rank" when
+    strongly skewed or when only the rank test is defined; ``leans_on_reason`` says
+    why in a phrase. ``notes`` explain, in sentences, anything left out or undefined.
     """
 
     variable: str | None
     levels: tuple[str, ...]
     excluded_levels: tuple[str, ...]
+    welch_levels: tuple[str, ...]
+    undefined_reason: str | None
     test: str
     statistic: float | None
     df1: float | None
@@ -297,30 +321,66 @@ def overall_mean(summaries: Sequence[Summary]) -> float:
     return base + weighted / sum(s.n for s in used)
 
 
-def _leaning(skewness: float | None, ranks: RankTest | None) -> tuple[str, str]:
-    if skewness is None:
-        return "welch", "skewness undefined (too few values or no spread)"
-    if abs(skewness) <= STRONG_SKEW:
-        return "welch", f"residuals not strongly skewed (|skewness| {abs(skewness):.2f} ≤ 1)"
-    if ranks is None or ranks.p_value is None:
-        return "welch", "strongly skewed, but the rank test is undefined (all values tied)"
-    return "rank", f"residuals strongly skewed (|skewness| {abs(skewness):.2f} > 1)"
+def _constant_value(summary: Summary) -> str:
+    """The one value of a level without spread, as a note prints it."""
+    # The median is one of the level's values, so it prints exactly.
+    value = summary.median if summary.median is not None else summary.mean
+    return str(int(value)) if value.is_integer() and abs(value) < 1e15 else repr(value)
 
 
-def _main_test(
-    tested: Sequence[Summary], pairwise: Sequence[PairwiseComparison], notes: list[str]
-) -> tuple[str, float | None, float | None, float | None, float | None]:
+def _welch_levels(compared: Sequence[Summary]) -> list[Summary]:
+    """Levels the overall Welch test can use.
+
+    Welch's t for two levels needs spread in only one of them, so both stay; Welch's
+    ANOVA weights each level by n/s², so with more levels those with sd 0 leave.
+    """
+    return list(compared) if len(compared) == 2 else [s for s in compared if s.sd > 0]
+
+
+def _undefined_reason(compared: Sequence[Summary], welch: Sequence[Summary]) -> str | None:
+    """Why the overall Welch test cannot run, in a phrase; None when it can."""
+    varying = [s for s in welch if s.sd > 0]
+    if len(welch) >= 2 and varying:
+        return None
+    constants = [s for s in compared if s.sd <= 0]
+    if len(constants) == len(compared) and len({_constant_value(s) for s in constants}) == 1:
+        return f"every value is {_constant_value(constants[0])}, so there is nothing to compare"
+    values = ", ".join(f"'{s.level}' always {_constant_value(s)}" for s in constants)
+    if not varying:
+        return f"no level's values vary ({values}), so there is no spread to judge the gaps by"
+    return (
+        f"only '{varying[0].level}' has values that vary ({values}); Welch's test needs at "
+        "least two levels with spread"
+    )
+
+
+def _main_test(welch: Sequence[Summary], pairwise: Sequence[PairwiseComparison]) -> MainTest:
     """Welch's t for two levels, Welch's ANOVA for more: (test, statistic, df1, df2, p)."""
-    if len(tested) == 2:
-        pair = pairwise[0]
-        if pair.t is None:
-            notes.append("Welch's t is undefined: neither level has any spread")
+    if len(welch) == 2:
+        names = (welch[0].level, welch[1].level)
+        pair = next(p for p in pairwise if (p.level_a, p.level_b) == names)
         return "welch_t", pair.t, pair.df, None, pair.p_value
-    anova = welch_anova(tested)
-    if anova is None:
-        notes.append("Welch's ANOVA is undefined: a level has no spread")
-        return "welch_anova", None, None, None, None
-    return ("welch_anova", *anova)
+    anova = welch_anova(welch)
+    return ("welch_anova", *anova) if anova else ("welch_anova", None, None, None, None)
+
+
+def _overall_welch(
+    compared: Sequence[Summary], pairwise: Sequence[PairwiseComparison], notes: list[str]
+) -> tuple[list[Summary], str | None, MainTest]:
+    """The overall Welch test: (levels it ran on, why it could not run, _main_test's result)."""
+    welch = _welch_levels(compared)
+    reason = _undefined_reason(compared, welch)
+    if reason is not None:
+        notes.append(f"The overall Welch test is not run: {reason}")
+        name = "welch_t" if len(compared) == 2 else "welch_anova"
+        return [], reason, (name, None, None, None, None)
+    notes += [
+        f"'{s.level}' has no spread (every value is {_constant_value(s)}), so it is left out of "
+        "Welch's test across levels; its pairwise comparisons still stand"
+        for s in compared
+        if s not in welch
+    ]
+    return welch, None, _main_test(welch, pairwise)
 
 
 def compare_groups(
@@ -345,17 +405,23 @@ def compare_groups(
         logger.info("comparison of %s skipped: %d usable level(s)", variable, len(tested))
         return None
     pairwise = pairwise_welch(tested, confidence)
-    test, statistic, df1, df2, p_value = _main_test(tested, pairwise, notes)
+    welch, undefined_reason, (test, statistic, df1, df2, p_value) = _overall_welch(
+        tested, pairwise, notes
+    )
     skewness = within_level_skewness(levels_table, {s.level: s.mean for s in tested})
     strongly_skewed = skewness is not None and abs(skewness) > STRONG_SKEW
-    ranks = rank_test(levels_table, [s.level for s in tested]) if strongly_skewed else None
-    leans_on, reason = _leaning(skewness, ranks)
+    # Ranks are defined with ties, so the rank test stands in when Welch's cannot run.
+    needs_ranks = strongly_skewed or undefined_reason is not None
+    ranks = rank_test(levels_table, [s.level for s in tested]) if needs_ranks else None
+    leans_on, reason = lean_on(skewness, ranks, welch_runs=undefined_reason is None)
     reference = reference_level(tested)
     overall = overall_mean(summaries)
     return GroupComparison(
         variable=variable,
         levels=tuple(s.level for s in tested),
         excluded_levels=excluded,
+        welch_levels=tuple(s.level for s in welch),
+        undefined_reason=undefined_reason,
         test=test,
         statistic=statistic,
         df1=df1,

@@ -157,6 +157,26 @@ def rank_test(levels_table: ir.Table, levels: Sequence[str]) -> RankTest | None:
     return mann_whitney(sums) if len(sums.levels) == 2 else kruskal_wallis(sums)
 
 
+def lean_on(skewness: float | None, ranks: RankTest | None, *, welch_runs: bool) -> tuple[str, str]:
+    """The test a comparison's sentence rests on, "welch" or "rank", and why in a phrase.
+
+    The rank test when the residuals are strongly skewed, and also when Welch's test
+    cannot run (no spread within levels) but ranks, which allow ties, are defined.
+    """
+    rank_defined = ranks is not None and ranks.p_value is not None
+    if not welch_runs:
+        if rank_defined:
+            return "rank", "Welch's test cannot run without spread within levels; ranks allow ties"
+        return "welch", "neither Welch's test nor the rank test can run on these values"
+    if skewness is None:
+        return "welch", "skewness undefined (too few values or no spread)"
+    if abs(skewness) <= STRONG_SKEW:
+        return "welch", f"residuals not strongly skewed (|skewness| {abs(skewness):.2f} ≤ 1)"
+    if not rank_defined:
+        return "welch", "strongly skewed, but the rank test is undefined (all values tied)"
+    return "rank", f"residuals strongly skewed (|skewness| {abs(skewness):.2f} > 1)"
+
+
 def within_level_skewness(levels_table: ir.Table, means: Mapping[str, float]) -> float | None:
     """Sample skewness g1 of the residuals y − (mean of its level), from centred sums.
 
