@@ -9,15 +9,22 @@ The derived level is a tag (``c`` cell, ``r`` row margin, ``k`` column margin,
 length prefix makes the key unambiguous whatever characters the labels hold
 (a separator character could occur inside a label); both DuckDB's ``length`` and
 Python's ``len`` count code points.
+
+The standout combination (``CrossStandout``) is found afterwards from the cell
+summaries alone, so its cost depends on the number of cells, never on rows.
 """
 
 from __future__ import annotations
 
 import logging
+import math
 from dataclasses import dataclass
 
 import ibis
 import ibis.expr.types as ir
+import numpy as np
+from scipy import linalg as scipy_linalg
+from scipy import stats as scipy_stats
 
 from briefgen.stats.groups import Summary, summarise_levels
 
@@ -29,6 +36,11 @@ MIN_CELL = 10
 
 _CELL, _ROW, _COLUMN, _TOTAL = "c", "r", "k", "a"
 
+# An excess this small against the spread of the cell means is rounding left by the
+# additive fit, not a difference: it matters only for cells whose values are all equal
+# (sd 0, so a zero-width interval).
+_ROUNDING = 1e-9
+
 
 @dataclass(frozen=True, slots=True)
 class CrossCell:
@@ -37,7 +49,8 @@ class CrossCell:
     ``row`` and ``column`` are the two levels; a row margin has ``column=None``, a
     column margin ``row=None`` and the grand total both. ``rows`` counts rows in
     the cell, ``n`` those with a target value. The interval is Student t; it is
-    None when n < 2. ``too_small`` is n < the table's ``min_cell``.
+    None when n < 2. ``too_small`` is n < the table's ``min_cell``. ``mean_shift``
+    is mean − median at full precision (see ``Summary``), None when n = 0.
     """
 
     row: str | None
@@ -50,6 +63,46 @@ class CrossCell:
     ci_high: float | None
     too_small: bool
     rows: int
+    mean_shift: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class CrossStandout:
+    """The combination whose mean departs most from what its row and column predict.
+
+    ``expected`` is the additive prediction for the cell: a row effect plus a column
+    effect, fitted by least squares to all cell means weighted by their n (the same
+    fit as ``y ~ row + column`` on the rows themselves). When every cell has the
+    same n it is row margin mean + column margin mean − total mean; with unequal
+    cells the margins would mix in the other variable's effect, the fit does not.
+    ``excess`` = ``mean`` − ``expected``.
+
+    Candidates are the trusted cells (not too small, n ≥ 2); ``cells_compared``
+    counts them. Each one's interval for the excess is its own Student t interval
+    of the mean shifted by −expected, at the Bonferroni level ``adjusted_confidence``
+    = 1 − (1 − confidence) / cells_compared (Dunn 1961), so all of them hold
+    together. It treats ``expected`` as fixed; under additivity with equal variances
+    and normal errors the excess is a least-squares residual, whose variance
+    σ²(1 − leverage)/n is below the σ²/n the interval assumes, so the simplification
+    errs towards wide. With unequal variances that bound is not guaranteed.
+
+    ``stands_out`` is True when the interval excludes 0. The cell reported is the
+    one with the largest |excess| among those that stand out; when none does, the
+    largest |excess| of all. Means are differenced as medians plus ``mean_shift``,
+    so ``excess`` keeps its digits at large offsets.
+    """
+
+    row: str
+    column: str
+    n: int
+    mean: float
+    expected: float
+    excess: float
+    excess_ci_low: float
+    excess_ci_high: float
+    cells_compared: int
+    adjusted_confidence: float
+    stands_out: bool
 
 
 @dataclass(frozen=True, slots=True)
@@ -81,6 +134,7 @@ class CrossTable:
     total: CrossCell | None
     rows_without_level: int
     confidence: float
+    standout: CrossStandout | None = None
 
     def cell(self, row: str | None, column: str | None) -> CrossCell | None:
         """The cell at ``row`` and ``column``; None for either gives its margin."""
@@ -142,6 +196,7 @@ def _cell(summary: Summary, row: str | None, column: str | None, min_cell: int) 
         ci_high=_plain(summary.ci_high),
         too_small=summary.n < min_cell,
         rows=summary.rows,
+        mean_shift=_plain(summary.mean_shift),
     )
 
 
@@ -205,4 +260,116 @@ def cross_table(
         total=total,
         rows_without_level=_rows_without_level(frame_table, row_column, col_column),
         confidence=confidence,
+        standout=find_standout(cells, confidence),
     )
+
+
+def _deviation(cell: CrossCell, reference: float) -> float:
+    """Cell mean − reference, as (median − reference) + mean_shift to keep every digit."""
+    if cell.median is not None and cell.mean_shift is not None:
+        return (cell.median - reference) + cell.mean_shift
+    return cell.mean - reference
+
+
+def _components(row_of: np.ndarray, column_of: np.ndarray, rows: int) -> np.ndarray:
+    """Connected component of every row and column level (linked when they share a cell)."""
+    parent = list(range(rows + int(column_of.max()) + 1))
+
+    def root(node: int) -> int:
+        while parent[node] != node:
+            parent[node] = parent[parent[node]]
+            node = parent[node]
+        return node
+
+    for row, column in zip(row_of.tolist(), column_of.tolist(), strict=True):
+        parent[root(rows + column)] = root(row)
+    return np.array([root(node) for node in range(len(parent))])
+
+
+def additive_fit(
+    row_of: np.ndarray, column_of: np.ndarray, means: np.ndarray, weights: np.ndarray
+) -> np.ndarray | None:
+    """Row + column effects fitted to cell means by weighted least squares; the fitted means.
+
+    ``row_of`` and ``column_of`` index each cell's levels from 0. Returns None when the
+    fit leaves no residual degree of freedom (every cell fitted exactly).
+    """
+    rows = int(row_of.max()) + 1
+    component = _components(row_of, column_of, rows)
+    # Row and column effects are defined only up to a constant within each connected
+    # block of levels; pinning the block's first column effect at 0 makes the system
+    # full rank.
+    pinned, free = set(), []
+    for node in range(len(component)):
+        if node >= rows and int(component[node]) not in pinned:
+            pinned.add(int(component[node]))
+        else:
+            free.append(node)
+    if len(means) <= len(free):
+        return None
+    position = np.full(len(component), -1)
+    position[free] = np.arange(len(free))
+    row_at, column_at = position[row_of], position[rows + column_of]
+    has_column = column_at >= 0
+    # Normal equations built straight from the cells: (levels × levels), whatever the
+    # number of cells or rows.
+    normal = np.zeros((len(free), len(free)))
+    right = np.zeros(len(free))
+    np.add.at(normal, (row_at, row_at), weights)
+    np.add.at(right, row_at, weights * means)
+    columned = weights[has_column]
+    np.add.at(normal, (column_at[has_column], column_at[has_column]), columned)
+    np.add.at(normal, (row_at[has_column], column_at[has_column]), columned)
+    np.add.at(normal, (column_at[has_column], row_at[has_column]), columned)
+    np.add.at(right, column_at[has_column], columned * means[has_column])
+    effects = scipy_linalg.solve(normal, right, assume_a="pos")
+    return effects[row_at] + np.where(has_column, effects[np.maximum(column_at, 0)], 0.0)
+
+
+def find_standout(cells: list[CrossCell], confidence: float) -> CrossStandout | None:
+    """The trusted cell that departs most from the additive row + column prediction.
+
+    None when no cell is trusted or the additive fit leaves nothing to compare
+    (for instance one row level only). See ``CrossStandout`` for the method.
+    """
+    with_data = [c for c in cells if c.mean is not None and c.n >= 1]
+    trusted = [i for i, c in enumerate(with_data) if not c.too_small and c.sd is not None]
+    if not trusted:
+        return None
+    rows = {label: i for i, label in enumerate(sorted({c.row for c in with_data}))}
+    columns = {label: i for i, label in enumerate(sorted({c.column for c in with_data}))}
+    reference = with_data[0].median if with_data[0].median is not None else with_data[0].mean
+    means = np.array([_deviation(c, reference) for c in with_data])
+    fitted = additive_fit(
+        np.array([rows[c.row] for c in with_data]),
+        np.array([columns[c.column] for c in with_data]),
+        means,
+        np.array([float(c.n) for c in with_data]),
+    )
+    if fitted is None:
+        return None
+    adjusted = 1.0 - (1.0 - confidence) / len(trusted)
+    floor = _ROUNDING * float(means.max() - means.min())
+    found = []
+    for i in trusted:
+        cell = with_data[i]
+        excess = float(means[i] - fitted[i])
+        quantile = float(scipy_stats.t.ppf(0.5 + adjusted / 2, cell.n - 1))
+        half = quantile * cell.sd / math.sqrt(cell.n)
+        low, high = excess - half, excess + half
+        found.append(
+            CrossStandout(
+                row=cell.row,
+                column=cell.column,
+                n=cell.n,
+                mean=reference + float(means[i]),
+                expected=reference + float(fitted[i]),
+                excess=excess,
+                excess_ci_low=low,
+                excess_ci_high=high,
+                cells_compared=len(trusted),
+                adjusted_confidence=adjusted,
+                stands_out=low > floor or high < -floor,
+            )
+        )
+    return max(found, key=lambda s: (s.stands_out, abs(s.excess)))
