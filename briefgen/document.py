@@ -105,7 +105,8 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
     if stats.trend is not None:
         notes.append(
             f"The trend uses one value per {stats.trend.period} (ISO weeks start on Monday); the overall change "
-            "is the least-squares slope over time multiplied by the span."
+            "is the least-squares slope of the period means over time (one point per period, unweighted) "
+            "multiplied by the span, so shocks shared within a period do not narrow its interval."
         )
     return tuple(notes)
 
@@ -238,9 +239,12 @@ def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label
     sections = [s for s in sections if s not in empty]
     not_shown = [f"{s.heading}: not shown, {_why_empty(s.key, stats)}." for s in empty]
     found = [s.finding for s in sections if s.finding is not None]
-    # Page 1 leads with clear results; "no clear difference" findings follow them.
-    clear = [f for f in found if "no clear" not in f.headline.lower()]
-    unclear = [f for f in found if "no clear" in f.headline.lower()]
+    # Page 1 leads with clear results; "no clear …" and untested findings follow them.
+    unsettled = [
+        f for f in found if any(w in f.headline.lower() for w in ("no clear", "not tested"))
+    ]
+    clear = [f for f in found if f not in unsettled]
+    unclear = unsettled
     key = [overall_finding(stats, words), *clear, *unclear][:MAX_KEY_FINDINGS]
     names = {g: name_for(spec, g) for g in spec.groups}
     subtitle = f"{words.label} · {rows_label} · {fmt_count(stats.accounting.rows_read)} rows"

@@ -239,48 +239,53 @@ def _overlap_finding(
 def cross_finding(
     cross: CrossTable, words: Wording, row_name: str, column_name: str
 ) -> Finding | None:
-    """The combination with the highest mean, against its row and column as a whole."""
-    trusted = [
-        c
-        for c in cross.cells
-        if c.row is not None and c.column is not None and not c.too_small and c.mean is not None
-    ]
-    if len(trusted) < 2:
+    """Whether one combination departs from what its two parts predict added together.
+
+    The highest cell alone would mislead: it is high whenever its row and column are,
+    and it is the largest of many noisy cells. The standout result compares each cell
+    with the additive prediction at a level adjusted for the number of cells.
+    """
+    standout = getattr(cross, "standout", None)
+    if standout is None:
         return None
-    top = max(trusted, key=lambda c: c.mean)
-    row_margin = next((m for m in cross.row_margins if m.row == top.row), None)
-    column_margin = next((m for m in cross.column_margins if m.column == top.column), None)
-    text = (
-        f"Of the {len(trusted)} combinations of {row_name} and {column_name} with enough rows, "
-        f"{top.row} with {top.column} has the highest mean {words.lower}: {words.value(top.mean)} "
-        f"({words.interval(top.ci_low, top.ci_high)}, n = {fmt_count(top.n)})"
+    figure = f"cross-{cross.row_variable}-{cross.column_variable}"
+    pair = f"{standout.row} with {standout.column}"
+    interval = (
+        f"{words.interval(standout.excess_ci_low, standout.excess_ci_high)}, adjusted for the "
+        f"{standout.cells_compared} combinations compared"
     )
-    if row_margin and column_margin:
-        text += (
-            f", against {words.value(row_margin.mean)} for all of {top.row} and "
-            f"{words.value(column_margin.mean)} for all {top.column}."
-        )
-    else:
-        text += "."
-    stands_out = row_margin is not None and top.ci_low is not None and top.ci_low > row_margin.mean
-    certainty = (
-        f"Its interval lies wholly above the {top.row} average, so the combination matters, not just each part."
-        if stands_out
-        else "Its interval reaches the averages of its parts: the combination may add nothing."
-    )
+    excess = words.value(standout.excess)
+    excess = excess if excess.startswith("−") else f"+{excess}"
     small = sum(
         1 for c in cross.cells if c.row is not None and c.column is not None and c.too_small
     )
     detail = (
-        f"{small} combinations with fewer than {cross.min_cell} rows are marked and not ranked."
+        f"{small} combinations with fewer than {cross.min_cell} rows are marked and not compared."
         if small
         else ""
     )
+    if standout.stands_out:
+        text = (
+            f"{pair} averages {words.value(standout.mean)} (n = {fmt_count(standout.n)}), {excess} against "
+            f"the {words.value(standout.expected)} that its {row_name} and its {column_name} predict "
+            f"added together ({words.level_name} interval of the difference {interval})."
+        )
+        return Finding(
+            headline=f"{pair} stands out ({excess} beyond its parts)",
+            text=text,
+            certainty="The combination itself matters, beyond each part; that says where, not why.",
+            figure=figure,
+            detail=detail,
+        )
+    text = (
+        f"Each combination of {row_name} and {column_name} is close to what its two parts predict added "
+        f"together. The largest departure, {pair}, is {excess} ({interval})."
+    )
     return Finding(
-        headline=f"Highest combination: {top.row} with {top.column} ({words.value(top.mean)})",
+        headline=f"No clear combination effect of {row_name} and {column_name}",
         text=text,
-        certainty=certainty,
-        figure=f"cross-{cross.row_variable}-{cross.column_variable}",
+        certainty="No departure is larger than chance would produce across this many combinations.",
+        figure=figure,
         detail=detail,
     )
 
