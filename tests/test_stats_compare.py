@@ -14,15 +14,10 @@ from statsmodels.stats.multitest import multipletests
 from statsmodels.stats.oneway import anova_oneway
 from statsmodels.stats.weightstats import CompareMeans
 
-from briefgen.stats.compare import (
-    classical_anova,
-    compare_groups,
-    holm,
-    welch_anova,
-    welch_pair,
-)
+from briefgen.stats.compare import compare_groups
 from briefgen.stats.groups import summarise_levels
 from briefgen.stats.ranks import kruskal_wallis, rank_sums, rank_test, within_level_skewness
+from briefgen.stats.welch import classical_anova, holm, welch_anova, welch_pair
 
 RELATIVE = 1e-10  # both sides compute in float64 from the same few dozen values
 

@@ -40,8 +40,8 @@ import scipy
 from statsmodels.stats.oneway import anova_oneway
 from statsmodels.stats.weightstats import CompareMeans
 
-from briefgen.stats.compare import classical_anova, welch_anova, welch_pair
 from briefgen.stats.groups import summarise_levels
+from briefgen.stats.welch import classical_anova, welch_anova, welch_pair
 
 NIST_FOLDER = Path(scipy.__file__).parent / "stats" / "tests" / "data" / "nist_anova"
 
