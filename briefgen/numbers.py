@@ -13,13 +13,26 @@ def decimals_for(spread: float | None, significant: int = 3) -> int:
     """Decimals that show ``significant`` digits of a typical difference of size ``spread``."""
     if spread is None or not math.isfinite(spread) or spread <= 0:
         return 2
-    return max(0, min(10, significant - 1 - math.floor(math.log10(spread))))
+    return max(0, min(MAX_DECIMALS, significant - 1 - math.floor(math.log10(spread))))
+
+
+MAX_DECIMALS = 20
+FIXED_DECIMALS = 9  # beyond this, fixed notation is a row of zeros: switch to powers of ten
 
 
 def fmt(value: float | None, decimals: int) -> str:
-    """Thousands separators, fixed decimals, a real minus sign; a dash for no value."""
+    """Thousands separators, fixed decimals, a real minus sign; a dash for no value.
+
+    Measures in tiny units (spread below about 1e-7) are written as 1.234×10⁻¹²
+    style scientific notation with the same resolution, since fixed decimals would
+    show only zeros.
+    """
     if value is None or (isinstance(value, float) and not math.isfinite(value)):
         return "–"
+    if decimals > FIXED_DECIMALS and value != 0:
+        digits = max(0, decimals + math.floor(math.log10(abs(value))))
+        mantissa, exponent = f"{value:.{digits}e}".split("e")
+        return f"{mantissa}e{int(exponent)}".replace("-", "−")
     text = f"{value:,.{decimals}f}"
     if text.lstrip("-").strip("0.,") == "":
         text = text.lstrip("-")  # never print "-0.0"

@@ -61,3 +61,11 @@ def test_levels_sorted_by_median_and_small_levels_folded(engine_table):
     assert order[-1].startswith("Other")  # the folded level goes last
     medians = [next(s.median for s in folded_summaries if s.level == level) for level in order[:-1]]
     assert medians == sorted(medians, reverse=True)
+
+
+def test_tiny_units_switch_to_scientific_notation():
+    spread = 1e-13
+    d = decimals_for(spread)
+    assert fmt(1.2345e-12, d) == "1.234e−12" or fmt(1.2345e-12, d) == "1.235e−12"
+    assert fmt(1.2e-12 + 3e-13, d) != fmt(1.2e-12, d)  # the digits that differ survive
+    assert fmt(0.0, d) == "0." + "0" * d or fmt(0.0, d).startswith("0")

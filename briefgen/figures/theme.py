@@ -11,6 +11,7 @@ from __future__ import annotations
 import base64
 import io
 import re
+import warnings
 from contextlib import contextmanager
 from dataclasses import dataclass
 
@@ -99,7 +100,11 @@ def new_figure(height_in: float, width_in: float = TEXT_WIDTH_IN) -> Figure:
 def to_svg(figure: Figure) -> str:
     buffer = io.StringIO()
     # dpi only affects rasterized artists (dense scatter points), keeping files small.
-    figure.savefig(buffer, format="svg", metadata={"Date": None}, dpi=200)
+    with warnings.catch_warnings():
+        # Labels in scripts the bundled font lacks (e.g. CJK) render as boxes; the text
+        # itself stays in the SVG and the HTML, so the console warning is silenced.
+        warnings.filterwarnings("ignore", message="Glyph .* missing from font")
+        figure.savefig(buffer, format="svg", metadata={"Date": None}, dpi=200)
     plt.close(figure)
     return _stable_ids(buffer.getvalue())
 
