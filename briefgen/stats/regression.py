@@ -164,22 +164,25 @@ def fit_lines(
     )
 
 
+# RegressionFit fields that are estimates: unknown (None) when a fit cannot be made.
+ESTIMATE_FIELDS = (
+    "slope",
+    "slope_se",
+    "slope_ci_low",
+    "slope_ci_high",
+    "intercept",
+    "intercept_se",
+    "intercept_ci_low",
+    "intercept_ci_high",
+    "r_squared",
+    "pearson_r",
+    "residual_sd",
+)
+
+
 def _assemble(predictor, n, centre, sums, slope, sse, i, x_min, x_max, confidence) -> RegressionFit:
     empty = dict.fromkeys(
-        (
-            "slope",
-            "slope_se",
-            "slope_ci_low",
-            "slope_ci_high",
-            "intercept",
-            "intercept_se",
-            "intercept_ci_low",
-            "intercept_ci_high",
-            "r_squared",
-            "pearson_r",
-            "residual_sd",
-            "sxx",
-        ),
+        (*ESTIMATE_FIELDS, "sxx"),
     )
     x_mean, y_mean = centre if centre else (None, None)
     if slope is None or n < 3:

@@ -28,7 +28,7 @@ import numpy as np
 from scipy import stats as scipy_stats
 
 from briefgen.stats.groups import summarise_levels
-from briefgen.stats.regression import RegressionFit
+from briefgen.stats.regression import ESTIMATE_FIELDS, RegressionFit
 
 log = logging.getLogger(__name__)
 
@@ -40,19 +40,7 @@ MAX_DAILY_SPAN = 60
 MAX_WEEKLY_SPAN = 420
 CHANGE_WINDOW_DAYS = 30
 # RegressionFit fields that need two periods (slope, intercept) or three (the rest).
-_ESTIMATES = (
-    "slope",
-    "slope_se",
-    "slope_ci_low",
-    "slope_ci_high",
-    "intercept",
-    "intercept_se",
-    "intercept_ci_low",
-    "intercept_ci_high",
-    "r_squared",
-    "pearson_r",
-    "residual_sd",
-)
+_ESTIMATES = ESTIMATE_FIELDS
 
 
 @dataclasses.dataclass(frozen=True, slots=True)
