@@ -6,6 +6,7 @@ engine; any Ibis backend that can read the table runs the same statistics.
 
 from __future__ import annotations
 
+import csv
 import difflib
 import logging
 from dataclasses import dataclass
@@ -58,7 +59,30 @@ def read_table(path: Path, data_format: str, label: str) -> ir.Table:
             f"{label}: cannot be read as {data_format.upper()} ({first}); "
             "check the file or set data.format."
         ) from None
+    if data_format == "csv":
+        _check_header_names(path, list(table.columns), label)
     return table
+
+
+def _check_header_names(path: Path, columns: list[str], label: str) -> None:
+    """Refuse a CSV header that repeats a name: the engine would silently rename the copy."""
+    try:
+        with open(path, encoding="utf-8", errors="replace", newline="") as stream:
+            first = stream.readline()
+    except OSError:
+        return
+    for delimiter in (",", ";", "\t", "|"):
+        names = [
+            name.strip().strip('"') for name in next(csv.reader([first], delimiter=delimiter), [])
+        ]
+        if len(names) == len(columns):
+            repeated = sorted({name for name in names if names.count(name) > 1})
+            if repeated:
+                raise DataError(
+                    f"{label}: the header repeats the column name '{repeated[0]}'; "
+                    "rename the columns so each name is unique."
+                )
+            return
 
 
 def _missing_column(name: str, key: str, columns: list[str], label: str) -> DataError:

@@ -183,3 +183,11 @@ def test_values_too_large_to_square_get_a_sentence(tmp_path, capsys):
     assert main(["build", str(config)]) == 3
     err = " ".join(capsys.readouterr().err.split())
     assert "too large to square" in err and "'minutes'" in err
+
+
+def test_repeated_header_name_is_refused(tmp_path, capsys):
+    config = _write_case(tmp_path)
+    (tmp_path / "data.csv").write_text("site,distance,minutes,minutes\nnorth,1,2,3\nsouth,2,3,4\n")
+    assert main(["build", str(config)]) == 3
+    err = " ".join(capsys.readouterr().err.split())
+    assert "repeats the column name 'minutes'" in err
