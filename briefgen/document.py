@@ -224,7 +224,7 @@ def _sections(
     return sections, appendix
 
 
-def _why_empty(key: str, stats: BriefStats) -> str:
+def _why_empty(key: str) -> str:
     if key == "trend":
         return "the usable dates fall in fewer than two periods, too few for a trend"
     return "the predictor takes a single value in the rows used (or too few rows have it), so no line can be fitted"
@@ -237,7 +237,7 @@ def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label
     # An analysis with neither a finding nor a chart has nothing to show; say why instead.
     empty = [s for s in sections if s.finding is None and s.chart is None and s.table is None]
     sections = [s for s in sections if s not in empty]
-    not_shown = [f"{s.heading}: not shown, {_why_empty(s.key, stats)}." for s in empty]
+    not_shown = [f"{s.heading}: not shown, {_why_empty(s.key)}." for s in empty]
     found = [s.finding for s in sections if s.finding is not None]
     # Page 1 leads with clear results; "no clear …" and untested findings follow them.
     unsettled = [

@@ -13,7 +13,7 @@ from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_level, fmt_percen
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
 from briefgen.stats.correlation import Correlation
-from briefgen.stats.groups import GroupStats, Summary
+from briefgen.stats.groups import GroupStats
 from briefgen.stats.regression import RegressionFit
 from briefgen.stats.relationships import GroupSlopes, LogFit
 from briefgen.stats.trend import Trend
@@ -107,13 +107,10 @@ def group_finding(
     test's verdict with the other's numbers.
     """
     usable = [s for s in group.summaries if s.n >= 2 and s.mean is not None]
-    if len(usable) < 2:
+    # compare_groups returns None exactly when fewer than two levels have n ≥ 2.
+    if len(usable) < 2 or comparison is None:
         return None
     figure = f"group-{group.variable}"
-    if comparison is None:
-        high = max(usable, key=lambda s: s.mean)
-        low = min(usable, key=lambda s: s.mean)
-        return _overlap_finding(high, low, words, name, figure)
     test, p = _test_phrase(comparison)
     if p is None:
         return _untested_finding(comparison, words, name, figure)
@@ -215,24 +212,6 @@ def _untested_finding(
         text=f"The levels of {name} could not be compared with a test: {reason.rstrip('.')}.",
         certainty="Read the table of levels instead; no statement of certainty is possible.",
         figure=figure,
-    )
-
-
-def _overlap_finding(
-    high: Summary, low: Summary, words: Wording, name: str, figure: str
-) -> Finding:
-    overlap = not (high.ci_low is None or low.ci_high is None or high.ci_low > low.ci_high)
-    text = (
-        f"By {name}, {high.level} has the highest mean {words.lower}, {words.value(high.mean)}, "
-        f"and {low.level} the lowest, {words.value(low.mean)}."
-    )
-    if overlap:
-        return Finding(f"By {name}: no clear difference", text, "Their intervals overlap.", figure)
-    return Finding(
-        f"By {name}: {high.level} highest, {low.level} lowest",
-        text,
-        "Their intervals do not overlap.",
-        figure,
     )
 
 

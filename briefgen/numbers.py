@@ -70,8 +70,3 @@ def p_text(p: float | None) -> str:
     text = fmt_p(p)
     phrase = f"p {text}" if text.startswith("<") else f"p = {text}"
     return phrase.replace(" ", "\u00a0")
-
-
-def parse_number(text: str) -> float:
-    """Inverse of ``fmt`` for tests and checks: '−1,234.5' ─► -1234.5."""
-    return float(text.replace("−", "-").replace(",", "").rstrip("%"))

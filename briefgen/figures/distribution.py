@@ -22,7 +22,7 @@ from briefgen.numbers import fmt, fmt_count, fmt_level
 from briefgen.stats.groups import BoxStats, GroupStats, Summary
 
 
-def _bxp_stats(box: BoxStats, lower: float, upper: float) -> dict:
+def _bxp_stats(box: BoxStats) -> dict:
     return {
         "label": box.level,
         "med": box.median,
@@ -33,7 +33,7 @@ def _bxp_stats(box: BoxStats, lower: float, upper: float) -> dict:
         "cilo": box.notch_low,
         "cihi": box.notch_high,
         "mean": box.mean,
-        "fliers": [v for v in box.outliers if lower <= v <= upper],
+        "fliers": [v for v in box.outliers if box.axis_low <= v <= box.axis_high],
     }
 
 
@@ -73,7 +73,7 @@ def _draw_boxes(axes, boxes: list[BoxStats], positions: list[int], label: str) -
     pad = 0.04 * span
     lower, upper = boxes[0].axis_low - pad, boxes[0].axis_high + pad
     axes.bxp(
-        [_bxp_stats(b, b.axis_low, b.axis_high) for b in boxes],
+        [_bxp_stats(b) for b in boxes],
         positions=positions,
         orientation="horizontal",
         widths=0.55,

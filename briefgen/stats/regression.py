@@ -147,25 +147,29 @@ def fit_lines(
         if refs[f"n{i}"] >= 2 and sums[f"sxx{i}"] and sums[f"sxx{i}"] > 0
     }
     sse = _residual_pass(frame, predictors, refs, means, slopes)
-    return tuple(
-        _assemble(
-            p,
-            int(refs[f"n{i}"] or 0),
-            centre.get(i),
-            sums,
-            slopes.get(i),
-            sse.get(f"sse{i}"),
-            i,
-            refs[f"xmin{i}"],
-            refs[f"xmax{i}"],
-            confidence,
+    fits = []
+    for i, predictor in enumerate(predictors):
+        x_mean, y_mean = centre.get(i, (None, None))
+        fits.append(
+            fit_from_sums(
+                predictor,
+                n=int(refs[f"n{i}"] or 0),
+                x_mean=x_mean,
+                y_mean=y_mean,
+                sxx=sums.get(f"sxx{i}"),
+                sxy=sums.get(f"sxy{i}"),
+                syy=sums.get(f"syy{i}"),
+                sse=sse.get(f"sse{i}"),
+                x_min=refs[f"xmin{i}"],
+                x_max=refs[f"xmax{i}"],
+                confidence=confidence,
+            )
         )
-        for i, p in enumerate(predictors)
-    )
+    return tuple(fits)
 
 
 # RegressionFit fields that are estimates: unknown (None) when a fit cannot be made.
-ESTIMATE_FIELDS = (
+_ESTIMATE_FIELDS = (
     "slope",
     "slope_se",
     "slope_ci_low",
@@ -180,35 +184,39 @@ ESTIMATE_FIELDS = (
 )
 
 
-def _assemble(predictor, n, centre, sums, slope, sse, i, x_min, x_max, confidence) -> RegressionFit:
-    empty = dict.fromkeys(
-        (*ESTIMATE_FIELDS, "sxx"),
-    )
-    x_mean, y_mean = centre if centre else (None, None)
-    if slope is None or n < 3:
-        values = empty | {"sxx": sums.get(f"sxx{i}")}
-        if slope is not None:
-            values |= {"slope": slope, "intercept": y_mean - slope * x_mean}
-        return RegressionFit(
-            predictor=predictor,
-            n=n,
-            x_mean=x_mean,
-            y_mean=y_mean,
-            x_min=x_min,
-            x_max=x_max,
-            **values,
-        )
-    sxx, sxy, syy = sums[f"sxx{i}"], sums[f"sxy{i}"], sums[f"syy{i}"]
+def fit_from_sums(
+    predictor: str,
+    *,
+    n: int,
+    x_mean: float | None,
+    y_mean: float | None,
+    sxx: float | None,
+    sxy: float | None,
+    syy: float | None,
+    sse: float | None,
+    x_min: float | None,
+    x_max: float | None,
+    confidence: float,
+) -> RegressionFit:
+    """The fit from centred sums and the residual sum of squares, however they were summed.
+
+    Slope and intercept need n ≥ 2 and spread in x; errors, intervals and R² need n ≥ 3.
+    """
+    base = {"predictor": predictor, "n": n, "x_mean": x_mean, "y_mean": y_mean, "sxx": sxx}
+    base |= {"x_min": x_min, "x_max": x_max}
+    empty = dict.fromkeys(_ESTIMATE_FIELDS)
+    if n < 2 or not sxx or sxx <= 0:
+        return RegressionFit(**base, **empty)
+    slope = sxy / sxx
     intercept = y_mean - slope * x_mean
+    if n < 3 or sse is None:
+        return RegressionFit(**base, **(empty | {"slope": slope, "intercept": intercept}))
     residual_sd = math.sqrt(max(sse, 0.0) / (n - 2))
     slope_se = residual_sd / math.sqrt(sxx)
     intercept_se = residual_sd * math.sqrt(1 / n + x_mean * x_mean / sxx)
     t = float(scipy_stats.t.ppf(0.5 + confidence / 2, n - 2))
-    r_squared = 1 - sse / syy if syy > 0 else None
-    pearson_r = sxy / math.sqrt(sxx * syy) if syy > 0 else None
     return RegressionFit(
-        predictor=predictor,
-        n=n,
+        **base,
         slope=slope,
         slope_se=slope_se,
         slope_ci_low=slope - t * slope_se,
@@ -217,12 +225,7 @@ def _assemble(predictor, n, centre, sums, slope, sse, i, x_min, x_max, confidenc
         intercept_se=intercept_se,
         intercept_ci_low=intercept - t * intercept_se,
         intercept_ci_high=intercept + t * intercept_se,
-        r_squared=r_squared,
-        pearson_r=pearson_r,
+        r_squared=1 - sse / syy if syy > 0 else None,
+        pearson_r=sxy / math.sqrt(sxx * syy) if syy > 0 else None,
         residual_sd=residual_sd,
-        x_mean=x_mean,
-        y_mean=y_mean,
-        sxx=sxx,
-        x_min=x_min,
-        x_max=x_max,
     )

@@ -23,7 +23,7 @@ import ibis.expr.types as ir
 from scipy import stats as scipy_stats
 
 from briefgen.stats.correlation import Correlation, correlate
-from briefgen.stats.regression import RegressionFit, fit_lines
+from briefgen.stats.regression import RegressionFit, fit_from_sums, fit_lines
 
 __all__ = [
     "Correlation",
@@ -185,23 +185,31 @@ def _level_sums(frame: ir.Table, group_column: str, predictor_column: str) -> li
 
 def _level_slope(sums: dict, confidence: float) -> LevelSlope:
     n, sxx, sxy, syy = sums["n"], sums["sxx"], sums["sxy"], sums["syy"]
-    slope = slope_se = low = high = intercept = None
-    if n >= 3 and sxx > 0:
-        slope = sxy / sxx
-        intercept = sums["y_mean"] - slope * sums["x_mean"]
-        # From the centred sums; loses relative precision only when the line fits almost exactly.
-        sse = max(syy - sxy * slope, 0.0)
-        slope_se = math.sqrt(sse / (n - 2) / sxx)
-        half = scipy_stats.t.ppf(0.5 + confidence / 2, n - 2) * slope_se
-        low, high = slope - half, slope + half
+    # From the centred sums; loses relative precision only when the line fits almost exactly.
+    sse = max(syy - sxy * (sxy / sxx), 0.0) if sxx > 0 else None
+    fit = fit_from_sums(
+        sums["level"],
+        n=n,
+        x_mean=sums["x_mean"],
+        y_mean=sums["y_mean"],
+        sxx=sxx,
+        sxy=sxy,
+        syy=syy,
+        sse=sse,
+        x_min=sums["x_min"],
+        x_max=sums["x_max"],
+        confidence=confidence,
+    )
+    # A per-level slope is reported only with its interval (n ≥ 3), never bare from two points.
+    estimated = fit.slope_se is not None
     return LevelSlope(
         level=sums["level"],
         n=n,
-        slope=slope,
-        slope_se=slope_se,
-        slope_ci_low=low,
-        slope_ci_high=high,
-        intercept=intercept,
+        slope=fit.slope if estimated else None,
+        slope_se=fit.slope_se,
+        slope_ci_low=fit.slope_ci_low,
+        slope_ci_high=fit.slope_ci_high,
+        intercept=fit.intercept if estimated else None,
         x_mean=sums["x_mean"],
         y_mean=sums["y_mean"],
         x_min=sums["x_min"],

@@ -21,14 +21,12 @@ from __future__ import annotations
 import dataclasses
 import datetime as dt
 import logging
-import math
 
 import ibis.expr.types as ir
 import numpy as np
-from scipy import stats as scipy_stats
 
 from briefgen.stats.groups import summarise_levels
-from briefgen.stats.regression import ESTIMATE_FIELDS, RegressionFit
+from briefgen.stats.regression import RegressionFit, fit_from_sums
 
 log = logging.getLogger(__name__)
 
@@ -39,8 +37,6 @@ _TRUNCATE_UNIT = {"day": "D", "week": "W", "month": "M"}
 MAX_DAILY_SPAN = 60
 MAX_WEEKLY_SPAN = 420
 CHANGE_WINDOW_DAYS = 30
-# RegressionFit fields that need two periods (slope, intercept) or three (the rest).
-_ESTIMATES = ESTIMATE_FIELDS
 
 
 @dataclasses.dataclass(frozen=True, slots=True)
@@ -123,11 +119,6 @@ def next_period_start(start: dt.date, period: str) -> dt.date:
     return dt.date(start.year + start.month // 12, start.month % 12 + 1, 1)
 
 
-def _plain(value: float | None) -> float | None:
-    """A Python float (scipy hands back numpy scalars) or None."""
-    return None if value is None else float(value)
-
-
 def _as_date(value: dt.date | dt.datetime) -> dt.date:
     return value.date() if isinstance(value, dt.datetime) else value
 
@@ -171,8 +162,8 @@ def _period_summaries(
                 q1=s.q1,
                 q3=s.q3,
                 sd=s.sd,
-                ci_low=_plain(s.ci_low),
-                ci_high=_plain(s.ci_high),
+                ci_low=s.ci_low,
+                ci_high=s.ci_high,
                 partial=False,
             )
         )
@@ -224,35 +215,24 @@ def _period_line(
     x_mean, deviation_mean = float(np.mean(days)), float(np.mean(deviations))
     dx, dy = days - x_mean, deviations - deviation_mean
     sxx, sxy, syy = float(dx @ dx), float(dx @ dy), float(dy @ dy)
-    y_mean = offset + deviation_mean
-    base = {"predictor": "days", "n": n, "x_mean": x_mean, "y_mean": y_mean, "sxx": sxx}
-    base |= {"x_min": float(days.min()), "x_max": float(days.max())}
-    empty = dict.fromkeys(_ESTIMATES)
     if n < 2 or sxx <= 0:
-        return RegressionFit(**base, **empty)
-    slope = sxy / sxx
-    intercept = y_mean - slope * x_mean
-    if n < 3:
-        return RegressionFit(**base, **(empty | {"slope": slope, "intercept": intercept}))
-    residuals = dy - slope * dx  # summed directly rather than Syy − slope·Sxy, for accuracy
-    sse = float(residuals @ residuals)
-    residual_sd = math.sqrt(sse / (n - 2))
-    slope_se = residual_sd / math.sqrt(sxx)
-    intercept_se = residual_sd * math.sqrt(1 / n + x_mean * x_mean / sxx)
-    t = float(scipy_stats.t.ppf(0.5 + confidence / 2, n - 2))
-    return RegressionFit(
-        **base,
-        slope=slope,
-        slope_se=slope_se,
-        slope_ci_low=slope - t * slope_se,
-        slope_ci_high=slope + t * slope_se,
-        intercept=intercept,
-        intercept_se=intercept_se,
-        intercept_ci_low=intercept - t * intercept_se,
-        intercept_ci_high=intercept + t * intercept_se,
-        r_squared=1 - sse / syy if syy > 0 else None,
-        pearson_r=sxy / math.sqrt(sxx * syy) if syy > 0 else None,
-        residual_sd=residual_sd,
+        sse = None
+    else:
+        # Residuals summed directly rather than Syy − slope·Sxy, for accuracy.
+        residuals = dy - (sxy / sxx) * dx
+        sse = float(residuals @ residuals)
+    return fit_from_sums(
+        "days",
+        n=n,
+        x_mean=x_mean,
+        y_mean=offset + deviation_mean,
+        sxx=sxx,
+        sxy=sxy,
+        syy=syy,
+        sse=sse,
+        x_min=float(days.min()),
+        x_max=float(days.max()),
+        confidence=confidence,
     )
 
 

@@ -179,11 +179,6 @@ def _decode(level: str) -> tuple[str, str | None, str | None]:
     return tag, None, None
 
 
-def _plain(value: float | None) -> float | None:
-    """A Python float (scipy hands back numpy scalars) or None."""
-    return None if value is None else float(value)
-
-
 def _cell(summary: Summary, row: str | None, column: str | None, min_cell: int) -> CrossCell:
     return CrossCell(
         row=row,
@@ -192,11 +187,11 @@ def _cell(summary: Summary, row: str | None, column: str | None, min_cell: int) 
         mean=summary.mean,
         median=summary.median,
         sd=summary.sd,
-        ci_low=_plain(summary.ci_low),
-        ci_high=_plain(summary.ci_high),
+        ci_low=summary.ci_low,
+        ci_high=summary.ci_high,
         too_small=summary.n < min_cell,
         rows=summary.rows,
-        mean_shift=_plain(summary.mean_shift),
+        mean_shift=summary.mean_shift,
     )
 
 
