@@ -245,12 +245,12 @@ def cross_finding(
     )
     if standout.stands_out:
         text = (
-            f"{pair} averages {words.value(standout.mean)} (n = {fmt_count(standout.n)}), {excess} against "
+            f"{pair[:1].upper() + pair[1:]} averages {words.value(standout.mean)} (n = {fmt_count(standout.n)}), {excess} against "
             f"the {words.value(standout.expected)} that its {row_name} and its {column_name} predict "
             f"added together ({words.level_name} interval of the difference {interval})."
         )
         return Finding(
-            headline=f"{pair} stands out ({excess} beyond its parts)",
+            headline=f"{pair[:1].upper() + pair[1:]} stands out ({excess} beyond its parts)",
             text=text,
             certainty="The combination itself matters, beyond each part; that says where, not why.",
             figure=figure,
