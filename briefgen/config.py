@@ -31,6 +31,12 @@ class DataSpec(_Strict):
     format: Literal["csv", "parquet"] | None = None
 
 
+class EngineSpec(_Strict):
+    """Which engine runs the statistics. Only ``source`` reads this."""
+
+    backend: Literal["duckdb"] = "duckdb"
+
+
 class TimeSpec(_Strict):
     """A date or timestamp column, and the period to summarise it by."""
 
@@ -70,6 +76,8 @@ class BriefSpec(_Strict):
     log_target: bool = False
     confidence: float = Field(default=0.95, gt=0.5, lt=1.0)
     min_cell: int = Field(default=10, ge=2)
+    max_levels: int = Field(default=8, ge=2, le=20)
+    engine: EngineSpec = Field(default_factory=EngineSpec)
     output: OutputSpec = Field(default_factory=OutputSpec)
     source_file: str = ""
 
@@ -87,6 +95,12 @@ class BriefSpec(_Strict):
             if pair[0] == pair[1]:
                 raise ValueError(f"a pair needs two different groups, not '{pair[0]}' twice")
         return value
+
+    @field_validator("engine", mode="before")
+    @classmethod
+    def _engine_shorthand(cls, value: Any) -> Any:
+        # `engine: duckdb` is the common case; the mapping form leaves room for settings.
+        return {"backend": value} if isinstance(value, str) else value
 
     @field_validator("time", mode="before")
     @classmethod

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 from briefgen.config import BriefSpec
 from briefgen.figures.cross import cross_chart
 from briefgen.figures.distribution import distribution_chart
+from briefgen.figures.histogram import histogram_chart
 from briefgen.figures.relationship import relationship_chart
 from briefgen.figures.theme import Chart
 from briefgen.figures.trend import trend_chart
@@ -194,11 +195,23 @@ def _fit_section(
     return Section(f"fit-{fit.predictor}", f"{label} and {x_label}", finding, chart, None)
 
 
+def _overall_section(stats: BriefStats, words: Wording) -> Section:
+    """The target over all rows: the overall finding, and the histogram when there is one."""
+    chart = (
+        histogram_chart(stats.histogram, words.lower, words.unit_decimals)
+        if stats.histogram is not None
+        else None
+    )
+    finding = overall_finding(stats, words, figure="overall" if chart else None)
+    return Section("overall", f"{words.label} over all rows", finding, chart, None)
+
+
 def _sections(
     stats: BriefStats, spec: BriefSpec, words: Wording
 ) -> tuple[list[Section], list[Table]]:
     """Every analysis as a section in reading order, and the detail tables for the appendix."""
     sections, appendix = _group_sections(stats, spec, words)
+    sections.insert(0, _overall_section(stats, words))
     sections += [_cross_section(cross, spec, words) for cross in stats.crosses]
     appendix += [
         cross_cells_table(
@@ -245,7 +258,7 @@ def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label
     ]
     clear = [f for f in found if f not in unsettled]
     unclear = unsettled
-    key = [overall_finding(stats, words), *clear, *unclear][:MAX_KEY_FINDINGS]
+    key = [*clear, *unclear][:MAX_KEY_FINDINGS]
     names = {g: name_for(spec, g) for g in spec.groups}
     subtitle = f"{words.label} · {rows_label} · {fmt_count(stats.accounting.rows_read)} rows"
     return Document(

@@ -13,7 +13,7 @@ from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_level, fmt_percen
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
 from briefgen.stats.correlation import Correlation
-from briefgen.stats.groups import GroupStats
+from briefgen.stats.groups import GroupResult
 from briefgen.stats.regression import RegressionFit
 from briefgen.stats.relationships import GroupSlopes, LogFit
 from briefgen.stats.trend import Trend
@@ -65,7 +65,7 @@ def wording_for(stats: BriefStats, label: str) -> Wording:
     )
 
 
-def overall_finding(stats: BriefStats, words: Wording) -> Finding:
+def overall_finding(stats: BriefStats, words: Wording, figure: str | None = None) -> Finding:
     o = stats.overall
     text = (
         f"Across {fmt_count(o.n)} rows, the typical {words.lower} is {words.value(o.median)} "
@@ -78,6 +78,7 @@ def overall_finding(stats: BriefStats, words: Wording) -> Finding:
         headline=f"Typical {words.lower}: {words.value(o.median)}",
         text=text,
         certainty=f"Interval from Student's t at {words.level_name} confidence.",
+        figure=figure,
     )
 
 
@@ -98,7 +99,7 @@ def _test_phrase(comparison: GroupComparison) -> tuple[str, float | None]:
 
 
 def group_finding(
-    group: GroupStats, comparison: GroupComparison | None, words: Wording, name: str
+    group: GroupResult, comparison: GroupComparison | None, words: Wording, name: str
 ) -> Finding | None:
     """Highest against lowest level, worded by the test the brief leans on.
 

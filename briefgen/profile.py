@@ -13,15 +13,12 @@ import re
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
-import ibis
-
 if TYPE_CHECKING:
     import ibis.expr.types as ir
 
-    from briefgen.stats.groups import Summary
+    from briefgen.stats.core.summary import Summary
 
-MAX_LEVELS = 8
-OTHER_PREFIX = "Other"
+MAX_LEVELS = 8  # common practice (no published source): about 8 categories read at a glance
 _ORDERED = re.compile(r"^\s*[-+]?\d")
 
 
@@ -30,31 +27,22 @@ def has_natural_order(levels: list[str]) -> bool:
     return bool(levels) and all(_ORDERED.match(level) for level in levels)
 
 
-def level_order(summaries: tuple[Summary, ...]) -> list[str]:
-    """Natural order if the levels have one, else by median, highest first."""
-    levels = [s.level for s in summaries]
+def level_order(summaries: tuple[Summary, ...], other_label: str | None = None) -> list[str]:
+    """Natural order if the levels have one, else by median, highest first; "Other" last."""
+    levels = [s.level for s in summaries if s.level != other_label]
+    folded = [other_label] if other_label in {s.level for s in summaries} else []
     if has_natural_order(levels):
-        return sorted(levels, key=_numeric_key)
-    folded = [s for s in summaries if s.level.startswith(OTHER_PREFIX)]
+        return sorted(levels, key=_numeric_key) + folded
     ranked = sorted(
-        (s for s in summaries if not s.level.startswith(OTHER_PREFIX)),
+        (s for s in summaries if s.level != other_label),
         key=lambda s: (s.median is None, -(s.median or 0.0), s.level),
     )
-    return [s.level for s in ranked + folded]
+    return [s.level for s in ranked] + folded
 
 
 def _numeric_key(level: str) -> tuple[float, str]:
     match = re.match(r"^\s*([-+]?\d+(?:\.\d+)?)", level)
     return (float(match.group(1)) if match else float("inf"), level)
-
-
-def fold_small_levels(rows: ir.Table, summaries: tuple[Summary, ...]) -> ir.Table:
-    """Keep the MAX_LEVELS − 1 largest levels; relabel the rest as one 'Other (k levels)'."""
-    by_size = sorted(summaries, key=lambda s: (-s.rows, s.level))
-    keep = [s.level for s in by_size[: MAX_LEVELS - 1]]
-    folded = len(summaries) - len(keep)
-    label = f"{OTHER_PREFIX} ({folded} levels)"
-    return rows.mutate(level=ibis.ifelse(rows.level.isin(keep), rows.level, label))
 
 
 # Column roles: what a column is for, guessed from its type and how many values it takes.

@@ -12,7 +12,7 @@ from briefgen.findings import Wording
 from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_p, fmt_percent, p_text
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
-from briefgen.stats.groups import GroupStats
+from briefgen.stats.groups import GroupResult
 from briefgen.stats.trend import Trend
 from briefgen.stats.twoway import CrossTable
 
@@ -31,7 +31,7 @@ class Table:
     notes: tuple[str, ...] = ()
 
 
-def group_table(group: GroupStats, words: Wording, name: str) -> Table:
+def group_table(group: GroupResult, words: Wording, name: str) -> Table:
     rows = []
     boxes = {b.level: b for b in group.boxes}
     for s in group.summaries:

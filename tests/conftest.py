@@ -6,11 +6,13 @@ import itertools
 from collections.abc import Callable, Iterator
 from pathlib import Path
 
-import ibis
 import ibis.expr.types as ir
 import pandas as pd
 import pytest
 from ibis.backends.duckdb import Backend as DuckDBBackend
+
+from briefgen.config import EngineSpec
+from briefgen.source import connect
 
 EngineTable = Callable[[pd.DataFrame], ir.Table]
 
@@ -26,10 +28,14 @@ def write_engine_table(engine: DuckDBBackend, frame: pd.DataFrame, path: Path) -
     return engine.read_parquet(path)
 
 
-@pytest.fixture
-def engine() -> Iterator[DuckDBBackend]:
-    """One in-memory DuckDB connection for the whole test (opening one per table is slow)."""
-    connection = ibis.duckdb.connect()
+# Backends the statistics suite runs on; a second Ibis backend joins by adding its name here.
+BACKENDS = ["duckdb"]
+
+
+@pytest.fixture(params=BACKENDS)
+def engine(request: pytest.FixtureRequest) -> Iterator[DuckDBBackend]:
+    """One connection per test, opened through the same seam the brief uses (source.connect)."""
+    connection = connect(EngineSpec(backend=request.param))
     yield connection
     connection.disconnect()
 

@@ -148,7 +148,7 @@ def test_demo_json_keys_are_documented(demo_json: dict) -> None:
     assert not unnamed, f"keys never written as a code span in the reference: {unnamed}"
     # The demo must reach the nested objects, or this test checks less than it claims.
     reached = {path for path, _ in json_objects(demo_json, "", MAP_PATHS)}
-    expected = {"stats.comparisons[].rank_test", "stats.log_fits[].line", "stats.sample"}
+    expected = {"stats.groups[].comparison.rank_test", "stats.log_fits[].line", "stats.sample"}
     assert expected <= reached
 
 

@@ -92,7 +92,7 @@ def test_brief_builds_and_keeps_the_digits(hard_case, capsys):
     assert stats["groups"][0]["rows_without_level"] == 3
 
     # The comparison leaves out levels it cannot test, and says so.
-    comparison = stats["comparisons"][0]
+    comparison = stats["groups"][0]["comparison"]
     assert "single" in comparison["excluded_levels"]
 
     html = (folder / "out" / "brief.html").read_text()

@@ -15,7 +15,7 @@ from statsmodels.stats.oneway import anova_oneway
 from statsmodels.stats.weightstats import CompareMeans
 
 from briefgen.stats.compare import compare_groups
-from briefgen.stats.groups import summarise_levels
+from briefgen.stats.core.summary import summarise_levels
 from briefgen.stats.ranks import kruskal_wallis, rank_sums, rank_test, within_level_skewness
 from briefgen.stats.welch import classical_anova, holm, welch_anova, welch_pair
 

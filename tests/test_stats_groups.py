@@ -20,7 +20,7 @@ from hypothesis import strategies as st
 from matplotlib import cbook
 from palmerpenguins import load_penguins
 
-from briefgen.stats.groups import MAX_LISTED_OUTLIERS, BoxStats, Summary, summarise_levels
+from briefgen.stats.core.summary import MAX_LISTED_OUTLIERS, BoxStats, Summary, summarise_levels
 
 EPS = float(np.finfo(float).eps)
 

@@ -40,7 +40,7 @@ import scipy
 from statsmodels.stats.oneway import anova_oneway
 from statsmodels.stats.weightstats import CompareMeans
 
-from briefgen.stats.groups import summarise_levels
+from briefgen.stats.core.summary import summarise_levels
 from briefgen.stats.welch import classical_anova, welch_anova, welch_pair
 
 NIST_FOLDER = Path(scipy.__file__).parent / "stats" / "tests" / "data" / "nist_anova"

@@ -19,7 +19,8 @@ from briefgen.figures.theme import (
     to_svg,
 )
 from briefgen.numbers import fmt, fmt_count, fmt_level
-from briefgen.stats.groups import BoxStats, GroupStats, Summary
+from briefgen.stats.core.summary import BoxStats, Summary
+from briefgen.stats.groups import GroupResult
 
 
 def _bxp_stats(box: BoxStats) -> dict:
@@ -191,7 +192,7 @@ def _alt(boxes: list[BoxStats], label: str, decimals: int, name: str) -> str:
 
 
 def distribution_chart(
-    group: GroupStats, overall: Summary, label: str, decimals: int, confidence: float, name: str
+    group: GroupResult, overall: Summary, label: str, decimals: int, confidence: float, name: str
 ) -> Chart:
     """Boxes (left) and means with intervals (right) for every level of one group."""
     boxes = list(group.boxes)

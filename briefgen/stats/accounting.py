@@ -1,35 +1,32 @@
 """Where every row went: read, used by each analysis, or left out and why.
 
 Nothing is dropped silently: the brief prints these counts next to the analyses
-that lost rows, and stats.json carries all of them.
+that lost rows, and stats.json carries all of them. The per-analysis counts come
+from each result's ``RowUsage``; only the raw-file counts are queried here.
 """
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import ibis.expr.types as ir
 
 from briefgen.config import BriefSpec
-from briefgen.stats.frame import AnalysisFrame
+from briefgen.stats.core.analysis import one_row
+from briefgen.stats.core.frame import AnalysisFrame
+from briefgen.stats.core.usage import Dropped, RowUsage, usage
 
-
-@dataclass(frozen=True, slots=True)
-class Dropped:
-    """Rows one analysis could not use, and the reason, in words a reader follows."""
-
-    analysis: str
-    reason: str
-    rows: int
+__all__ = ["Accounting", "Dropped", "count_rows"]
 
 
 @dataclass(frozen=True, slots=True)
 class Accounting:
     """Row counts for the whole brief.
 
-    ``used`` maps each analysis (``target``, ``group:<name>``, ``fit:<name>``) to
-    the rows it used; ``missing_by_column`` counts empty cells in every column of
-    the source, named or not.
+    ``used`` maps each analysis (``target``, ``group:<name>``, ``fit:<name>``,
+    ``cross:<a> × <b>``, ``trend``) to the rows it used; ``missing_by_column`` counts
+    empty cells in every column of the source, named or not.
     """
 
     rows_read: int
@@ -40,50 +37,52 @@ class Accounting:
     missing_by_column: dict[str, int]
 
 
-def count_rows(raw: ir.Table, frame: AnalysisFrame, spec: BriefSpec) -> Accounting:
-    """One aggregate query over the raw table and one over the analysis frame."""
-    target_raw = raw[spec.target]
-    raw_counts = {"rows": raw.count(), "target_null": target_raw.isnull().sum()}
+def _fit_usages(frame: AnalysisFrame, references: dict) -> list[RowUsage]:
+    """Rows each predictor's fit used, from the shared median-reference pass."""
+    return [
+        usage(
+            f"fit:{name}",
+            int(references[f"n{i}"] or 0),
+            f"relationship with {name}",
+            f"no finite value in '{name}'",
+            int(references[f"lacking{i}"] or 0),
+        )
+        for i, name in enumerate(frame.predictors.values())
+    ]
+
+
+def count_rows(
+    raw: ir.Table,
+    frame: AnalysisFrame,
+    spec: BriefSpec,
+    usages: Sequence[RowUsage],
+    references: dict,
+) -> Accounting:
+    """One aggregate query over the raw table; the rest from the results' usages."""
+    raw_counts = {"rows": raw.count(), "target_null": raw[spec.target].isnull().sum()}
     raw_counts |= {f"missing_{i}": raw[name].isnull().sum() for i, name in enumerate(raw.columns)}
-    raw_row = raw.aggregate(**raw_counts).to_pyarrow().to_pylist()[0]
-
-    table = frame.table
-    has_y = table.y.notnull()
-    counts = {"target_used": has_y.sum()}
-    for key in frame.groups:
-        counts[f"{key}_used"] = (has_y & table[key].notnull()).sum()
-        counts[f"{key}_null"] = (has_y & table[key].isnull()).sum()
-    for key in frame.predictors:
-        counts[f"{key}_used"] = (has_y & table[key].notnull()).sum()
-        counts[f"{key}_null"] = (has_y & table[key].isnull()).sum()
-    row = table.aggregate(**counts).to_pyarrow().to_pylist()[0]
-
+    raw_row = one_row(raw, raw_counts)
     rows_read = int(raw_row["rows"])
     target_missing = int(raw_row["target_null"])
-    not_finite = rows_read - target_missing - int(row["target_used"])
-    used = {"target": int(row["target_used"])}
+    all_usages = [*usages, *_fit_usages(frame, references)]
+    with_target = next(u.rows_used for u in all_usages if u.analysis == "target")
+    not_finite = rows_read - target_missing - with_target
     dropped = []
     if target_missing:
         dropped.append(Dropped("all analyses", f"no value in '{spec.target}'", target_missing))
     if not_finite:
         dropped.append(Dropped("all analyses", f"'{spec.target}' not a finite number", not_finite))
-    for key, name in frame.groups.items():
-        used[f"group:{name}"] = int(row[f"{key}_used"])
-        if row[f"{key}_null"]:
-            dropped.append(
-                Dropped(f"comparison by {name}", f"no value in '{name}'", int(row[f"{key}_null"]))
-            )
-    for key, name in frame.predictors.items():
-        used[f"fit:{name}"] = int(row[f"{key}_used"])
-        if row[f"{key}_null"]:
-            reason = f"no finite value in '{name}'"
-            dropped.append(Dropped(f"relationship with {name}", reason, int(row[f"{key}_null"])))
+    # Same order as before: groups and fits first, then the two-way tables and the trend.
+    order = {"target": 0, "group": 1, "fit": 2, "cross": 3, "trend": 4}
+    ordered = sorted(all_usages, key=lambda u: order[u.analysis.partition(":")[0]])
+    for u in ordered:
+        dropped.extend(u.left_out)
     missing = {name: int(raw_row[f"missing_{i}"]) for i, name in enumerate(raw.columns)}
     return Accounting(
         rows_read=rows_read,
         target_missing=target_missing,
         target_not_finite=not_finite,
-        used=used,
+        used={u.analysis: u.rows_used for u in ordered},
         dropped=tuple(dropped),
         missing_by_column=missing,
     )

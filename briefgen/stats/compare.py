@@ -35,13 +35,12 @@ from dataclasses import dataclass
 
 import ibis.expr.types as ir
 
-from briefgen.stats.groups import Summary
+from briefgen.stats.core.shifted import deviations, pooled_mean
+from briefgen.stats.core.summary import Summary
 from briefgen.stats.ranks import STRONG_SKEW, RankTest, lean_on, rank_test, within_level_skewness
 from briefgen.stats.welch import (
     ClassicalAnova,
     PairwiseComparison,
-    _anchored,
-    _deviations,
     classical_anova,
     pairwise_welch,
     welch_anova,
@@ -141,7 +140,7 @@ def level_effects(
     """Each tested level against the reference level and against the overall mean."""
     # Against the overall mean only the overall mean's own rounding remains: the
     # anchor (a data value) minus it is exact when they are close (Sterbenz 1974).
-    versus_overall = _deviations(tested, overall_mean)
+    versus_overall = deviations(tested, overall_mean)
     effects = []
     for s, above_overall in zip(tested, versus_overall, strict=True):
         if s is reference:
@@ -163,15 +162,6 @@ def level_effects(
             )
         )
     return tuple(effects)
-
-
-def overall_mean(summaries: Sequence[Summary]) -> float:
-    """Mean of the target over every row with a level and a value."""
-    used = [s for s in summaries if s.n >= 1 and s.mean is not None]
-    base = _anchored(used[0])[0]
-    deviations = _deviations(used, base)
-    weighted = sum(s.n * d for s, d in zip(used, deviations, strict=True))
-    return base + weighted / sum(s.n for s in used)
 
 
 def _constant_value(summary: Summary) -> str:
@@ -268,7 +258,7 @@ def compare_groups(
     ranks = rank_test(levels_table, [s.level for s in tested]) if needs_ranks else None
     leans_on, reason = lean_on(skewness, ranks, welch_runs=undefined_reason is None)
     reference = reference_level(tested)
-    overall = overall_mean(summaries)
+    overall = pooled_mean(summaries)
     return GroupComparison(
         variable=variable,
         levels=tuple(s.level for s in tested),

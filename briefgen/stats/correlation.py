@@ -20,6 +20,8 @@ import ibis
 import ibis.expr.types as ir
 from scipy import stats as scipy_stats
 
+from briefgen.stats.core.references import median_references
+
 
 @dataclass(frozen=True, slots=True)
 class Correlation:
@@ -46,7 +48,11 @@ class Correlation:
 
 
 def correlate(
-    frame_table: ir.Table, predictor_columns: list[str], names: list[str], confidence: float
+    frame_table: ir.Table,
+    predictor_columns: list[str],
+    names: list[str],
+    confidence: float,
+    references: dict | None = None,
 ) -> tuple[Correlation, ...]:
     """Pearson and Spearman correlation of ``y`` with each predictor column.
 
@@ -57,7 +63,8 @@ def correlate(
     if not predictor_columns:
         return ()
     predictors = list(predictor_columns)
-    references = _references(frame_table, predictors)
+    if references is None:
+        references = median_references(frame_table, predictors)
     sums = _centred_sums(frame_table, predictors, references)
     results = []
     for i, name in enumerate(names):
@@ -112,21 +119,6 @@ def _average_rank(column: ir.NumericColumn, both: ir.BooleanColumn) -> ir.Numeri
     lowest = ibis.rank().over(group_by=both, order_by=column) + 1
     ties = column.count().over(group_by=[both, column])
     return lowest + (ties - 1) / 2
-
-
-def _references(frame: ir.Table, predictors: list[str]) -> dict[str, float | int | None]:
-    """Pass 1: rows with both values, and the medians of x and y over them, per predictor."""
-    y = frame.y
-    expressions = {}
-    for i, column in enumerate(predictors):
-        x = frame[column]
-        both = x.notnull() & y.notnull()
-        expressions |= {
-            f"n{i}": both.sum(),
-            f"x_ref{i}": x.quantile(0.5, where=both),
-            f"y_ref{i}": y.quantile(0.5, where=both),
-        }
-    return frame.aggregate(**expressions).to_pyarrow().to_pylist()[0]
 
 
 def _centred_sums(

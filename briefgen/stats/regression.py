@@ -1,6 +1,7 @@
 """Ordinary least squares of the target on each predictor, from centred sums.
 
-Four aggregate passes, each one query for all predictors: reference medians,
+Four aggregate passes, each one query for all predictors: reference medians (shared
+with the correlations, ``briefgen.stats.core.references``),
 exact means (median-shifted), centred cross-products, and the residual sum of
 squares around the fitted line. Never Σx² − n·x̄² on raw values: on data with a
 large offset that formula loses every significant digit.
@@ -13,6 +14,9 @@ from dataclasses import dataclass
 
 import ibis.expr.types as ir
 from scipy import stats as scipy_stats
+
+from briefgen.stats.core.analysis import one_row
+from briefgen.stats.core.references import median_references
 
 
 @dataclass(frozen=True, slots=True)
@@ -56,34 +60,14 @@ def _columns(frame: ir.Table, predictor: str):
     return x, y, both
 
 
-def _one_row(frame: ir.Table, expressions: dict) -> dict:
-    """Run one aggregate query over ``frame`` and return its single row; empty if nothing to ask."""
-    return frame.aggregate(**expressions).to_pyarrow().to_pylist()[0] if expressions else {}
-
-
 def _deviations(frame: ir.Table, predictor: str, i: int, refs: dict, means: dict):
     """Centred x and y of one predictor's rows, and the mask of rows with both values."""
     # Deviation from the mean as (value − reference) − mean shift: the reference is a data
     # value, so the first difference is exact, and the rounded mean never meets the offset.
     x, y, both = _columns(frame, predictor)
-    dx = (x - refs[f"xr{i}"]) - means[f"dx{i}"]
-    dy = (y - refs[f"yr{i}"]) - means[f"dy{i}"]
+    dx = (x - refs[f"x_ref{i}"]) - means[f"dx{i}"]
+    dy = (y - refs[f"y_ref{i}"]) - means[f"dy{i}"]
     return dx, dy, both
-
-
-def _reference_pass(frame: ir.Table, predictors: list[str]) -> dict:
-    """Pass 1: rows with both values, median references for x and y, and the range of x."""
-    first = {}
-    for i, p in enumerate(predictors):
-        x, y, both = _columns(frame, p)
-        first |= {
-            f"n{i}": both.sum(),
-            f"xr{i}": x.quantile(0.5, where=both),
-            f"yr{i}": y.quantile(0.5, where=both),
-            f"xmin{i}": x.min(where=both),
-            f"xmax{i}": x.max(where=both),
-        }
-    return _one_row(frame, first)
 
 
 def _mean_pass(
@@ -94,11 +78,11 @@ def _mean_pass(
     for i, p in enumerate(predictors):
         x, y, both = _columns(frame, p)
         if refs[f"n{i}"]:
-            means_expr[f"dx{i}"] = (x - refs[f"xr{i}"]).mean(where=both)
-            means_expr[f"dy{i}"] = (y - refs[f"yr{i}"]).mean(where=both)
-    means = _one_row(frame, means_expr)
+            means_expr[f"dx{i}"] = (x - refs[f"x_ref{i}"]).mean(where=both)
+            means_expr[f"dy{i}"] = (y - refs[f"y_ref{i}"]).mean(where=both)
+    means = one_row(frame, means_expr)
     centre = {
-        i: (refs[f"xr{i}"] + means[f"dx{i}"], refs[f"yr{i}"] + means[f"dy{i}"])
+        i: (refs[f"x_ref{i}"] + means[f"dx{i}"], refs[f"y_ref{i}"] + means[f"dy{i}"])
         for i in range(len(predictors))
         if refs[f"n{i}"]
     }
@@ -117,7 +101,7 @@ def _sums_pass(
             f"sxy{i}": (dx * dy).sum(where=both),
             f"syy{i}": (dy * dy).sum(where=both),
         }
-    return _one_row(frame, sums_expr)
+    return one_row(frame, sums_expr)
 
 
 def _residual_pass(
@@ -129,16 +113,19 @@ def _residual_pass(
         dx, dy, both = _deviations(frame, predictors[i], i, refs, means)
         residual = dy - slope * dx
         sse_expr[f"sse{i}"] = (residual * residual).sum(where=both)
-    return _one_row(frame, sse_expr)
+    return one_row(frame, sse_expr)
 
 
 def fit_lines(
-    frame: ir.Table, predictors: list[str], confidence: float
+    frame: ir.Table, predictors: list[str], confidence: float, references: dict | None = None
 ) -> tuple[RegressionFit, ...]:
-    """Fit ``y`` on each predictor column of ``frame`` (columns already float, NaN as null)."""
+    """Fit ``y`` on each predictor column of ``frame`` (columns already float, NaN as null).
+
+    ``references`` are the shared median references of the same table, when already known.
+    """
     if not predictors:
         return ()
-    refs = _reference_pass(frame, predictors)
+    refs = references if references is not None else median_references(frame, predictors)
     means, centre = _mean_pass(frame, predictors, refs)
     sums = _sums_pass(frame, predictors, refs, means, centre)
     slopes = {
@@ -160,8 +147,8 @@ def fit_lines(
                 sxy=sums.get(f"sxy{i}"),
                 syy=sums.get(f"syy{i}"),
                 sse=sse.get(f"sse{i}"),
-                x_min=refs[f"xmin{i}"],
-                x_max=refs[f"xmax{i}"],
+                x_min=refs[f"x_min{i}"],
+                x_max=refs[f"x_max{i}"],
                 confidence=confidence,
             )
         )

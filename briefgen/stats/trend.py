@@ -25,7 +25,9 @@ import logging
 import ibis.expr.types as ir
 import numpy as np
 
-from briefgen.stats.groups import summarise_levels
+from briefgen.stats.core.shifted import deviations
+from briefgen.stats.core.summary import summarise_levels
+from briefgen.stats.core.usage import RowUsage, usage
 from briefgen.stats.regression import RegressionFit, fit_from_sums
 
 log = logging.getLogger(__name__)
@@ -44,7 +46,8 @@ class PeriodStats:
     """The target within one period: [start, end), end being the next period's start.
 
     Only rows with both a time and a target value count, so ``n >= 1``. The
-    interval is Student t (None when n < 2). ``partial`` marks a first or last
+    interval is Student t (None when n < 2); ``mean_shift`` is mean − median at full
+    precision, for differencing means at large offsets. ``partial`` marks a first or last
     period that the data's span does not fully cover (see ``time_trend``).
     """
 
@@ -59,6 +62,7 @@ class PeriodStats:
     ci_low: float | None
     ci_high: float | None
     partial: bool
+    mean_shift: float | None = None
 
 
 @dataclasses.dataclass(frozen=True, slots=True)
@@ -77,6 +81,7 @@ class Trend:
     absent from ``periods``).
     """
 
+    key: str
     period: str
     periods: tuple[PeriodStats, ...]
     gaps: tuple[dt.date, ...]
@@ -94,6 +99,7 @@ class Trend:
     change_per_30_days_ci_high: float | None
     confidence: float
     fit: RegressionFit | None
+    usage: RowUsage
 
 
 def choose_period(span_days: float) -> str:
@@ -134,6 +140,7 @@ def _counts(frame_table: ir.Table) -> dict:
             rows=table.count(),
             rows_without_time=table.t.isnull().sum(),
             rows_without_target=(table.t.notnull() & table.y.isnull()).sum(),
+            valued_without_time=(table.t.isnull() & table.y.notnull()).sum(),
             first_time=table.t.min(where=usable).cast(micro),
             last_time=table.t.max(where=usable).cast(micro),
         )
@@ -142,15 +149,12 @@ def _counts(frame_table: ir.Table) -> dict:
     )
 
 
-def _period_summaries(
-    usable: ir.Table, period: str, confidence: float
-) -> tuple[list[PeriodStats], list[float]]:
-    """The periods in time order, and each one's mean − median at full precision."""
+def _period_summaries(usable: ir.Table, period: str, confidence: float) -> list[PeriodStats]:
+    """The periods in time order, each with its mean − median at full precision."""
     levels = usable.select(level=usable.t.truncate(_TRUNCATE_UNIT[period]).date(), y=usable.y)
     summaries, _boxes = summarise_levels(levels, confidence, list_outliers=False)
-    result, mean_shifts = [], []
+    result = []
     for s in sorted(summaries, key=lambda s: s.level):
-        mean_shifts.append(float(s.mean_shift))
         start = _as_date(s.level)
         result.append(
             PeriodStats(
@@ -165,9 +169,10 @@ def _period_summaries(
                 ci_low=s.ci_low,
                 ci_high=s.ci_high,
                 partial=False,
+                mean_shift=s.mean_shift,
             )
         )
-    return result, mean_shifts
+    return result
 
 
 def _mark_partial(periods: list[PeriodStats], first: dt.date, last: dt.date) -> list[PeriodStats]:
@@ -237,16 +242,13 @@ def _period_line(
 
 
 def _fit_periods(
-    periods: list[PeriodStats], mean_shifts: list[float], first_time: dt.datetime, confidence: float
+    periods: list[PeriodStats], first_time: dt.datetime, confidence: float
 ) -> RegressionFit:
     """The trend line through the period means, one point per period."""
     days = np.array([_midpoint_days(p, first_time) for p in periods])
     # Each mean is median + mean_shift; differencing medians first keeps an offset's digits.
     offset = periods[len(periods) // 2].median
-    deviations = np.array(
-        [(p.median - offset) + shift for p, shift in zip(periods, mean_shifts, strict=True)]
-    )
-    return _period_line(days, offset, deviations, confidence)
+    return _period_line(days, offset, np.array(deviations(periods, offset)), confidence)
 
 
 def time_trend(frame_table: ir.Table, confidence: float = 0.95, period: str = "auto") -> Trend:
@@ -274,14 +276,15 @@ def time_trend(frame_table: ir.Table, confidence: float = 0.95, period: str = "a
     periods: list[PeriodStats] = []
     fit = None
     if first_time is not None:
-        periods, mean_shifts = _period_summaries(usable, chosen, confidence)
+        periods = _period_summaries(usable, chosen, confidence)
         periods = _mark_partial(periods, _as_date(first_time), _as_date(last_time))
-        fit = _fit_periods(periods, mean_shifts, first_time, confidence)
+        fit = _fit_periods(periods, first_time, confidence)
     slope = fit.slope if fit else None
     low = fit.slope_ci_low if fit else None
     high = fit.slope_ci_high if fit else None
     log.debug("trend by %s: %d periods from %d rows", chosen, len(periods), rows_used)
     return Trend(
+        key="trend",
         period=chosen,
         periods=tuple(periods),
         gaps=_gaps(periods, chosen),
@@ -299,4 +302,11 @@ def time_trend(frame_table: ir.Table, confidence: float = 0.95, period: str = "a
         change_per_30_days_ci_high=_scaled(high, CHANGE_WINDOW_DAYS),
         confidence=confidence,
         fit=fit,
+        usage=usage(
+            "trend",
+            rows_used,
+            "the trend over time",
+            "no usable date",
+            int(counts["valued_without_time"] or 0),
+        ),
     )

@@ -1,14 +1,10 @@
 """Two-way tables: the target summarised in every cell of two group variables.
 
 The engine does all per-row work. Cells and margins are computed by one call to
-``summarise_levels`` over a derived ``level`` column, so they share its exact
-median-shifted two-pass mean and sd (see groups.py) and its type 7 quantiles.
-
-The derived level is a tag (``c`` cell, ``r`` row margin, ``k`` column margin,
-``a`` total) followed, for cells, by ``<length of row label>:<row><column>``. The
-length prefix makes the key unambiguous whatever characters the labels hold
-(a separator character could occur inside a label); both DuckDB's ``length`` and
-Python's ``len`` count code points.
+the core ``summarise`` over the key columns (part, row, column) of four stacked
+copies of the rows, so they share its exact median-shifted two-pass mean and sd
+and its type 7 quantiles; a margin's missing level is a null key, joined back
+with IS NOT DISTINCT FROM.
 
 The standout combination (``CrossStandout``) is found afterwards from the cell
 summaries alone, so its cost depends on the number of cells, never on rows.
@@ -24,9 +20,11 @@ import ibis
 import ibis.expr.types as ir
 import numpy as np
 from scipy import linalg as scipy_linalg
-from scipy import stats as scipy_stats
 
-from briefgen.stats.groups import Summary, summarise_levels
+from briefgen.stats.core.analysis import one_row
+from briefgen.stats.core.shifted import deviations, t_quantile
+from briefgen.stats.core.summary import Summary, summarise
+from briefgen.stats.core.usage import RowUsage, usage
 
 log = logging.getLogger(__name__)
 
@@ -123,6 +121,7 @@ class CrossTable:
         table.cell("North", None).mean       # row margin
     """
 
+    key: str
     row_variable: str
     column_variable: str
     rows: tuple[str, ...]
@@ -134,7 +133,8 @@ class CrossTable:
     total: CrossCell | None
     rows_without_level: int
     confidence: float
-    standout: CrossStandout | None = None
+    standout: CrossStandout | None
+    usage: RowUsage
 
     def cell(self, row: str | None, column: str | None) -> CrossCell | None:
         """The cell at ``row`` and ``column``; None for either gives its margin."""
@@ -149,34 +149,23 @@ class CrossTable:
         return next((c for c in pool if c.row == row and c.column == column), None)
 
 
-def _tagged_levels(frame_table: ir.Table, row_column: str, col_column: str) -> ir.Table:
-    """Four stacked copies of the rows with both levels: cells, row and column margins, total."""
+def _stacked(frame_table: ir.Table, row_column: str, col_column: str) -> ir.Table:
+    """Four stacked copies of the rows with both levels: cells, row and column margins, total.
+
+    ``part`` tags the copy; a margin's missing level is null, so the core summary's
+    key columns (part, row, column) need no joined string keys.
+    """
     table = frame_table
     both = table.filter(table[row_column].notnull() & table[col_column].notnull())
     row, column = both[row_column].cast("string"), both[col_column].cast("string")
-    cell_key = ibis.literal(_CELL) + row.length().cast("string") + ":" + row + column
+    none = ibis.null().cast("string")
     parts = [
-        both.select(level=cell_key, y=both.y),
-        both.select(level=ibis.literal(_ROW) + row, y=both.y),
-        both.select(level=ibis.literal(_COLUMN) + column, y=both.y),
-        both.select(level=ibis.literal(_TOTAL), y=both.y),
+        both.select(part=ibis.literal(_CELL), row=row, column=column, y=both.y),
+        both.select(part=ibis.literal(_ROW), row=row, column=none, y=both.y),
+        both.select(part=ibis.literal(_COLUMN), row=none, column=column, y=both.y),
+        both.select(part=ibis.literal(_TOTAL), row=none, column=none, y=both.y),
     ]
     return ibis.union(*parts, distinct=False)
-
-
-def _decode(level: str) -> tuple[str, str | None, str | None]:
-    """Split a derived level into (tag, row, column)."""
-    tag, rest = level[0], level[1:]
-    if tag == _CELL:
-        colon = rest.index(":")
-        length = int(rest[:colon])
-        body = rest[colon + 1 :]
-        return tag, body[:length], body[length:]
-    if tag == _ROW:
-        return tag, rest, None
-    if tag == _COLUMN:
-        return tag, None, rest
-    return tag, None, None
 
 
 def _cell(summary: Summary, row: str | None, column: str | None, min_cell: int) -> CrossCell:
@@ -195,11 +184,12 @@ def _cell(summary: Summary, row: str | None, column: str | None, min_cell: int) 
     )
 
 
-def _rows_without_level(frame_table: ir.Table, row_column: str, col_column: str) -> int:
+def _rows_without_level(frame_table: ir.Table, row_column: str, col_column: str) -> tuple[int, int]:
+    """Rows lacking one of the two levels: all of them, and those with a target value."""
     table = frame_table
     lacking = table[row_column].isnull() | table[col_column].isnull()
-    count = table.aggregate(lacking=lacking.sum()).to_pyarrow().to_pylist()[0]["lacking"]
-    return int(count or 0)
+    row = one_row(table, {"all": lacking.sum(), "valued": (lacking & table.y.notnull()).sum()})
+    return int(row["all"] or 0), int(row["valued"] or 0)
 
 
 def cross_table(
@@ -217,11 +207,10 @@ def cross_table(
     columns as text; ``row_name`` and ``col_name`` are the user's names for them.
     Levels are listed in label order.
     """
-    stacked = _tagged_levels(frame_table, row_column, col_column)
-    summaries, _boxes = summarise_levels(stacked, confidence, list_outliers=False)
+    stacked = _stacked(frame_table, row_column, col_column)
+    keyed = summarise(stacked, ["part", "row", "column"], confidence, list_outliers=False)
     cells, row_margins, column_margins, total = [], [], [], None
-    for summary in summaries:
-        tag, row, column = _decode(str(summary.level))
+    for (tag, row, column), summary in keyed.summaries.items():
         cell = _cell(summary, row, column, min_cell)
         if tag == _CELL:
             cells.append(cell)
@@ -233,17 +222,17 @@ def cross_table(
             total = cell
     rows = tuple(sorted(c.row for c in row_margins))
     columns = tuple(sorted(c.column for c in column_margins))
-    unknown = [c for c in cells if c.row not in rows or c.column not in columns]
-    if unknown:
-        # Would mean the engine's string length disagrees with Python's code points.
-        raise RuntimeError(f"two-way table keys could not be decoded: {unknown[:3]}")
     row_index = {label: i for i, label in enumerate(rows)}
     column_index = {label: i for i, label in enumerate(columns)}
     cells.sort(key=lambda c: (row_index[c.row], column_index[c.column]))
     row_margins.sort(key=lambda c: row_index[c.row])
     column_margins.sort(key=lambda c: column_index[c.column])
     log.debug("two-way table %s × %s: %d cells", row_name, col_name, len(cells))
+    without, without_valued = _rows_without_level(frame_table, row_column, col_column)
+    used = total.n if total else 0
+    pair = f"{row_name} × {col_name}"
     return CrossTable(
+        key=f"cross-{row_name}-{col_name}",
         row_variable=row_name,
         column_variable=col_name,
         rows=rows,
@@ -253,17 +242,17 @@ def cross_table(
         row_margins=tuple(row_margins),
         column_margins=tuple(column_margins),
         total=total,
-        rows_without_level=_rows_without_level(frame_table, row_column, col_column),
+        rows_without_level=without,
         confidence=confidence,
         standout=find_standout(cells, confidence),
+        usage=usage(
+            f"cross:{pair}",
+            used,
+            f"the table of {pair}",
+            "no value in one of the two groups",
+            without_valued,
+        ),
     )
-
-
-def _deviation(cell: CrossCell, reference: float) -> float:
-    """Cell mean − reference, as (median − reference) + mean_shift to keep every digit."""
-    if cell.median is not None and cell.mean_shift is not None:
-        return (cell.median - reference) + cell.mean_shift
-    return cell.mean - reference
 
 
 def _components(row_of: np.ndarray, column_of: np.ndarray, rows: int) -> np.ndarray:
@@ -334,7 +323,7 @@ def find_standout(cells: list[CrossCell], confidence: float) -> CrossStandout | 
     rows = {label: i for i, label in enumerate(sorted({c.row for c in with_data}))}
     columns = {label: i for i, label in enumerate(sorted({c.column for c in with_data}))}
     reference = with_data[0].median if with_data[0].median is not None else with_data[0].mean
-    means = np.array([_deviation(c, reference) for c in with_data])
+    means = np.array(deviations(with_data, reference))
     fitted = additive_fit(
         np.array([rows[c.row] for c in with_data]),
         np.array([columns[c.column] for c in with_data]),
@@ -349,7 +338,7 @@ def find_standout(cells: list[CrossCell], confidence: float) -> CrossStandout | 
     for i in trusted:
         cell = with_data[i]
         excess = float(means[i] - fitted[i])
-        quantile = float(scipy_stats.t.ppf(0.5 + adjusted / 2, cell.n - 1))
+        quantile = t_quantile(adjusted, cell.n - 1)
         half = quantile * cell.sd / math.sqrt(cell.n)
         low, high = excess - half, excess + half
         found.append(

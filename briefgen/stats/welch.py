@@ -15,7 +15,8 @@ from itertools import combinations
 
 from scipy import stats as scipy_stats
 
-from briefgen.stats.groups import Summary
+from briefgen.stats.core.shifted import anchored, deviations, mean_difference
+from briefgen.stats.core.summary import Summary
 
 
 @dataclass(frozen=True, slots=True)
@@ -55,35 +56,9 @@ class ClassicalAnova:
     r_squared: float | None
 
 
-def _anchored(summary: Summary) -> tuple[float, float]:
-    """The mean as (anchor, shift), anchor + shift = mean: the median and mean − median.
-
-    Falls back to (mean, 0) for a summary built without ``mean_shift``.
-    """
-    if summary.mean_shift is None or summary.median is None:
-        return summary.mean, 0.0
-    return summary.median, summary.mean_shift
-
-
-def _mean_difference(a: Summary, b: Summary) -> float:
-    """mean(a) − mean(b) without rounding either mean to the data's offset first."""
-    anchor_a, shift_a = _anchored(a)
-    anchor_b, shift_b = _anchored(b)
-    return (anchor_a - anchor_b) + (shift_a - shift_b)
-
-
-def _deviations(summaries: Sequence[Summary], reference: float) -> list[float]:
-    """Each level's mean − ``reference``, computed from its median and shift."""
-    deviations = []
-    for summary in summaries:
-        anchor, shift = _anchored(summary)
-        deviations.append((anchor - reference) + shift)
-    return deviations
-
-
 def welch_pair(a: Summary, b: Summary, confidence: float = 0.95) -> PairwiseComparison:
     """Welch's t-test and interval for mean(a) − mean(b); needs n ≥ 2 in both."""
-    difference = _mean_difference(a, b)
+    difference = mean_difference(a, b)
     share_a, share_b = a.sd**2 / a.n, b.sd**2 / b.n
     variance = share_a + share_b
     if variance <= 0:
@@ -109,11 +84,11 @@ def welch_anova(summaries: Sequence[Summary]) -> tuple[float, float, float, floa
     k = len(summaries)
     weights = [s.n / s.sd**2 for s in summaries]
     total_weight = sum(weights)
-    deviations = _deviations(summaries, _anchored(summaries[0])[0])
-    weighted_mean = sum(w * d for w, d in zip(weights, deviations, strict=True)) / total_weight
-    between = sum(
-        w * (d - weighted_mean) ** 2 for w, d in zip(weights, deviations, strict=True)
-    ) / (k - 1)
+    offsets = deviations(summaries, anchored(summaries[0])[0])
+    weighted_mean = sum(w * d for w, d in zip(weights, offsets, strict=True)) / total_weight
+    between = sum(w * (d - weighted_mean) ** 2 for w, d in zip(weights, offsets, strict=True)) / (
+        k - 1
+    )
     lam = sum(
         (1 - w / total_weight) ** 2 / (s.n - 1) for w, s in zip(weights, summaries, strict=True)
     )
@@ -126,9 +101,9 @@ def classical_anova(summaries: Sequence[Summary]) -> ClassicalAnova:
     """Equal-variance one-way ANOVA from per-level n, mean and sd (levels with n ≥ 1)."""
     used = [s for s in summaries if s.n >= 1 and s.mean is not None]
     total = sum(s.n for s in used)
-    deviations = _deviations(used, _anchored(used[0])[0])
-    grand = sum(s.n * d for s, d in zip(used, deviations, strict=True)) / total
-    ss_between = sum(s.n * (d - grand) ** 2 for s, d in zip(used, deviations, strict=True))
+    offsets = deviations(used, anchored(used[0])[0])
+    grand = sum(s.n * d for s, d in zip(used, offsets, strict=True)) / total
+    ss_between = sum(s.n * (d - grand) ** 2 for s, d in zip(used, offsets, strict=True))
     ss_within = sum((s.n - 1) * s.sd**2 for s in used if s.n >= 2 and s.sd is not None)
     df_between, df_within = len(used) - 1, total - len(used)
     f = p_value = residual_sd = r_squared = None

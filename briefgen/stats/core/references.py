@@ -1,0 +1,31 @@
+"""One median-reference pass per predictor, shared by the line fits and the correlations.
+
+Sums are shifted by these medians (data values) before squaring, so they stay exact
+at large offsets; computing them once saves an engine scan per brief.
+"""
+
+from __future__ import annotations
+
+import ibis.expr.types as ir
+
+from briefgen.stats.core.analysis import one_row
+
+
+def median_references(table: ir.Table, predictors: list[str]) -> dict:
+    """Per predictor i: rows with both values ``n{i}``, medians ``x_ref{i}``/``y_ref{i}``
+    over them, the range ``x_min{i}``/``x_max{i}``, and ``lacking{i}``, rows with a
+    target value but no predictor value."""
+    expressions = {}
+    y = table.y
+    for i, column in enumerate(predictors):
+        x = table[column]
+        both = x.notnull() & y.notnull()
+        expressions |= {
+            f"n{i}": both.sum(),
+            f"x_ref{i}": x.quantile(0.5, where=both),
+            f"y_ref{i}": y.quantile(0.5, where=both),
+            f"x_min{i}": x.min(where=both),
+            f"x_max{i}": x.max(where=both),
+            f"lacking{i}": (y.notnull() & x.isnull()).sum(),
+        }
+    return one_row(table, expressions)
