@@ -17,6 +17,7 @@ from briefgen.figures.relationship import relationship_chart
 from briefgen.figures.theme import Chart
 from briefgen.figures.trend import trend_chart
 from briefgen.findings import (
+    SETTLED,
     Finding,
     Wording,
     cautions,
@@ -69,6 +70,11 @@ class Document:
     sections: tuple[Section, ...]
     appendix: tuple[Table, ...]
     method: tuple[str, ...]
+
+    @property
+    def findings(self) -> tuple[Finding, ...]:
+        """Every finding the brief shows, in page order (each section's, once)."""
+        return tuple(s.finding for s in self.sections if s.finding is not None)
 
 
 def label_for(spec: BriefSpec, column: str) -> str:
@@ -253,11 +259,8 @@ def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label
     not_shown = [f"{s.heading}: not shown, {_why_empty(s.key)}." for s in empty]
     found = [s.finding for s in sections if s.finding is not None]
     # Page 1 leads with clear results; "no clear …" and untested findings follow them.
-    unsettled = [
-        f for f in found if any(w in f.headline.lower() for w in ("no clear", "not tested"))
-    ]
-    clear = [f for f in found if f not in unsettled]
-    unclear = unsettled
+    clear = [f for f in found if f.claim in SETTLED]
+    unclear = [f for f in found if f.claim not in SETTLED]
     key = [*clear, *unclear][:MAX_KEY_FINDINGS]
     names = {g: name_for(spec, g) for g in spec.groups}
     subtitle = f"{words.label} · {rows_label} · {fmt_count(stats.accounting.rows_read)} rows"

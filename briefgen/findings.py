@@ -7,7 +7,7 @@ left out, many comparisons), a caution is written beside it.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_level, fmt_percent, p_text
 from briefgen.stats import BriefStats
@@ -25,15 +25,38 @@ SMALL_GROUP = (
 SIGNIFICANCE = 0.05  # conventional threshold (Fisher 1925); findings also print the p-value itself
 
 
+# Claims a finding can make; the document orders page 1 by these, never by reading text.
+CLAIMS = ("summary", "difference", "rise", "fall", "none", "not_tested")
+SETTLED = ("summary", "difference", "rise", "fall")
+
+
 @dataclass(frozen=True, slots=True)
 class Finding:
-    """One sentence for the reader, the certainty behind it, and the figure that backs it."""
+    """One sentence for the reader, the certainty behind it, and the figure that backs it.
+
+    Also the claim as data, for stats.json and the document: ``kind`` (the analysis),
+    ``claim`` (one of CLAIMS), ``variables`` (data column names, target excluded),
+    ``levels`` (in the order the sentence names them), the ``estimate`` with its
+    interval, the ``test`` the verdict rests on with its ``p_value`` and, where the
+    test was adjusted for multiplicity, ``p_adjusted``.
+    """
 
     headline: str
     text: str
     certainty: str
     figure: str | None = None
     detail: str = ""  # a further sentence for the section; page 1 shows only the certainty
+    key: str = ""
+    kind: str = ""
+    claim: str = "summary"
+    variables: tuple[str, ...] = ()
+    levels: tuple[str, ...] = ()
+    estimate: float | None = None
+    ci_low: float | None = None
+    ci_high: float | None = None
+    test: str | None = None
+    p_value: float | None = None
+    p_adjusted: float | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -79,6 +102,12 @@ def overall_finding(stats: BriefStats, words: Wording, figure: str | None = None
         text=text,
         certainty=f"Interval from Student's t at {words.level_name} confidence.",
         figure=figure,
+        key="overall",
+        kind="overall",
+        estimate=o.mean,
+        ci_low=o.ci_low,
+        ci_high=o.ci_high,
+        test="student_t",
     )
 
 
@@ -111,22 +140,30 @@ def group_finding(
     # compare_groups returns None exactly when fewer than two levels have n ≥ 2.
     if len(usable) < 2 or comparison is None:
         return None
-    figure = f"group-{group.variable}"
+    figure = group.key
     test, p = _test_phrase(comparison)
+    data = {"key": group.key, "kind": "groups", "variables": (group.variable,)}
     if p is None:
-        return _untested_finding(comparison, words, name, figure)
+        return replace(_untested_finding(comparison, words, name, figure), **data)
     if comparison.leans_on == "rank":
         finding = _median_finding(usable, words, name, test, p, figure)
+        data["test"] = comparison.rank_test.test
     else:
         finding = _mean_finding(usable, comparison, words, name, test, p, figure)
-    return _with_disagreement(finding, comparison)
+        data["test"] = comparison.test
+    return replace(_with_disagreement(finding, comparison), p_value=p, **data)
 
 
 def _mean_finding(usable, comparison, words, name, test, p, figure) -> Finding:
     high = max(usable, key=lambda s: s.mean)
     low = min(usable, key=lambda s: s.mean)
     pair = _pair(comparison, high.level, low.level)
-    gap = high.mean - low.mean
+    # The pair holds the exact difference (median + shift); rounded means would lose digits.
+    if pair is None:
+        gap = high.mean - low.mean
+    else:
+        gap = pair.difference if pair.level_a == high.level else -pair.difference
+    low_end = high_end = None
     text = (
         f"By {name}, {high.level} has the highest mean {words.lower}, {words.value(high.mean)}, and "
         f"{low.level} the lowest, {words.value(low.mean)}: a gap of {words.value(gap)}"
@@ -154,7 +191,17 @@ def _mean_finding(usable, comparison, words, name, test, p, figure) -> Finding:
     else:
         headline = f"By {name}: no clear difference"
         certainty = _chance_phrase(name, test, p)
-    return Finding(headline=headline, text=text, certainty=certainty, figure=figure)
+    return Finding(
+        headline=headline,
+        text=text,
+        certainty=certainty,
+        figure=figure,
+        claim="difference" if clear else "none",
+        levels=(high.level, low.level),
+        estimate=gap,
+        ci_low=low_end if clear else None,
+        ci_high=high_end if clear else None,
+    )
 
 
 def _median_finding(usable, words, name, test, p, figure) -> Finding:
@@ -175,7 +222,16 @@ def _median_finding(usable, words, name, test, p, figure) -> Finding:
         headline = f"By {name}: no clear difference"
         certainty = _chance_phrase(name, test, p)
     detail = "Values are strongly skewed within groups, so the brief relies on a rank-based test."
-    return Finding(headline=headline, text=text, certainty=certainty, figure=figure, detail=detail)
+    return Finding(
+        headline=headline,
+        text=text,
+        certainty=certainty,
+        figure=figure,
+        detail=detail,
+        claim="difference" if p < SIGNIFICANCE else "none",
+        levels=(high.level, low.level),
+        estimate=high.median - low.median,
+    )
 
 
 def _chance_phrase(name: str, test: str, p: float) -> str:
@@ -201,7 +257,7 @@ def _with_disagreement(finding: Finding, comparison: GroupComparison) -> Finding
     )
     note = f"Means and typical values tell different stories here: {other}."
     detail = f"{finding.detail} {note}".strip()
-    return Finding(finding.headline, finding.text, finding.certainty, finding.figure, detail)
+    return replace(finding, detail=detail)
 
 
 def _untested_finding(
@@ -213,6 +269,7 @@ def _untested_finding(
         text=f"The levels of {name} could not be compared with a test: {reason.rstrip('.')}.",
         certainty="Read the table of levels instead; no statement of certainty is possible.",
         figure=figure,
+        claim="not_tested",
     )
 
 
@@ -228,7 +285,17 @@ def cross_finding(
     standout = getattr(cross, "standout", None)
     if standout is None:
         return None
-    figure = f"cross-{cross.row_variable}-{cross.column_variable}"
+    figure = cross.key
+    data = {
+        "key": cross.key,
+        "kind": "cross",
+        "variables": (cross.row_variable, cross.column_variable),
+        "levels": (standout.row, standout.column),
+        "estimate": standout.excess,
+        "ci_low": standout.excess_ci_low,
+        "ci_high": standout.excess_ci_high,
+        "test": "bonferroni_t_interval",
+    }
     pair = f"{standout.row} with {standout.column}"
     interval = (
         f"{words.interval(standout.excess_ci_low, standout.excess_ci_high)}, adjusted for the "
@@ -256,6 +323,8 @@ def cross_finding(
             certainty="The combination itself matters, beyond each part; that says where, not why.",
             figure=figure,
             detail=detail,
+            claim="difference",
+            **data,
         )
     text = (
         f"Each combination of {row_name} and {column_name} is close to what its two parts predict added "
@@ -267,6 +336,8 @@ def cross_finding(
         certainty="No departure is larger than chance would produce across this many combinations.",
         figure=figure,
         detail=detail,
+        claim="none",
+        **data,
     )
 
 
@@ -287,7 +358,19 @@ def trend_finding(trend: Trend, words: Wording) -> Finding | None:
     else:
         headline = f"No clear trend in {words.lower} over time"
         certainty = "The interval includes zero: the data show no steady rise or fall."
-    return Finding(headline=headline, text=text, certainty=certainty, figure="trend")
+    return Finding(
+        headline=headline,
+        text=text,
+        certainty=certainty,
+        figure="trend",
+        key=trend.key,
+        kind="trend",
+        claim=("rise" if trend.change > 0 else "fall") if clear else "none",
+        estimate=trend.change,
+        ci_low=trend.change_ci_low,
+        ci_high=trend.change_ci_high,
+        test="ols_period_means",
+    )
 
 
 def _signed(value: float | None, words: Wording) -> str:
@@ -340,7 +423,20 @@ def fit_finding(
         if excludes_zero
         else f"No clear link with {x_lower}"
     )
-    return Finding(headline=headline, text=text, certainty=certainty, figure=f"fit-{fit.predictor}")
+    return Finding(
+        headline=headline,
+        text=text,
+        certainty=certainty,
+        figure=f"fit-{fit.predictor}",
+        key=f"fit-{fit.predictor}",
+        kind="fit",
+        claim=("rise" if fit.slope > 0 else "fall") if excludes_zero else "none",
+        variables=(fit.predictor,),
+        estimate=fit.slope,
+        ci_low=fit.slope_ci_low,
+        ci_high=fit.slope_ci_high,
+        test="ols_slope",
+    )
 
 
 def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[str]:

@@ -45,15 +45,15 @@ def build_brief(
     stats = compute(source, spec)
     files: dict[str, bytes] = {}
     formats = spec.output.formats
+    doc = build_document(stats, spec, built_on, rows_label=Path(spec.data.path).name)
     if "html" in formats or "pdf" in formats:
-        doc = build_document(stats, spec, built_on, rows_label=Path(spec.data.path).name)
         html = render_html(doc, spec)
         if "html" in formats:
             files["brief.html"] = html.encode("utf-8")
         if "pdf" in formats:
             files["brief.pdf"] = render_pdf(html, built_on)
     if "json" in formats:
-        files["stats.json"] = render_json(stats, spec, built_on).encode("utf-8")
+        files["stats.json"] = render_json(stats, spec, built_on, doc.findings).encode("utf-8")
     written = write_outputs(spec.output_dir(out_dir), files)
     log.info("wrote %s", ", ".join(str(p) for p in written))
     return BuildResult(stats=stats, files=tuple(written))

@@ -13,6 +13,7 @@ import json
 import logging
 import math
 import os
+from collections.abc import Sequence
 from importlib import resources
 
 import jinja2
@@ -22,6 +23,7 @@ from briefgen import __version__
 from briefgen.config import BriefSpec
 from briefgen.document import Document
 from briefgen.errors import RenderError
+from briefgen.findings import Finding
 from briefgen.stats import BriefStats
 
 log = logging.getLogger(__name__)
@@ -98,8 +100,33 @@ def _plain(value):
     return value
 
 
-def render_json(stats: BriefStats, spec: BriefSpec, built_on: str) -> str:
-    """Every number the brief shows, at full precision, with documented names (README)."""
+# Finding fields stats.json carries, in this order (README, "Finding — findings[]").
+FINDING_FIELDS = (
+    "key",
+    "kind",
+    "claim",
+    "variables",
+    "levels",
+    "estimate",
+    "ci_low",
+    "ci_high",
+    "test",
+    "p_value",
+    "p_adjusted",
+    "headline",
+    "text",
+    "certainty",
+)
+
+
+def render_json(
+    stats: BriefStats, spec: BriefSpec, built_on: str, findings: Sequence[Finding] = ()
+) -> str:
+    """Every number the brief shows, at full precision, with documented names (README).
+
+    ``findings`` are the brief's findings in page order, as data for downstream
+    readers (the email body, a dashboard, a test) that should not parse the HTML.
+    """
     payload = {
         "briefgen_version": __version__,
         "title": spec.title,
@@ -108,6 +135,10 @@ def render_json(stats: BriefStats, spec: BriefSpec, built_on: str) -> str:
         "target": spec.target,
         "groups": list(spec.groups),
         "predictors": list(spec.predictors),
+        "findings": [
+            {name: _plain(getattr(finding, name)) for name in FINDING_FIELDS}
+            for finding in findings
+        ],
         "stats": _plain(stats),
     }
     # The sampled rows themselves stay out of the JSON; how many were drawn goes in.
