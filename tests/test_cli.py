@@ -8,6 +8,7 @@ from pathlib import Path
 
 import pandas as pd
 import pytest
+from folder_state import tree
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -87,12 +88,11 @@ def test_unknown_key_names_the_line(tmp_path, capsys):
 def test_failed_build_leaves_the_previous_brief_untouched(tmp_path, capsys):
     config = _write_case(tmp_path)
     assert main(["build", str(config)]) == 0
-    before = {p.name: p.read_bytes() for p in (tmp_path / "out").iterdir()}
+    before = tree(tmp_path / "out")
     shutil.copy(tmp_path / "data.csv", tmp_path / "good.csv")
     (tmp_path / "data.csv").write_text("site,distance,minutes,label\nnorth,1,not-a-number,x\n")
     assert main(["build", str(config)]) != 0
-    after = {p.name: p.read_bytes() for p in (tmp_path / "out").iterdir()}
-    assert after == before
+    assert tree(tmp_path / "out") == before
 
 
 def test_empty_target_is_reported(tmp_path, capsys):
