@@ -191,3 +191,42 @@ def test_repeated_header_name_is_refused(tmp_path, capsys):
     assert main(["build", str(config)]) == 3
     err = " ".join(capsys.readouterr().err.split())
     assert "repeats the column name 'minutes'" in err
+
+
+def test_console_flags_go_before_or_after_the_command(tmp_path, capsys):
+    config = _write_case(tmp_path)
+    assert main(["build", str(config), "--quiet"]) == 0
+    assert capsys.readouterr().out == ""
+    assert main(["--verbose", "check", str(config)]) == 0
+    assert main(["check", str(config), "--verbose"]) == 0
+
+
+def test_a_usage_error_has_its_own_exit_code(capsys):
+    with pytest.raises(SystemExit) as stop:
+        main(["build"])
+    assert stop.value.code == 64  # sysexits.h EX_USAGE, apart from config errors (2)
+
+
+def test_console_markup_in_a_column_name_is_printed_as_text(tmp_path, capsys):
+    config = _write_case(tmp_path, target="'[bold]x[/bold][/]'")
+    assert main(["build", str(config)]) == 3
+    err = capsys.readouterr().err
+    assert "[bold]x[/bold][/]" in err and "Traceback" not in err
+
+
+@pytest.mark.parametrize("epoch", ["99999999999999999", "yesterday"])
+def test_a_bad_source_date_epoch_is_a_config_error(tmp_path, capsys, monkeypatch, epoch):
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", epoch)
+    config = _write_case(tmp_path)
+    assert main(["build", str(config)]) == 2
+    assert "SOURCE_DATE_EPOCH" in capsys.readouterr().err
+
+
+def test_output_dir_takes_date_tokens(tmp_path, monkeypatch):
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", "1796169600")  # 2026-12-02 00:00 UTC
+    config = _write_case(tmp_path)
+    config.write_text(config.read_text().replace("dir: out", "dir: briefs/{date}"))
+    assert main(["build", str(config)]) == 0
+    assert (tmp_path / "briefs" / "2026-12-02" / "stats.json").is_file()
+    config.write_text(config.read_text().replace("{date}", "{weekday}"))
+    assert main(["check", str(config)]) == 2
