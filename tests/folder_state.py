@@ -20,6 +20,8 @@ def tree(folder: Path) -> dict[str, object]:
                 entries[key] = ("link", os.readlink(path))
             elif path.is_dir():
                 entries[key] = None
+            elif key == LOCK_NAME:
+                entries[key] = "lock"  # holds the last holder's pid and time, not brief bytes
             else:
                 entries[key] = path.read_bytes()
     return entries
