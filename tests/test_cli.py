@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import json
+import os
 import shutil
 from pathlib import Path
 
@@ -230,3 +231,30 @@ def test_output_dir_takes_date_tokens(tmp_path, monkeypatch):
     assert (tmp_path / "briefs" / "2026-12-02" / "stats.json").is_file()
     config.write_text(config.read_text().replace("{date}", "{weekday}"))
     assert main(["check", str(config)]) == 2
+
+
+@pytest.mark.parametrize(
+    ("path", "expected"),
+    [
+        ("/dev/zero", "is not a regular file"),
+        (".", "is not a regular file"),
+        ("book.xlsx", "looks like an Excel workbook"),
+        ("rows.json", "looks like JSON"),
+    ],
+)
+def test_only_regular_files_in_known_formats_are_read(tmp_path, capsys, path, expected):
+    (tmp_path / "book.xlsx").write_bytes(b"PK\x03\x04")
+    (tmp_path / "rows.json").write_text('{"a": 1}\n')
+    config = _write_case(tmp_path, path=path)
+    assert main(["build", str(config)]) == 3
+    err = " ".join(capsys.readouterr().err.split())
+    assert expected in err and "Traceback" not in err
+
+
+def test_data_roots_are_enforced_when_set(tmp_path, capsys, monkeypatch):
+    config = _write_case(tmp_path)
+    monkeypatch.setenv("BRIEFGEN_DATA_ROOTS", str(tmp_path / "elsewhere"))
+    assert main(["check", str(config)]) == 3
+    assert "BRIEFGEN_DATA_ROOTS" in capsys.readouterr().err
+    monkeypatch.setenv("BRIEFGEN_DATA_ROOTS", os.pathsep.join(["/nonexistent", str(tmp_path)]))
+    assert main(["check", str(config)]) == 0
