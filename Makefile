@@ -40,8 +40,11 @@ test: system-deps $(TEST_STAMP) lint
 	$(BIN)/pytest -q
 
 # Rebuild the committed example brief with a fixed date, so unchanged output gives unchanged bytes.
+# Copied out of the published run so example_output/ stays three plain files, not run folders.
 example: system-deps $(STAMP)
-	SOURCE_DATE_EPOCH=1796169600 $(BIN)/briefgen demo --out example_output
+	rm -rf out/example
+	SOURCE_DATE_EPOCH=1796169600 $(BIN)/briefgen demo --out out/example
+	cp -L out/example/brief.html out/example/brief.pdf out/example/stats.json example_output/
 
 bench: $(TEST_STAMP)
 	$(BIN)/python benchmarks/run.py

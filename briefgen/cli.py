@@ -1,50 +1,97 @@
 """Command line: ``briefgen build``, ``check``, ``init`` and ``demo``.
 
 The only place that prints, colours output and turns errors into exit codes.
+Text that may come from the data (column names, levels, paths) is always printed
+as plain text, never parsed as console markup.
 """
 
 from __future__ import annotations
 
 import argparse
+import datetime as dt
 import logging
+import signal
 import sys
 import time
+from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
 
 from rich.console import Console
+from rich.text import Text
 
 from briefgen import __version__
 from briefgen.config import load_spec
-from briefgen.errors import BriefError
+from briefgen.errors import BriefError, DeliveryError
 
+# sysexits.h: EX_USAGE for a malformed command line, EX_SOFTWARE for an internal error.
+EXIT_USAGE = 64
 EXIT_INTERNAL = 70
-EXIT_INTERRUPTED = 130
+# Shell convention: 128 + the signal's number.
+EXIT_INTERRUPTED = 128 + signal.SIGINT
+EXIT_TERMINATED = 128 + signal.SIGTERM
+
+
+class Stopped(BaseException):
+    """SIGTERM arrived (a scheduler's timeout, or systemd stopping the unit)."""
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message: str):  # argparse's own exit code 2 would read as a config error
+        self.print_usage(sys.stderr)
+        self.exit(EXIT_USAGE, f"{self.prog}: error: {message}\n")
+
+
+def _console_options() -> argparse.ArgumentParser:
+    # SUPPRESS keeps a subcommand's copy from resetting a flag given before the subcommand.
+    options = argparse.ArgumentParser(add_help=False)
+    for flag, text in [
+        ("--verbose", "log each step"),
+        ("--quiet", "print errors only"),
+        ("--debug", "show tracebacks of internal errors"),
+    ]:
+        options.add_argument(flag, action="store_true", default=argparse.SUPPRESS, help=text)
+    return options
 
 
 def _parser() -> argparse.ArgumentParser:
-    parser = argparse.ArgumentParser(
-        prog="briefgen", description="Turn a dataset and a YAML config into a PDF and HTML brief."
+    common = _console_options()
+    parser = _Parser(
+        prog="briefgen",
+        description="Turn a dataset and a YAML config into a PDF and HTML brief.",
+        parents=[common],
     )
     parser.add_argument("--version", action="version", version=f"briefgen {__version__}")
-    parser.add_argument("--verbose", action="store_true", help="log each stage")
-    parser.add_argument("--debug", action="store_true", help="show tracebacks of internal errors")
     commands = parser.add_subparsers(dest="command", required=True, metavar="COMMAND")
-    build = commands.add_parser("build", help="build the brief a config describes")
+    build = commands.add_parser(
+        "build", help="build the brief a config describes", parents=[common]
+    )
     build.add_argument("config", type=Path, help="YAML config file")
     build.add_argument("--out", type=Path, help="output folder (overrides output.dir)")
+    build.add_argument(
+        "--wait",
+        type=float,
+        default=0.0,
+        metavar="SECONDS",
+        help="wait this long for another run on the same output folder (default: do not wait)",
+    )
+    build.add_argument("--no-send", action="store_true", help="publish the brief but send no email")
     check = commands.add_parser(
-        "check", help="validate a config and its data columns, build nothing"
+        "check", help="validate a config and its data columns, build nothing", parents=[common]
     )
     check.add_argument("config", type=Path)
-    init = commands.add_parser("init", help="propose a config from a data file's columns")
+    init = commands.add_parser(
+        "init", help="propose a config from a data file's columns", parents=[common]
+    )
     init.add_argument("data", type=Path, help="CSV or Parquet file")
     init.add_argument(
         "--config", type=Path, default=Path("brief.yaml"), help="file to write (default brief.yaml)"
     )
     init.add_argument("--title", help="the brief's title")
     init.add_argument("--force", action="store_true", help="overwrite an existing config")
-    demo = commands.add_parser("demo", help="build the demo brief from the invented courier data")
+    demo = commands.add_parser(
+        "demo", help="build the demo brief from the invented courier data", parents=[common]
+    )
     demo.add_argument(
         "--out", type=Path, default=Path("out/demo"), help="output folder (default out/demo)"
     )
@@ -56,62 +103,175 @@ def demo_config_path() -> Path:
     return Path(str(resources.files("briefgen").joinpath("demo/demo.yaml")))
 
 
-def _build(config: Path, out: Path | None, console: Console) -> None:
-    from briefgen.pipeline import build_brief
+@dataclass
+class _Run:
+    """What a build has reached, so the message after a stop or failure can be true."""
+
+    folder: Path | None = None
+    before: str | None = None
+    emailing: bool = False
+
+    def outcome(self) -> str:
+        from briefgen.deliver import current_run
+
+        if self.folder is None:
+            return "nothing was written."
+        if current_run(self.folder) == self.before:
+            return f"the previous brief in {self.folder} is unchanged."
+        unsent = "; the email was not sent" if self.emailing else ""
+        return f"the new brief was already published in {self.folder}{unsent}."
+
+
+class _StageLines(logging.Handler):
+    """One line per stage: elapsed seconds on a terminal, a UTC timestamp otherwise (logs)."""
+
+    def __init__(self, console: Console) -> None:
+        super().__init__(logging.INFO)
+        self.console = console
+        self.started = time.monotonic()
+
+    def emit(self, record: logging.LogRecord) -> None:
+        message = record.getMessage()
+        if self.console.is_terminal:
+            seconds = time.monotonic() - self.started
+            self.console.print(Text(f"{seconds:6.1f} s  {message}", style="dim"), soft_wrap=True)
+        else:
+            stamp = dt.datetime.now(dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+            self.console.file.write(f"{stamp} briefgen: {message}\n")
+            self.console.file.flush()
+
+
+def _say(console: Console, *parts: str | tuple[str, str]) -> None:
+    """Print plain text; ("text", "style") pieces are styled, never parsed as markup."""
+    console.print(Text.assemble(*parts), soft_wrap=True)
+
+
+def _build(
+    config: Path, out: Path | None, wait: float, send: bool, console: Console, run: _Run
+) -> None:
+    from briefgen.deliver import current_run, output_lock
+    from briefgen.pipeline import build_brief, build_date, stage
 
     started = time.perf_counter()
     spec = load_spec(config)
-    result = build_brief(spec, out)
-    seconds = time.perf_counter() - started
-    for path in result.files:
-        console.print(f"  wrote {path} ({path.stat().st_size / 1024:,.0f} KiB)")
-    console.print(
-        f"[green]brief built[/green] in {seconds:.1f} s from {result.stats.accounting.rows_read:,} rows"
-    )
+    built_on = build_date()
+    email = spec.delivery.email if send else None
+    if email is not None:
+        from briefgen.deliver.mail import credentials
+
+        credentials(email)  # a missing secret stops the run before anything is built
+    folder = spec.output_dir(out, built_on)
+    with output_lock(folder, wait):
+        run.folder, run.before = folder, current_run(folder)
+        result = build_brief(spec, folder, built_on=built_on)
+        for path in result.files:
+            _say(console, f"  wrote {path} ({path.stat().st_size / 1024:,.0f} KiB)")
+        _say(
+            console,
+            ("brief built", "green"),
+            f" in {time.perf_counter() - started:.1f} s from "
+            f"{result.stats.accounting.rows_read:,} rows",
+        )
+        if email is not None:
+            from briefgen.deliver.mail import send as send_email
+
+            run.emailing = True
+            stage.info("sending brief.pdf to %d recipients", len(email.recipients))
+            stats = folder / "stats.json"
+            count = send_email(
+                email,
+                (folder / "brief.pdf").resolve(),
+                stats.resolve() if stats.exists() else None,
+                spec.title,
+                built_on,
+            )
+            run.emailing = False
+            _say(console, ("sent", "green"), f" brief.pdf to {count} recipients")
 
 
 def _check(config: Path, console: Console) -> None:
+    from briefgen.pipeline import build_date
     from briefgen.source import open_source
 
     spec = load_spec(config)
+    build_date()  # a bad SOURCE_DATE_EPOCH is a config problem too
     source = open_source(spec)
-    console.print(f"[green]ok[/green]: {config} is valid and {source.label} has every named column")
+    _say(console, ("ok", "green"), f": {config} is valid and {source.label} has every named column")
+    email = spec.delivery.email
+    if email is not None:
+        from briefgen.deliver.mail import credentials
+
+        login = credentials(email)
+        _say(
+            console,
+            f"  email: {len(email.recipients)} recipients via {email.host}:{email.smtp_port} "
+            f"({email.security}{', with login' if login else ''})",
+        )
+
+
+def _configure_logging(args: argparse.Namespace, errors: Console) -> None:
+    verbose = getattr(args, "verbose", False)
+    logging.basicConfig(
+        level=logging.INFO if verbose else logging.WARNING, format="%(name)s: %(message)s"
+    )
+    stages = logging.getLogger("briefgen.stage")
+    stages.propagate = False
+    stages.handlers = [] if getattr(args, "quiet", False) else [_StageLines(errors)]
+    stages.setLevel(logging.INFO)
+
+
+def _on_sigterm(signum, frame):
+    raise Stopped
 
 
 def main(argv: list[str] | None = None) -> int:
     args = _parser().parse_args(argv)
-    logging.basicConfig(
-        level=logging.INFO if args.verbose else logging.WARNING, format="%(name)s: %(message)s"
-    )
-    console = Console(stderr=False, highlight=False)
+    quiet = getattr(args, "quiet", False)
+    console = Console(stderr=False, highlight=False, quiet=quiet)
     errors = Console(stderr=True, highlight=False)
+    _configure_logging(args, errors)
+    previous = signal.signal(signal.SIGTERM, _on_sigterm)
+    run = _Run()
     try:
         if args.command == "build":
-            _build(args.config, args.out, console)
+            _build(args.config, args.out, args.wait, not args.no_send, console, run)
         elif args.command == "check":
             _check(args.config, console)
         elif args.command == "init":
             from briefgen.starter import write_starter
 
             path = write_starter(args.data, args.config, args.title, args.force)
-            console.print(f"[green]wrote[/green] {path}; check it, then run: briefgen build {path}")
+            _say(console, ("wrote", "green"), f" {path}; check it, then run: briefgen build {path}")
         elif args.command == "demo":
-            _build(demo_config_path(), args.out, console)
+            _build(demo_config_path(), args.out, 0.0, False, console, run)
+    except DeliveryError as exc:
+        _say(
+            errors,
+            ("email not sent: ", "bold red"),
+            f"{exc} The brief is published in {run.folder}.",
+        )
+        return exc.exit_code
     except BriefError as exc:
-        errors.print(f"[bold red]error:[/bold red] {exc}", markup=True, soft_wrap=True)
+        _say(errors, ("error: ", "bold red"), str(exc))
         return exc.exit_code
     except KeyboardInterrupt:
-        errors.print("interrupted; the previous brief is unchanged.")
+        _say(errors, ("interrupted", "bold red"), f" (SIGINT); {run.outcome()}")
         return EXIT_INTERRUPTED
+    except Stopped:
+        _say(errors, ("stopped", "bold red"), f" (SIGTERM); {run.outcome()}")
+        return EXIT_TERMINATED
     except Exception as exc:  # noqa: BLE001 - last line of defence: one sentence, no traceback
-        if args.debug:
+        if getattr(args, "debug", False):
             raise
-        errors.print(
-            f"[bold red]internal error:[/bold red] {type(exc).__name__}: {exc}. The previous brief is "
-            "unchanged; rerun with --debug and report the traceback.",
-            soft_wrap=True,
+        _say(
+            errors,
+            ("internal error: ", "bold red"),
+            f"{type(exc).__name__}: {exc}. {run.outcome()[:1].upper()}{run.outcome()[1:]} "
+            "Rerun with --debug and report the traceback.",
         )
         return EXIT_INTERNAL
+    finally:
+        signal.signal(signal.SIGTERM, previous)
     return 0
 
 

@@ -7,8 +7,10 @@ to open the YAML file in an editor.
 
 from __future__ import annotations
 
+import datetime as dt
 import difflib
 import os
+import re
 from pathlib import Path
 from typing import Any, Literal
 
@@ -18,6 +20,32 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_valida
 from briefgen.errors import ConfigError
 
 Period = Literal["auto", "day", "week", "month"]
+
+# Tokens output.dir and the email subject may carry, filled from the build date.
+DATE_TOKENS = ("date", "year", "month", "day")
+_TOKEN = re.compile(r"\{([^{}]*)\}")
+
+
+def check_tokens(text: str, allowed: tuple[str, ...] = DATE_TOKENS) -> str:
+    """Refuse a ``{token}`` that ``fill_tokens`` would not know, naming the ones it does."""
+    for name in _TOKEN.findall(text):
+        if name not in allowed:
+            known = ", ".join(f"{{{token}}}" for token in allowed)
+            raise ValueError(f"unknown token '{{{name}}}'; use {known}")
+    return text
+
+
+def fill_tokens(text: str, built_on: str, **extra: str) -> str:
+    """Replace ``{date}`` (2026-12-02), ``{year}``, ``{month}``, ``{day}`` and ``extra`` names."""
+    day = dt.date.fromisoformat(built_on)
+    values = {
+        "date": day.isoformat(),
+        "year": f"{day.year:04d}",
+        "month": f"{day.month:02d}",
+        "day": f"{day.day:02d}",
+    } | extra
+    # A plain substitution, not str.format: a template must not reach attributes.
+    return _TOKEN.sub(lambda match: values.get(match.group(1), match.group(0)), text)
 
 
 class _Strict(BaseModel):
@@ -52,6 +80,12 @@ class OutputSpec(_Strict):
         default_factory=lambda: ["html", "pdf", "json"]
     )
     paper: Literal["a4", "letter"] = "a4"
+    keep: int = Field(default=7, ge=1)
+
+    @field_validator("dir")
+    @classmethod
+    def _dir_tokens(cls, value: str) -> str:
+        return check_tokens(value)
 
     @field_validator("formats")
     @classmethod
@@ -59,6 +93,81 @@ class OutputSpec(_Strict):
         if not value:
             raise ValueError("list at least one of html, pdf, json")
         return list(dict.fromkeys(value))
+
+
+class EmailSpec(_Strict):
+    """Send brief.pdf by SMTP after publishing; secrets come only from the environment."""
+
+    host: str
+    port: int | None = Field(default=None, ge=1, le=65535)
+    security: Literal["starttls", "tls", "none"] = "starttls"
+    sender: str
+    recipients: list[str] = Field(min_length=1)
+    subject: str = "{title} ({date})"
+    user_env: str | None = None
+    password_env: str | None = None
+    ca_file: str | None = None
+    timeout: float = Field(default=30.0, gt=0)
+
+    @field_validator("sender")
+    @classmethod
+    def _one_address(cls, value: str) -> str:
+        if "@" not in value or any(c in value for c in ",;\r\n"):
+            raise ValueError("give one email address, such as briefs@example.org")
+        return value
+
+    @field_validator("recipients")
+    @classmethod
+    def _addresses(cls, value: list[str]) -> list[str]:
+        for address in value:
+            cls._one_address(address)
+        return value
+
+    @field_validator("subject")
+    @classmethod
+    def _subject_tokens(cls, value: str) -> str:
+        return check_tokens(value, (*DATE_TOKENS, "title"))
+
+    @field_validator("user_env", "password_env")
+    @classmethod
+    def _env_name(cls, value: str | None) -> str | None:
+        if value is not None and not re.fullmatch(r"[A-Za-z_][A-Za-z0-9_]*", value):
+            raise ValueError("name an environment variable (letters, digits, _), not a value")
+        return value
+
+    @property
+    def smtp_port(self) -> int:
+        # Submission on 587 with STARTTLS (RFC 6409, RFC 3207); implicit TLS on 465 (RFC 8314).
+        return self.port or {"starttls": 587, "tls": 465, "none": 25}[self.security]
+
+
+class DeliverySpec(_Strict):
+    """What happens after the brief is published."""
+
+    email: EmailSpec | None = None
+
+    @field_validator("email", mode="before")
+    @classmethod
+    def _no_secrets_in_the_file(cls, value: Any) -> Any:
+        if isinstance(value, dict):
+            for key in ("password", "user"):
+                if key in value:
+                    raise ValueError(
+                        f"'{key}' cannot be written in the config; put it in an environment "
+                        f"variable and name that variable in '{key}_env'"
+                    )
+        return value
+
+    @field_validator("email")
+    @classmethod
+    def _secret_needs_encryption(cls, value: EmailSpec | None) -> EmailSpec | None:
+        if value is not None and value.password_env and value.security == "none":
+            raise ValueError(
+                "a password must not travel unencrypted; use security: starttls or tls"
+            )
+        if value is not None and value.password_env and not value.user_env:
+            raise ValueError("password_env needs user_env, the variable holding the login name")
+        return value
 
 
 class BriefSpec(_Strict):
@@ -79,7 +188,16 @@ class BriefSpec(_Strict):
     max_levels: int = Field(default=8, ge=2, le=20)
     engine: EngineSpec = Field(default_factory=EngineSpec)
     output: OutputSpec = Field(default_factory=OutputSpec)
+    delivery: DeliverySpec = Field(default_factory=DeliverySpec)
     source_file: str = ""
+
+    @field_validator("delivery")
+    @classmethod
+    def _email_needs_the_pdf(cls, value: DeliverySpec, info) -> DeliverySpec:
+        output = info.data.get("output")
+        if value.email is not None and output is not None and "pdf" not in output.formats:
+            raise ValueError("email sends brief.pdf; add pdf to output.formats")
+        return value
 
     @field_validator("cross")
     @classmethod
@@ -131,10 +249,11 @@ class BriefSpec(_Strict):
             return list(self.cross)
         return [(self.groups[0], self.groups[1])] if len(self.groups) >= 2 else []
 
-    def output_dir(self, override: str | Path | None = None) -> Path:
+    def output_dir(self, override: str | Path | None = None, built_on: str | None = None) -> Path:
         if override is not None:
             return Path(override)
-        path = Path(self.output.dir).expanduser()
+        folder = fill_tokens(self.output.dir, built_on) if built_on else self.output.dir
+        path = Path(folder).expanduser()
         return path if path.is_absolute() else Path(os.path.normpath(self.base_dir / path))
 
 

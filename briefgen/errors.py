@@ -36,3 +36,15 @@ class RenderError(BriefError):
     """The brief could not be written."""
 
     exit_code = 4
+
+
+class OutputBusyError(BriefError):
+    """Another run holds the output folder's lock."""
+
+    exit_code = 5
+
+
+class DeliveryError(BriefError):
+    """The brief was published but the email could not be delivered."""
+
+    exit_code = 6

@@ -15,11 +15,14 @@ from pathlib import Path
 from briefgen.config import BriefSpec
 from briefgen.deliver import write_outputs
 from briefgen.document import build_document
+from briefgen.errors import ConfigError
 from briefgen.render import render_html, render_json, render_pdf
 from briefgen.source import open_source
 from briefgen.stats import BriefStats, compute
 
 log = logging.getLogger(__name__)
+# One line per stage, for the console (progress on a terminal, timestamped lines in logs).
+stage = logging.getLogger("briefgen.stage")
 
 
 @dataclass(frozen=True, slots=True)
@@ -30,10 +33,19 @@ class BuildResult:
 
 def build_date() -> str:
     """Today, or SOURCE_DATE_EPOCH when set, so scheduled and repeated builds can match byte for byte."""
-    epoch = os.environ.get("SOURCE_DATE_EPOCH")
-    if epoch and epoch.isdigit():
+    epoch = os.environ.get("SOURCE_DATE_EPOCH", "").strip()
+    if not epoch:
+        return dt.date.today().isoformat()
+    # reproducible-builds.org's SOURCE_DATE_EPOCH spec: an integer count of seconds since
+    # 1970-01-01 UTC; a malformed value should stop the build with an error.
+    try:
         return dt.datetime.fromtimestamp(int(epoch), tz=dt.UTC).date().isoformat()
-    return dt.date.today().isoformat()
+    except (ValueError, OverflowError, OSError):
+        shown = epoch if len(epoch) <= 24 else epoch[:24] + "…"
+        raise ConfigError(
+            f"SOURCE_DATE_EPOCH={shown!r} is not a date briefgen can use; set it to whole "
+            "seconds since 1970-01-01 UTC up to the year 9999 (e.g. 1796169600), or unset it."
+        ) from None
 
 
 def build_brief(
@@ -41,8 +53,11 @@ def build_brief(
 ) -> BuildResult:
     """Build every configured format, then write them all at once."""
     built_on = built_on or build_date()
+    stage.info("reading %s", spec.data.path)
     source = open_source(spec)
+    stage.info("computing statistics")
     stats = compute(source, spec)
+    stage.info("rendering %s", ", ".join(spec.output.formats))
     files: dict[str, bytes] = {}
     formats = spec.output.formats
     doc = build_document(stats, spec, built_on, rows_label=Path(spec.data.path).name)
@@ -54,6 +69,7 @@ def build_brief(
             files["brief.pdf"] = render_pdf(html, built_on)
     if "json" in formats:
         files["stats.json"] = render_json(stats, spec, built_on, doc.findings).encode("utf-8")
-    written = write_outputs(spec.output_dir(out_dir), files)
+    stage.info("publishing")
+    written = write_outputs(spec.output_dir(out_dir, built_on), files, keep=spec.output.keep)
     log.info("wrote %s", ", ".join(str(p) for p in written))
     return BuildResult(stats=stats, files=tuple(written))

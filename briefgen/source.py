@@ -9,6 +9,7 @@ from __future__ import annotations
 import csv
 import difflib
 import logging
+import os
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -52,10 +53,44 @@ def open_source(spec: BriefSpec) -> Source:
     label = spec.data.path
     if not path.exists():
         raise DataError(f"{label}: data file not found (looked in {path}); check data.path.")
+    check_readable_file(path, label, spec.data.format)
     table = read_table(path, spec.data_format, label, connect(spec.engine))
     check_columns(table, spec, label)
     log.info("opened %s with %d columns", label, len(table.columns))
     return Source(table=table, label=label)
+
+
+# Extensions of formats people export and briefgen does not read, with what to do instead.
+_OTHER_FORMATS = {
+    "xlsx": "an Excel workbook",
+    "xls": "an Excel workbook",
+    "ods": "a spreadsheet",
+    "json": "JSON",
+    "jsonl": "JSON lines",
+}
+
+
+def check_readable_file(path: Path, label: str, declared: str | None) -> None:
+    """Only a regular file, inside BRIEFGEN_DATA_ROOTS when set, in a format briefgen reads."""
+    # A device or FIFO would be read until memory runs out, a folder fails obscurely.
+    if not path.is_file():
+        raise DataError(
+            f"{label}: is not a regular file (a folder, device or pipe); point data.path at a "
+            "CSV or Parquet file."
+        )
+    roots = [r for r in os.environ.get("BRIEFGEN_DATA_ROOTS", "").split(os.pathsep) if r]
+    real = path.resolve()
+    if roots and not any(real.is_relative_to(Path(root).resolve()) for root in roots):
+        raise DataError(
+            f"{label}: is outside the data folders BRIEFGEN_DATA_ROOTS allows; move the file "
+            "there or ask whoever set that variable."
+        )
+    kind = _OTHER_FORMATS.get(path.suffix.lower().lstrip("."))
+    if kind and declared is None:
+        raise DataError(
+            f"{label}: looks like {kind}, which briefgen does not read; export it as CSV "
+            "(.csv) or Parquet (.parquet), the formats that work."
+        )
 
 
 def read_table(

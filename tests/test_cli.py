@@ -3,11 +3,13 @@
 from __future__ import annotations
 
 import json
+import os
 import shutil
 from pathlib import Path
 
 import pandas as pd
 import pytest
+from folder_state import tree
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -87,12 +89,11 @@ def test_unknown_key_names_the_line(tmp_path, capsys):
 def test_failed_build_leaves_the_previous_brief_untouched(tmp_path, capsys):
     config = _write_case(tmp_path)
     assert main(["build", str(config)]) == 0
-    before = {p.name: p.read_bytes() for p in (tmp_path / "out").iterdir()}
+    before = tree(tmp_path / "out")
     shutil.copy(tmp_path / "data.csv", tmp_path / "good.csv")
     (tmp_path / "data.csv").write_text("site,distance,minutes,label\nnorth,1,not-a-number,x\n")
     assert main(["build", str(config)]) != 0
-    after = {p.name: p.read_bytes() for p in (tmp_path / "out").iterdir()}
-    assert after == before
+    assert tree(tmp_path / "out") == before
 
 
 def test_empty_target_is_reported(tmp_path, capsys):
@@ -191,3 +192,69 @@ def test_repeated_header_name_is_refused(tmp_path, capsys):
     assert main(["build", str(config)]) == 3
     err = " ".join(capsys.readouterr().err.split())
     assert "repeats the column name 'minutes'" in err
+
+
+def test_console_flags_go_before_or_after_the_command(tmp_path, capsys):
+    config = _write_case(tmp_path)
+    assert main(["build", str(config), "--quiet"]) == 0
+    assert capsys.readouterr().out == ""
+    assert main(["--verbose", "check", str(config)]) == 0
+    assert main(["check", str(config), "--verbose"]) == 0
+
+
+def test_a_usage_error_has_its_own_exit_code(capsys):
+    with pytest.raises(SystemExit) as stop:
+        main(["build"])
+    assert stop.value.code == 64  # sysexits.h EX_USAGE, apart from config errors (2)
+
+
+def test_console_markup_in_a_column_name_is_printed_as_text(tmp_path, capsys):
+    config = _write_case(tmp_path, target="'[bold]x[/bold][/]'")
+    assert main(["build", str(config)]) == 3
+    err = capsys.readouterr().err
+    assert "[bold]x[/bold][/]" in err and "Traceback" not in err
+
+
+@pytest.mark.parametrize("epoch", ["99999999999999999", "yesterday"])
+def test_a_bad_source_date_epoch_is_a_config_error(tmp_path, capsys, monkeypatch, epoch):
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", epoch)
+    config = _write_case(tmp_path)
+    assert main(["build", str(config)]) == 2
+    assert "SOURCE_DATE_EPOCH" in capsys.readouterr().err
+
+
+def test_output_dir_takes_date_tokens(tmp_path, monkeypatch):
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", "1796169600")  # 2026-12-02 00:00 UTC
+    config = _write_case(tmp_path)
+    config.write_text(config.read_text().replace("dir: out", "dir: briefs/{date}"))
+    assert main(["build", str(config)]) == 0
+    assert (tmp_path / "briefs" / "2026-12-02" / "stats.json").is_file()
+    config.write_text(config.read_text().replace("{date}", "{weekday}"))
+    assert main(["check", str(config)]) == 2
+
+
+@pytest.mark.parametrize(
+    ("path", "expected"),
+    [
+        ("/dev/zero", "is not a regular file"),
+        (".", "is not a regular file"),
+        ("book.xlsx", "looks like an Excel workbook"),
+        ("rows.json", "looks like JSON"),
+    ],
+)
+def test_only_regular_files_in_known_formats_are_read(tmp_path, capsys, path, expected):
+    (tmp_path / "book.xlsx").write_bytes(b"PK\x03\x04")
+    (tmp_path / "rows.json").write_text('{"a": 1}\n')
+    config = _write_case(tmp_path, path=path)
+    assert main(["build", str(config)]) == 3
+    err = " ".join(capsys.readouterr().err.split())
+    assert expected in err and "Traceback" not in err
+
+
+def test_data_roots_are_enforced_when_set(tmp_path, capsys, monkeypatch):
+    config = _write_case(tmp_path)
+    monkeypatch.setenv("BRIEFGEN_DATA_ROOTS", str(tmp_path / "elsewhere"))
+    assert main(["check", str(config)]) == 3
+    assert "BRIEFGEN_DATA_ROOTS" in capsys.readouterr().err
+    monkeypatch.setenv("BRIEFGEN_DATA_ROOTS", os.pathsep.join(["/nonexistent", str(tmp_path)]))
+    assert main(["check", str(config)]) == 0

@@ -73,4 +73,7 @@ def test_wheel_installs_and_builds_the_demo(tmp_path):
         check=True,
         capture_output=True,
     )
-    assert {p.name for p in out.iterdir()} == {"brief.html", "brief.pdf", "stats.json"}
+    # The stable names are links through `current` to the published run (deliver/publish.py).
+    briefs = {"brief.html", "brief.pdf", "stats.json"}
+    assert {p.name for p in out.iterdir()} == briefs | {"current", "runs", ".briefgen.lock"}
+    assert all((out / name).stat().st_size > 0 for name in briefs)
