@@ -29,6 +29,7 @@ from briefgen.findings import (
     wording_for,
 )
 from briefgen.numbers import decimals_for, fmt_count, fmt_level
+from briefgen.present.family import Family, build_family, family_sentence
 from briefgen.stats import BriefStats, CrossTable, RegressionFit, Trend
 from briefgen.tables import (
     Table,
@@ -66,10 +67,12 @@ class Document:
     built_on: str
     paper: str
     key_findings: tuple[Finding, ...]
+    family_note: str
     cautions: tuple[str, ...]
     sections: tuple[Section, ...]
     appendix: tuple[Table, ...]
     method: tuple[str, ...]
+    family: Family
 
     @property
     def findings(self) -> tuple[Finding, ...]:
@@ -104,6 +107,12 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
         "rank tests are run as well and the brief leans on them.",
         "Straight-line fits are ordinary least squares from centred sums; correlations are Pearson's r and "
         "Spearman's ρ. Whether a slope differs between groups is an F test of separate against parallel lines.",
+        f"Every test behind a claim on page 1 (each group comparison, each two-way interaction, the trend, "
+        f"each predictor's direction) is adjusted with the others by Holm's method at {fmt_level(1 - stats.confidence)}. "
+        "A level is called highest or lowest only where Holm-adjusted pairwise tests (Welch's t, or Dunn's "
+        "test on ranks) separate it from the next; a direction is claimed only where the straight line and "
+        "the rank correlation agree and are both clear, and a group variable that reverses or removes the "
+        "slope within its levels is named as the likely confounder.",
     ]
     if stats.crosses:
         notes.append(
@@ -119,7 +128,7 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
 
 
 def _group_sections(
-    stats: BriefStats, spec: BriefSpec, words: Wording
+    stats: BriefStats, spec: BriefSpec, words: Wording, family: Family
 ) -> tuple[list[Section], list[Table]]:
     """One section per group, and the pairwise tests of each compared group for the appendix."""
     label, decimals, confidence = words.label, words.unit_decimals, stats.confidence
@@ -133,7 +142,7 @@ def _group_sections(
             if group.boxes
             else None
         )
-        finding = group_finding(group, comparison, words, name)
+        finding = group_finding(group, comparison, words, name, family)
         sections.append(
             Section(
                 f"group-{group.variable}",
@@ -149,11 +158,11 @@ def _group_sections(
     return sections, pairwise
 
 
-def _cross_section(cross: CrossTable, spec: BriefSpec, words: Wording) -> Section:
+def _cross_section(cross: CrossTable, spec: BriefSpec, words: Wording, family: Family) -> Section:
     """The two-way means of one pair of groups."""
     label, decimals = words.label, words.unit_decimals
     names = (name_for(spec, cross.row_variable), name_for(spec, cross.column_variable))
-    finding = cross_finding(cross, words, *names)
+    finding = cross_finding(cross, words, *names, family)
     return Section(
         f"cross-{cross.row_variable}-{cross.column_variable}",
         f"{label} by {names[0]} and {names[1]}",
@@ -164,19 +173,24 @@ def _cross_section(cross: CrossTable, spec: BriefSpec, words: Wording) -> Sectio
     )
 
 
-def _trend_section(trend: Trend, words: Wording, confidence: float) -> Section:
+def _trend_section(trend: Trend, words: Wording, confidence: float, family: Family) -> Section:
     """The target over time; its period-by-period table goes to the appendix."""
     return Section(
         "trend",
         f"{words.label} over time",
-        trend_finding(trend, words),
+        trend_finding(trend, words, family),
         trend_chart(trend, words.label, words.unit_decimals, confidence),
         None,
     )
 
 
 def _fit_section(
-    stats: BriefStats, fit: RegressionFit, words: Wording, x_label: str, names: dict[str, str]
+    stats: BriefStats,
+    fit: RegressionFit,
+    words: Wording,
+    x_label: str,
+    names: dict[str, str],
+    family: Family,
 ) -> Section:
     """The straight-line fit on one predictor, with its correlation and per-group slopes."""
     label = words.label
@@ -188,6 +202,7 @@ def _fit_section(
         slopes,
         words,
         x_label,
+        family,
     )
     chart = relationship_chart(
         fit,
@@ -213,12 +228,12 @@ def _overall_section(stats: BriefStats, words: Wording) -> Section:
 
 
 def _sections(
-    stats: BriefStats, spec: BriefSpec, words: Wording
+    stats: BriefStats, spec: BriefSpec, words: Wording, family: Family
 ) -> tuple[list[Section], list[Table]]:
     """Every analysis as a section in reading order, and the detail tables for the appendix."""
-    sections, appendix = _group_sections(stats, spec, words)
+    sections, appendix = _group_sections(stats, spec, words, family)
     sections.insert(0, _overall_section(stats, words))
-    sections += [_cross_section(cross, spec, words) for cross in stats.crosses]
+    sections += [_cross_section(cross, spec, words, family) for cross in stats.crosses]
     appendix += [
         cross_cells_table(
             cross,
@@ -228,12 +243,12 @@ def _sections(
         for cross in stats.crosses
     ]
     if stats.trend is not None:
-        sections.append(_trend_section(stats.trend, words, stats.confidence))
+        sections.append(_trend_section(stats.trend, words, stats.confidence, family))
         appendix.append(trend_table(stats.trend, words))
     labels = {p: label_for(spec, p) for p in spec.predictors}
     names = {g: name_for(spec, g) for g in spec.groups}
     sections += [
-        _fit_section(stats, fit, words, labels[fit.predictor], names) for fit in stats.fits
+        _fit_section(stats, fit, words, labels[fit.predictor], names, family) for fit in stats.fits
     ]
     if stats.fits:
         appendix.append(fits_table(stats, labels, words))
@@ -252,7 +267,8 @@ def _why_empty(key: str) -> str:
 def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label: str) -> Document:
     """Assemble findings, charts and tables into the page model."""
     words = wording_for(stats, label_for(spec, spec.target))
-    sections, appendix = _sections(stats, spec, words)
+    family = build_family(stats)
+    sections, appendix = _sections(stats, spec, words, family)
     # An analysis with neither a finding nor a chart has nothing to show; say why instead.
     empty = [s for s in sections if s.finding is None and s.chart is None and s.table is None]
     sections = [s for s in sections if s not in empty]
@@ -271,8 +287,10 @@ def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label
         built_on=built_on,
         paper=spec.output.paper,
         key_findings=tuple(key),
+        family_note=family_sentence(family),
         cautions=tuple(not_shown + cautions(stats, words, names)),
         sections=tuple(sections),
         appendix=tuple(appendix),
         method=method_notes(stats, spec),
+        family=family,
     )

@@ -9,9 +9,23 @@ from __future__ import annotations
 
 from dataclasses import dataclass, replace
 
-from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_level, fmt_percent, p_text
+from briefgen.numbers import (
+    decimals_for,
+    fmt,
+    fmt_count,
+    fmt_level,
+    fmt_p,
+    fmt_percent,
+    fmt_step,
+    p_text,
+    readable_step,
+)
+from briefgen.present.direction import confounding
+from briefgen.present.family import Family
+from briefgen.present.order import Ordering, order_levels
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
+from briefgen.stats.core.summary import Summary
 from briefgen.stats.correlation import Correlation
 from briefgen.stats.groups import GroupResult
 from briefgen.stats.regression import RegressionFit
@@ -22,7 +36,6 @@ from briefgen.stats.twoway import CrossTable
 SMALL_GROUP = (
     30  # common practice, no published source: below ~30 a mean's interval is wide and fragile
 )
-SIGNIFICANCE = 0.05  # conventional threshold (Fisher 1925); findings also print the p-value itself
 
 
 # Claims a finding can make; the document orders page 1 by these, never by reading text.
@@ -111,144 +124,185 @@ def overall_finding(stats: BriefStats, words: Wording, figure: str | None = None
     )
 
 
-def _pair(comparison: GroupComparison, a: str, b: str):
-    for pair in comparison.pairwise:
-        if {pair.level_a, pair.level_b} == {a, b}:
-            return pair
-    return None
-
-
-def _test_phrase(comparison: GroupComparison) -> tuple[str, float | None]:
-    """Name of the test the brief leans on, and its p-value."""
+def _test_phrase(comparison: GroupComparison) -> str:
+    """Name of the test the brief leans on."""
     if comparison.leans_on == "rank" and comparison.rank_test is not None:
         name = "Mann–Whitney" if comparison.rank_test.test == "mann_whitney" else "Kruskal–Wallis"
-        return f"{name} rank test", comparison.rank_test.p_value
-    name = "Welch's t-test" if comparison.test == "welch_t" else "Welch's ANOVA"
-    return name, comparison.p_value
+        return f"{name} rank test"
+    return "Welch's t-test" if comparison.test == "welch_t" else "Welch's ANOVA"
+
+
+def _adjusted_phrase(p: float, p_adjusted: float | None, family: Family) -> str:
+    """'p = 0.004, 0.03 after adjusting for the 9 questions tested' (or just the p)."""
+    if p_adjusted is None or family.size <= 1:
+        return p_text(p)
+    return (
+        f"{p_text(p)}, {fmt_p(p_adjusted)} after adjusting for the {family.size} questions "
+        "this brief tests"
+    )
 
 
 def group_finding(
-    group: GroupResult, comparison: GroupComparison | None, words: Wording, name: str
+    group: GroupResult,
+    comparison: GroupComparison | None,
+    words: Wording,
+    name: str,
+    family: Family,
 ) -> Finding | None:
-    """Highest against lowest level, worded by the test the brief leans on.
+    """Which levels are highest and lowest, as far as the adjusted tests separate them.
 
     Welch's tests compare means, so the sentence compares means; rank tests compare
-    typical values, so the sentence compares medians; a sentence never pairs one
-    test's verdict with the other's numbers.
+    where values tend to lie, so the sentence orders levels by mean rank and quotes
+    medians; a sentence never pairs one test's verdict with the other's numbers.
     """
     usable = [s for s in group.summaries if s.n >= 2 and s.mean is not None]
     # compare_groups returns None exactly when fewer than two levels have n ≥ 2.
     if len(usable) < 2 or comparison is None:
         return None
-    figure = group.key
-    test, p = _test_phrase(comparison)
+    test_name = _test_phrase(comparison)
+    test, p = group_p_value(comparison)
     data = {"key": group.key, "kind": "groups", "variables": (group.variable,)}
     if p is None:
-        return replace(_untested_finding(comparison, words, name, figure), **data)
-    if comparison.leans_on == "rank":
-        finding = _median_finding(usable, words, name, test, p, figure)
-        data["test"] = comparison.rank_test.test
-    else:
-        finding = _mean_finding(usable, comparison, words, name, test, p, figure)
-        data["test"] = comparison.test
-    return replace(_with_disagreement(finding, comparison), p_value=p, **data)
-
-
-def _mean_finding(usable, comparison, words, name, test, p, figure) -> Finding:
-    high = max(usable, key=lambda s: s.mean)
-    low = min(usable, key=lambda s: s.mean)
-    pair = _pair(comparison, high.level, low.level)
-    # The pair holds the exact difference (median + shift); rounded means would lose digits.
-    if pair is None:
-        gap = high.mean - low.mean
-    else:
-        gap = pair.difference if pair.level_a == high.level else -pair.difference
-    low_end = high_end = None
-    text = (
-        f"By {name}, {high.level} has the highest mean {words.lower}, {words.value(high.mean)}, and "
-        f"{low.level} the lowest, {words.value(low.mean)}: a gap of {words.value(gap)}"
+        return replace(_untested_finding(comparison, words, name, group.key), **data)
+    p_adjusted = family.adjusted(group.key)
+    clear = family.passes(group.key)
+    ordering = order_levels(usable, comparison, family.alpha, clear, group.shown.other_label)
+    finding = _order_finding(ordering, usable, words, name, clear)
+    verdict = f"{test_name}, {_adjusted_phrase(p, p_adjusted, family)}"
+    certainty = (
+        f"Differences this large would be unlikely if {name} made no difference ({verdict})."
+        if clear
+        else _chance_phrase(name, verdict)
     )
-    clear = p < SIGNIFICANCE
-    # The interval is shown only when the overall test finds a difference: highest against
-    # lowest is chosen after seeing the data, so its own interval alone would overstate certainty.
-    if clear and pair is not None and pair.ci_low is not None:
-        # The pair's difference is level_a − level_b; turn it round so the gap reads as high − low.
-        low_end, high_end = (
-            (pair.ci_low, pair.ci_high)
-            if pair.level_a == high.level
-            else (-pair.ci_high, -pair.ci_low)
+    finding = replace(
+        finding,
+        certainty=certainty,
+        figure=group.key,
+        test=test,
+        p_value=p,
+        p_adjusted=p_adjusted,
+        **data,
+    )
+    return _with_disagreement(finding, comparison, family.alpha)
+
+
+def group_p_value(comparison: GroupComparison) -> tuple[str, float | None]:
+    """The test a group's verdict rests on, and its p-value."""
+    if comparison.leans_on == "rank" and comparison.rank_test is not None:
+        return comparison.rank_test.test, comparison.rank_test.p_value
+    return comparison.test, comparison.p_value
+
+
+def _listed(levels: tuple[str, ...]) -> str:
+    names = [str(level) for level in levels]
+    return names[0] if len(names) == 1 else ", ".join(names[:-1]) + " and " + names[-1]
+
+
+def _order_finding(
+    ordering: Ordering, usable: list[Summary], words: Wording, name: str, clear: bool
+) -> Finding:
+    """Sentence and headline from an ordering; certainty and test data are added by the caller."""
+    by_level = {s.level: s for s in usable}
+    high, low = by_level[ordering.highest], by_level[ordering.lowest]
+    rank = ordering.measure == "rank"
+    value = (lambda s: words.value(s.median)) if rank else (lambda s: words.value(s.mean))
+    if rank:
+        text = (
+            f"By {name}, values tend to be highest for {high.level} (median {value(high)}) and "
+            f"lowest for {low.level} (median {value(low)}); their means are "
+            f"{words.value(high.mean)} and {words.value(low.mean)}."
         )
-        text += f" ({words.level_name} interval {words.interval(low_end, high_end)})"
-    if low.mean and low.mean > 0 and abs(gap / low.mean) >= 0.005:
-        text += f", or {fmt_percent(gap / low.mean)} more"
-    text += "."
-    if clear:
-        headline = (
-            f"By {name}: {high.level} highest ({words.value(high.mean)}), "
-            f"{low.level} lowest ({words.value(low.mean)})"
-        )
-        certainty = f"A gap this large would be unlikely if {name} made no difference ({test}, {p_text(p)})."
+        if high.median == low.median:
+            text += (
+                " The medians are equal; the rank test compares where all values lie, "
+                "not only the middle one."
+            )
     else:
-        headline = f"By {name}: no clear difference"
-        certainty = _chance_phrase(name, test, p)
+        text = (
+            f"By {name}, {high.level} has the highest mean {words.lower}, {value(high)}, and "
+            f"{low.level} the lowest, {value(low)}: a gap of {words.value(ordering.gap)}"
+        )
+        if clear and ordering.ends_apart and ordering.gap_ci_low is not None:
+            text += (
+                f" ({fmt_level(ordering.pair_confidence)} interval "
+                f"{words.interval(ordering.gap_ci_low, ordering.gap_ci_high)}, widened because "
+                f"this pair was picked as the most different of {ordering.pairs})"
+            )
+        if low.mean and low.mean > 0 and abs(ordering.gap / low.mean) >= 0.005:
+            text += f", or {fmt_percent(ordering.gap / low.mean)} more"
+        text += "."
+    estimate = (high.median - low.median) if rank else ordering.gap
+    base = {"text": text, "certainty": "", "levels": (high.level, low.level)}
+    if not clear:
+        return Finding(
+            headline=f"By {name}: no clear difference", claim="none", estimate=estimate, **base
+        )
+    if rank and high.median == low.median:
+        # Equal medians in brackets would contradict "highest"; the means show the gap.
+        value = lambda s: f"mean {words.value(s.mean)}"  # noqa: E731
+    headline, text_more = _order_headline(ordering, by_level, value, name, rank)
+    interval = {}
+    if not rank and ordering.ends_apart:
+        interval = {"ci_low": ordering.gap_ci_low, "ci_high": ordering.gap_ci_high}
+    levels = ordering.top[:1] + ordering.bottom[:1]
+    if not ordering.single_top or not ordering.single_bottom:
+        levels = (*ordering.top, *[lv for lv in ordering.bottom if lv not in ordering.top])
     return Finding(
         headline=headline,
-        text=text,
-        certainty=certainty,
-        figure=figure,
-        claim="difference" if clear else "none",
-        levels=(high.level, low.level),
-        estimate=gap,
-        ci_low=low_end if clear else None,
-        ci_high=high_end if clear else None,
+        text=f"{text}{text_more}",
+        certainty="",
+        claim="difference",
+        levels=levels,
+        estimate=estimate,
+        **interval,
     )
 
 
-def _median_finding(usable, words, name, test, p, figure) -> Finding:
-    high = max(usable, key=lambda s: s.median)
-    low = min(usable, key=lambda s: s.median)
-    text = (
-        f"By {name}, the typical (median) {words.lower} is highest for {high.level}, "
-        f"{words.value(high.median)}, and lowest for {low.level}, {words.value(low.median)}; "
-        f"their means are {words.value(high.mean)} and {words.value(low.mean)}."
-    )
-    if p < SIGNIFICANCE:
-        headline = (
-            f"By {name}: {high.level} typically highest ({words.value(high.median)}), "
-            f"{low.level} lowest ({words.value(low.median)})"
+def _order_headline(ordering, by_level, value, name, rank) -> tuple[str, str]:
+    """Headline naming only the order the adjusted pairwise tests support, and a note."""
+    high, low = by_level[ordering.highest], by_level[ordering.lowest]
+    word = "typically highest" if rank else "highest"
+    if ordering.flat:
+        return (
+            f"By {name}: levels differ in spread, not in their {'medians' if rank else 'means'}",
+            "",
         )
-        certainty = f"Values differ between levels of {name} more than chance would explain ({test}, {p_text(p)})."
-    else:
-        headline = f"By {name}: no clear difference"
-        certainty = _chance_phrase(name, test, p)
-    detail = "Values are strongly skewed within groups, so the brief relies on a rank-based test."
-    return Finding(
-        headline=headline,
-        text=text,
-        certainty=certainty,
-        figure=figure,
-        detail=detail,
-        claim="difference" if p < SIGNIFICANCE else "none",
-        levels=(high.level, low.level),
-        estimate=high.median - low.median,
+    if ordering.single_top and ordering.single_bottom:
+        return (
+            f"By {name}: {high.level} {word} ({value(high)}), {low.level} lowest ({value(low)})",
+            "",
+        )
+    if ordering.single_top:
+        note = f" {_listed(ordering.bottom)} are not clearly apart from each other at the bottom."
+        return f"By {name}: {high.level} {word} ({value(high)})", note
+    if ordering.single_bottom:
+        note = f" {_listed(ordering.top)} are not clearly apart from each other at the top."
+        return f"By {name}: {low.level} lowest ({value(low)})", note
+    note = (
+        f" No single level is clearly apart from its neighbours: {_listed(ordering.top)} are not "
+        f"told apart at the top, {_listed(ordering.bottom)} at the bottom."
     )
+    if ordering.ends_apart:
+        return (
+            f"By {name}: {high.level} above {low.level} ({value(high)} against {value(low)})",
+            note,
+        )
+    return f"By {name}: levels differ, but no single pair is clearly apart", note
 
 
-def _chance_phrase(name: str, test: str, p: float) -> str:
+def _chance_phrase(name: str, verdict: str) -> str:
     return (
-        f"Gaps this size could easily arise by chance ({test}, {p_text(p)}): the data do not show "
+        f"Gaps this size could easily arise by chance ({verdict}): the data do not show "
         f"that {name} matters, which is not the same as showing that it does not."
     )
 
 
-def _with_disagreement(finding: Finding, comparison: GroupComparison) -> Finding:
+def _with_disagreement(finding: Finding, comparison: GroupComparison, alpha: float) -> Finding:
     """Say so when the test on means and the test on ranks reach different verdicts."""
     ranks = comparison.rank_test
     if ranks is None or ranks.p_value is None or comparison.p_value is None:
         return finding
-    welch_clear = comparison.p_value < SIGNIFICANCE
-    rank_clear = ranks.p_value < SIGNIFICANCE
-    if welch_clear == rank_clear:
+    if (comparison.p_value < alpha) == (ranks.p_value < alpha):
         return finding
     other = (
         f"the test on means (Welch) gives {p_text(comparison.p_value)}"
@@ -274,13 +328,15 @@ def _untested_finding(
 
 
 def cross_finding(
-    cross: CrossTable, words: Wording, row_name: str, column_name: str
+    cross: CrossTable, words: Wording, row_name: str, column_name: str, family: Family
 ) -> Finding | None:
     """Whether one combination departs from what its two parts predict added together.
 
     The highest cell alone would mislead: it is high whenever its row and column are,
-    and it is the largest of many noisy cells. The standout result compares each cell
-    with the additive prediction at a level adjusted for the number of cells.
+    and it is the largest of many noisy cells. A combination is claimed only when the
+    interaction F test passes in the brief's family (on the log or rank scale for a
+    strongly skewed target) and the cell's own interval, adjusted for the number of
+    cells, excludes zero.
     """
     standout = getattr(cross, "standout", None)
     if standout is None:
@@ -294,7 +350,9 @@ def cross_finding(
         "estimate": standout.excess,
         "ci_low": standout.excess_ci_low,
         "ci_high": standout.excess_ci_high,
-        "test": "bonferroni_t_interval",
+        "test": f"interaction_f_{cross.interaction.scale}",
+        "p_value": cross.interaction.p_value,
+        "p_adjusted": family.adjusted(cross.key),
     }
     pair = f"{standout.row} with {standout.column}"
     interval = (
@@ -311,7 +369,11 @@ def cross_finding(
         if small
         else ""
     )
-    if standout.stands_out:
+    scale = {
+        "log": " (tested on the log scale, as values are strongly skewed)",
+        "rank": " (tested on ranks, as values are strongly skewed)",
+    }.get(cross.interaction.scale, "")
+    if standout.stands_out and family.passes(cross.key):
         text = (
             f"{pair[:1].upper() + pair[1:]} averages {words.value(standout.mean)} (n = {fmt_count(standout.n)}), {excess} against "
             f"the {words.value(standout.expected)} that its {row_name} and its {column_name} predict "
@@ -320,7 +382,9 @@ def cross_finding(
         return Finding(
             headline=f"{pair[:1].upper() + pair[1:]} stands out ({excess} beyond its parts)",
             text=text,
-            certainty="The combination itself matters, beyond each part; that says where, not why.",
+            certainty=(
+                f"The combination itself matters, beyond each part{scale}; that says where, not why."
+            ),
             figure=figure,
             detail=detail,
             claim="difference",
@@ -333,7 +397,10 @@ def cross_finding(
     return Finding(
         headline=f"No clear combination effect of {row_name} and {column_name}",
         text=text,
-        certainty="No departure is larger than chance would produce across this many combinations.",
+        certainty=(
+            "No departure is larger than chance would produce across this many combinations"
+            f"{scale}."
+        ),
         figure=figure,
         detail=detail,
         claim="none",
@@ -341,7 +408,7 @@ def cross_finding(
     )
 
 
-def trend_finding(trend: Trend, words: Wording) -> Finding | None:
+def trend_finding(trend: Trend, words: Wording, family: Family) -> Finding | None:
     if trend.change is None or trend.change_ci_low is None or not trend.periods:
         return None
     first, last = trend.first_time, trend.last_time
@@ -350,14 +417,17 @@ def trend_finding(trend: Trend, words: Wording) -> Finding | None:
         f"trend of {words.lower} changed by {_signed(trend.change, words)} across the span "
         f"({words.level_name} interval {_signed(trend.change_ci_low, words)} to {_signed(trend.change_ci_high, words)})."
     )
-    clear = trend.change_ci_low > 0 or trend.change_ci_high < 0
+    clear = family.passes(trend.key)
     if clear:
         direction = "rose" if trend.change > 0 else "fell"
         headline = f"{words.label} {direction} over time ({_signed(trend.change, words)})"
-        certainty = "The interval excludes zero. A trend says what happened, not why."
+        certainty = (
+            f"Clear after adjusting for the {family.size} questions this brief tests. "
+            "A trend says what happened, not why."
+        )
     else:
         headline = f"No clear trend in {words.lower} over time"
-        certainty = "The interval includes zero: the data show no steady rise or fall."
+        certainty = "The data show no steady rise or fall beyond what chance would produce."
     return Finding(
         headline=headline,
         text=text,
@@ -370,12 +440,27 @@ def trend_finding(trend: Trend, words: Wording) -> Finding | None:
         ci_low=trend.change_ci_low,
         ci_high=trend.change_ci_high,
         test="ols_period_means",
+        p_value=trend.fit.slope_p_value if trend.fit is not None else None,
+        p_adjusted=family.adjusted(trend.key),
     )
 
 
 def _signed(value: float | None, words: Wording) -> str:
     text = words.value(value)
     return text if text.startswith("−") or text == "–" else f"+{text}"
+
+
+def _step_phrases(fit: RegressionFit) -> tuple[float, str, str]:
+    """The step of the predictor slopes are stated per: (step, 'unit' or '1,000 units', 'per …')."""
+    spread = None if fit.x_min is None or fit.x_max is None else fit.x_max - fit.x_min
+    step = readable_step(fit.slope, spread)
+    if step == 1:
+        return step, "unit", "per unit"
+    return step, f"{fmt_step(step)} units", f"per {fmt_step(step)}"
+
+
+def _signed_slope(value: float, decimals: int) -> str:
+    return f"{'+' if value > 0 else '−'}{fmt(abs(value), decimals)}"
 
 
 def fit_finding(
@@ -385,57 +470,146 @@ def fit_finding(
     slopes: list[tuple[str, GroupSlopes]],
     words: Wording,
     x_label: str,
+    family: Family,
 ) -> Finding | None:
-    """Slope per unit with its interval, strength, and whether groups change it."""
+    """Direction of the target with one predictor, only where line, ranks and groups agree."""
     if fit.slope is None or fit.slope_ci_low is None:
         return None
-    d = decimals_for(abs(fit.slope))
+    key = f"fit-{fit.predictor}"
+    step, step_words, per = _step_phrases(fit)
+    slope, low, high = fit.slope * step, fit.slope_ci_low * step, fit.slope_ci_high * step
+    d = decimals_for(abs(slope))
     x_lower = x_label[:1].lower() + x_label[1:]
     direction = "rises" if fit.slope > 0 else "falls"
     text = (
-        f"{words.label} {direction} with {x_lower}: each extra unit goes with "
-        f"{fmt(abs(fit.slope), d)} {'more' if fit.slope > 0 else 'less'} on average "
-        f"({words.level_name} interval {fmt(fit.slope_ci_low, d)} to {fmt(fit.slope_ci_high, d)}), "
+        f"The straight line {direction}: each extra {step_words} of {x_lower} goes with "
+        f"{fmt(abs(slope), d)} {'more' if slope > 0 else 'less'} {words.lower} on average "
+        f"({words.level_name} interval {fmt(low, d)} to {fmt(high, d)}), "
         f"and {x_lower} accounts for {fmt_percent(fit.r_squared)} of the variation (R², {fmt_count(fit.n)} rows)."
     )
-    if correlation is not None and correlation.spearman_rho is not None:
-        text += f" Rank correlation ρ = {correlation.spearman_rho:.2f} (Pearson r = {correlation.pearson_r:.2f})."
+    rho = correlation.spearman_rho if correlation is not None else None
+    if rho is not None:
+        text += f" Rank correlation ρ = {rho:.2f} (Pearson r = {correlation.pearson_r:.2f})."
     if log_fit is not None and log_fit.percent_change_per_unit is not None:
         text += (
             f" In relative terms, each extra unit goes with a change of about "
             f"{fmt(log_fit.percent_change_per_unit, 1)}% in {words.lower} "
             f"({fmt(log_fit.percent_ci_low, 1)}% to {fmt(log_fit.percent_ci_high, 1)}%, fit on the log scale)."
         )
-    differing = [name for name, s in slopes if s.p_value is not None and s.p_value < SIGNIFICANCE]
-    if differing:
-        text += (
-            f" The slope is not the same everywhere: it differs by {', '.join(differing)} (F test)."
+    question = family.question(key)
+    p_adjusted = family.adjusted(key)
+    clear = family.passes(key)
+    names = {s.group: name for name, s in slopes}
+    found = (
+        confounding(fit, [s for _, s in slopes], family.alpha, family.bonferroni_alpha)
+        if clear
+        else None
+    )
+    data = {
+        "figure": key,
+        "key": key,
+        "kind": "fit",
+        "variables": (fit.predictor,),
+        "estimate": fit.slope,
+        "ci_low": fit.slope_ci_low,
+        "ci_high": fit.slope_ci_high,
+        "test": "ols_slope_and_spearman",
+        # The direction question's p: the larger of the line's and the ranks' (see family).
+        "p_value": question.p_value if question is not None else fit.slope_p_value,
+        "p_adjusted": p_adjusted,
+    }
+    verdict = _adjusted_phrase(data["p_value"], p_adjusted, family)
+    if found is not None:
+        return _confounded_finding(found, fit, words, x_lower, names, text, data, step, per)
+    if clear:
+        differing = [names.get(g, g) for g in family.slopes_differ(fit.predictor)]
+        if differing:
+            text += f" The slope is not the same everywhere: it differs by {', '.join(differing)} (F test, adjusted)."
+        return Finding(
+            headline=f"{words.label} {direction} with {x_lower} ({_signed_slope(slope, d)} {per})",
+            text=text,
+            certainty=(
+                f"The line and the rank correlation agree and both are clear ({verdict}). "
+                "This is an association in these data, not proof of cause."
+            ),
+            claim="rise" if fit.slope > 0 else "fall",
+            **data,
         )
-    excludes_zero = fit.slope_ci_low > 0 or fit.slope_ci_high < 0
-    certainty = (
-        "The interval excludes zero. This is an association in these data, not proof of cause."
-        if excludes_zero
-        else "The interval includes zero: no clear straight-line relationship."
-    )
-    per_unit = f"{'+' if fit.slope > 0 else '−'}{fmt(abs(fit.slope), d)} per unit"
-    headline = (
-        f"{words.label} {direction} with {x_lower} ({per_unit})"
-        if excludes_zero
-        else f"No clear link with {x_lower}"
-    )
+    line_clear = fit.slope_p_value is not None and fit.slope_p_value < family.alpha
+    if rho is not None and rho * fit.slope < 0 and (line_clear or _rank_clear(correlation, family)):
+        return Finding(
+            headline=f"No consistent direction between {words.lower} and {x_lower}",
+            text=text
+            + (
+                f" The straight line {direction} while the rank correlation points the other way "
+                f"(ρ = {rho:.2f}): a few far-out values tilt the line against most of the data."
+            ),
+            certainty="Neither direction can be claimed while the two measures disagree.",
+            claim="none",
+            **data,
+        )
     return Finding(
-        headline=headline,
+        headline=f"No clear link with {x_lower}",
         text=text,
-        certainty=certainty,
-        figure=f"fit-{fit.predictor}",
-        key=f"fit-{fit.predictor}",
-        kind="fit",
-        claim=("rise" if fit.slope > 0 else "fall") if excludes_zero else "none",
-        variables=(fit.predictor,),
-        estimate=fit.slope,
-        ci_low=fit.slope_ci_low,
-        ci_high=fit.slope_ci_high,
-        test="ols_slope",
+        certainty=f"No clear straight-line or rank relationship ({verdict}).",
+        claim="none",
+        **data,
+    )
+
+
+def _rank_clear(correlation: Correlation, family: Family) -> bool:
+    p = correlation.spearman_p_value
+    return p is not None and p < family.alpha
+
+
+def _confounded_finding(found, fit, words, x_lower, names, text, data, step, per) -> Finding:
+    """The within-group relation, with the group named as the likely confounder."""
+    within = found.slopes
+    group = names.get(found.group, found.group)
+    slope = within.common_slope * step
+    low, high = within.common_ci_low * step, within.common_ci_high * step
+    d = decimals_for(abs(slope))
+    overall = "rises" if fit.slope > 0 else "falls"
+    within_text = (
+        f" Within each level of {group}, the slope is {_signed_slope(slope, d)} {per} "
+        f"({words.level_name} interval {fmt(low, d)} to {fmt(high, d)})."
+    )
+    data = data | {
+        "variables": (fit.predictor, found.group),
+        "estimate": within.common_slope,
+        "ci_low": within.common_ci_low,
+        "ci_high": within.common_ci_high,
+        "test": "ols_common_slope_within_groups",
+        "p_value": within.common_p_value,
+    }
+    if found.kind == "reverses":
+        direction = "rises" if slope > 0 else "falls"
+        return Finding(
+            headline=f"Within each {group}, {words.lower} {direction} with {x_lower} ({_signed_slope(slope, d)} {per})",
+            text=text
+            + within_text
+            + (
+                f" Overall the line {overall} only because the levels of {group} differ in both "
+                f"{x_lower} and {words.lower}: {group} is the likely confounder."
+            ),
+            certainty=(
+                f"The within-group slope is clear at the brief's adjusted level; the overall line "
+                f"mixes levels of {group}. An association in these data, not proof of cause."
+            ),
+            claim="rise" if slope > 0 else "fall",
+            **data,
+        )
+    return Finding(
+        headline=f"Link with {x_lower} is explained by {group}",
+        text=text
+        + within_text
+        + (
+            f" The overall line {overall} mostly because the levels of {group} differ in both "
+            f"{x_lower} and {words.lower}: within a level, no clear link remains."
+        ),
+        certainty=f"{group[:1].upper() + group[1:]} is the likely confounder; read the levels separately.",
+        claim="none",
+        **data,
     )
 
 
@@ -468,12 +642,6 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
         notes.append(
             "Relationships and differences shown are associations in these data; they do not show that one "
             "thing causes another, and factors not in the data may explain them."
-        )
-    many = sum(len(c.pairwise) for c in stats.comparisons)
-    if many > 3:
-        notes.append(
-            f"The brief makes {many} pairwise comparisons; some small p-values would arise by chance, so "
-            "pairwise p-values are adjusted for this (Holm's method)."
         )
     box = stats.overall_box
     if box is not None and box.outlier_count:

@@ -70,3 +70,31 @@ def p_text(p: float | None) -> str:
     text = fmt_p(p)
     phrase = f"p {text}" if text.startswith("<") else f"p = {text}"
     return phrase.replace(" ", "\u00a0")
+
+
+def readable_step(slope: float | None, x_range: float | None) -> float:
+    """A power of ten of the predictor to state a slope per: per 1, per 10, per 1,000, per 0.1.
+
+    Starts at 1 and grows tenfold while the change per step would read below 1 (so
+    "0.00768 per unit" becomes "7.68 per 1,000"), but never past the largest power of
+    ten inside the predictor's observed range, since a step the data never cover
+    says nothing. A predictor spanning less than 1 gets a step below 1.
+    """
+    if slope is None or not slope or not x_range or not math.isfinite(x_range) or x_range <= 0:
+        return 1.0
+    top = 10.0 ** math.floor(math.log10(x_range))
+    step = 1.0
+    while abs(slope) * step < 1 and step * 10 <= top:
+        step *= 10
+    while step > top:
+        step /= 10
+    return step
+
+
+def fmt_step(step: float) -> str:
+    """A step as a sentence names it: 1 ─► 'unit', 1000 ─► '1,000', 0.1 ─► '0.1'."""
+    if step == 1:
+        return "unit"
+    if step >= 1:
+        return fmt_count(int(round(step)))
+    return fmt(step, max(0, -math.floor(math.log10(step))))

@@ -68,7 +68,9 @@ def build_brief(
         if "pdf" in formats:
             files["brief.pdf"] = render_pdf(html, built_on)
     if "json" in formats:
-        files["stats.json"] = render_json(stats, spec, built_on, doc.findings).encode("utf-8")
+        files["stats.json"] = render_json(stats, spec, built_on, doc.findings, doc.family).encode(
+            "utf-8"
+        )
     stage.info("publishing")
     written = write_outputs(spec.output_dir(out_dir, built_on), files, keep=spec.output.keep)
     log.info("wrote %s", ", ".join(str(p) for p in written))

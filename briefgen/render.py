@@ -24,6 +24,7 @@ from briefgen.config import BriefSpec
 from briefgen.document import Document
 from briefgen.errors import RenderError
 from briefgen.findings import Finding
+from briefgen.present.family import Family
 from briefgen.stats import BriefStats
 
 log = logging.getLogger(__name__)
@@ -120,12 +121,17 @@ FINDING_FIELDS = (
 
 
 def render_json(
-    stats: BriefStats, spec: BriefSpec, built_on: str, findings: Sequence[Finding] = ()
+    stats: BriefStats,
+    spec: BriefSpec,
+    built_on: str,
+    findings: Sequence[Finding] = (),
+    family: Family | None = None,
 ) -> str:
     """Every number the brief shows, at full precision, with documented names (README).
 
     ``findings`` are the brief's findings in page order, as data for downstream
-    readers (the email body, a dashboard, a test) that should not parse the HTML.
+    readers (the email body, a dashboard, a test) that should not parse the HTML;
+    ``family`` the questions behind them with their adjusted p-values.
     """
     payload = {
         "briefgen_version": __version__,
@@ -139,6 +145,7 @@ def render_json(
             {name: _plain(getattr(finding, name)) for name in FINDING_FIELDS}
             for finding in findings
         ],
+        "family": _plain(family),
         "stats": _plain(stats),
     }
     # The sampled rows themselves stay out of the JSON; how many were drawn goes in.

@@ -22,6 +22,7 @@ from briefgen.stats.core.summary import BoxStats, Summary
 from briefgen.stats.correlation import Correlation, correlate
 from briefgen.stats.groups import GroupAnalysis, GroupResult
 from briefgen.stats.histogram import Histogram, HistogramBins
+from briefgen.stats.interaction import scale_for
 from briefgen.stats.overall import Overall
 from briefgen.stats.regression import RegressionFit, fit_lines
 from briefgen.stats.relationships import (
@@ -100,8 +101,15 @@ def _run(family, spec: BriefSpec, frame: AnalysisFrame) -> tuple:
     return tuple(results)
 
 
-def _crosses(frame: AnalysisFrame, spec: BriefSpec) -> tuple[CrossTable, ...]:
-    """Two-way tables of means for each configured pair of groups."""
+def _crosses(
+    frame: AnalysisFrame, spec: BriefSpec, groups: tuple[GroupResult, ...], minimum: float | None
+) -> tuple[CrossTable, ...]:
+    """Two-way tables of means for each configured pair of groups.
+
+    The interaction test leaves the mean scale when either group's comparison found
+    the target strongly skewed within levels (see ``briefgen.stats.interaction``).
+    """
+    skewed = {g.variable for g in groups if g.comparison and g.comparison.strongly_skewed}
     return tuple(
         cross_table(
             frame.table,
@@ -111,6 +119,7 @@ def _crosses(frame: AnalysisFrame, spec: BriefSpec) -> tuple[CrossTable, ...]:
             b,
             spec.confidence,
             spec.min_cell,
+            scale=scale_for(bool({a, b} & skewed), minimum),
         )
         for a, b in spec.cross_pairs
     )
@@ -146,8 +155,12 @@ def _relationships(frame: AnalysisFrame, spec: BriefSpec):
 
 def _sample(frame: AnalysisFrame) -> Sample:
     """Seeded sample of points for scatter plots, keyed by predictor name."""
-    sample = draw_sample(frame.table, list(frame.predictors))
-    return replace(sample, x={frame.predictors[key]: values for key, values in sample.x.items()})
+    sample = draw_sample(frame.table, list(frame.predictors), groups=list(frame.groups))
+    return replace(
+        sample,
+        x={frame.predictors[key]: values for key, values in sample.x.items()},
+        groups={frame.groups[key]: values for key, values in sample.groups.items()},
+    )
 
 
 def compute(source: Source, spec: BriefSpec) -> BriefStats:
@@ -156,7 +169,7 @@ def compute(source: Source, spec: BriefSpec) -> BriefStats:
     (overall,) = _run(Overall, spec, frame)
     histogram = next(iter(_run(Histogram, spec, frame)), None)
     groups = _run(GroupAnalysis, spec, frame)
-    crosses = _crosses(frame, spec)
+    crosses = _crosses(frame, spec, groups, overall.summary.min)
     trend = time_trend(frame.table, spec.confidence, spec.time.period) if spec.time else None
     fits, correlations, slopes, log_fits, references = _relationships(frame, spec)
     usages = [r.usage for r in (overall, *groups, *crosses)]

@@ -67,7 +67,11 @@ class GroupSlopes:
 
     The F-test compares separate lines per level against parallel lines (one
     common slope, separate intercepts): a small ``p_value`` says the slopes
-    differ between levels. ``common_slope`` is the slope of the parallel lines.
+    differ between levels. ``common_slope`` is the slope of the parallel lines: the
+    pooled within-level slope, the coefficient of the predictor in
+    ``y ~ predictor + C(group)``. Its standard error, t interval at ``confidence``
+    and two-sided p-value (``common_*``, on N − k − 1 df) tell whether the relation
+    holds within levels; a sign opposite to the overall slope is Simpson's paradox.
     Test fields are None when fewer than two levels have a slope to compare or
     no residual degrees of freedom remain.
 
@@ -79,6 +83,10 @@ class GroupSlopes:
     confidence: float
     levels: tuple[LevelSlope, ...]
     common_slope: float | None
+    common_slope_se: float | None
+    common_ci_low: float | None
+    common_ci_high: float | None
+    common_p_value: float | None
     f_statistic: float | None
     df_between: int | None
     df_within: int | None
@@ -130,12 +138,17 @@ def slopes_by_group(
     sums = _level_sums(frame_table, group_column, predictor_column)
     levels = tuple(_level_slope(row, confidence) for row in sums)
     common_slope, f_statistic, df_between, df_within, p_value = _parallel_test(sums)
+    se, low, high, common_p = _common_slope_inference(sums, common_slope, confidence)
     return GroupSlopes(
         group=group_name,
         predictor=predictor_name,
         confidence=confidence,
         levels=levels,
         common_slope=common_slope,
+        common_slope_se=se,
+        common_ci_low=low,
+        common_ci_high=high,
+        common_p_value=common_p,
         f_statistic=f_statistic,
         df_between=df_between,
         df_within=df_within,
@@ -215,6 +228,28 @@ def _level_slope(sums: dict, confidence: float) -> LevelSlope:
         x_min=sums["x_min"],
         x_max=sums["x_max"],
     )
+
+
+def _common_slope_inference(
+    sums: list[dict], common_slope: float | None, confidence: float
+) -> tuple[float | None, float | None, float | None, float | None]:
+    """Standard error, t interval and p of the parallel lines' common slope: (se, low, high, p).
+
+    The parallel-lines model has one intercept per level and one slope, so its residual
+    df is N − k − 1 and se² = SSE_parallel / df / Σ Sxx within levels.
+    """
+    pooled_sxx = sum(level["sxx"] for level in sums if level["sxx"] > 0)
+    df = sum(level["n"] for level in sums) - len(sums) - 1
+    if common_slope is None or pooled_sxx <= 0 or df < 1:
+        return None, None, None, None
+    pooled_sxy = sum(level["sxy"] for level in sums if level["sxx"] > 0)
+    sse = max(sum(level["syy"] for level in sums) - pooled_sxy * pooled_sxy / pooled_sxx, 0.0)
+    se = math.sqrt(sse / df / pooled_sxx)
+    if se <= 0:
+        return se, common_slope, common_slope, 0.0 if common_slope else 1.0
+    half = float(scipy_stats.t.ppf(0.5 + confidence / 2, df)) * se
+    p_value = float(2 * scipy_stats.t.sf(abs(common_slope / se), df))
+    return se, common_slope - half, common_slope + half, p_value
 
 
 def _parallel_test(

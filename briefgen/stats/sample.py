@@ -7,7 +7,7 @@ thread scheduling, so the same data and seed always give the same points.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import ibis
 import ibis.expr.types as ir
@@ -18,11 +18,16 @@ SEED = 20240917
 
 @dataclass(frozen=True, slots=True)
 class Sample:
-    """Up to ``size`` rows: the target and each predictor, as parallel tuples."""
+    """Up to ``size`` rows: the target, each predictor and each group, as parallel tuples.
+
+    ``groups`` holds the shown level of each group variable, so a scatter can colour
+    points by a group that confounds the relation.
+    """
 
     rows_available: int
     y: tuple[float, ...]
     x: dict[str, tuple[float | None, ...]]
+    groups: dict[str, tuple[str | None, ...]] = field(default_factory=dict)
 
     @property
     def size(self) -> int:
@@ -34,9 +39,17 @@ class Sample:
 
 
 def draw_sample(
-    frame: ir.Table, predictors: list[str], size: int = SAMPLE_SIZE, seed: int = SEED
+    frame: ir.Table,
+    predictors: list[str],
+    size: int = SAMPLE_SIZE,
+    seed: int = SEED,
+    groups: list[str] = (),
 ) -> Sample:
-    """Seeded sample of rows with a target value; ``frame`` has ``y`` and the predictors."""
+    """Seeded sample of rows with a target value; ``frame`` has ``y``, predictors and groups.
+
+    Which rows are drawn depends on the target and predictors only, so adding a
+    group column never changes the points.
+    """
     usable = frame.filter(frame.y.notnull())
     available = int(usable.count().to_pyarrow().as_py())
     values = ["y", *predictors]
@@ -48,10 +61,15 @@ def draw_sample(
         key = key + "|" + numbered[name].cast("string").fill_null("")
     key = key + "|" + numbered["_copy"].cast("string")
     ranked = numbered.mutate(_order=key.hash())
-    chosen = ranked.order_by(["_order", "y", *predictors]).limit(size).select("y", *predictors)
+    chosen = (
+        ranked.order_by(["_order", "y", *predictors, *groups])
+        .limit(size)
+        .select("y", *predictors, *groups)
+    )
     columns = chosen.to_pyarrow().to_pydict()
     return Sample(
         rows_available=available,
         y=tuple(float(v) for v in columns["y"]),
         x={p: tuple(None if v is None else float(v) for v in columns[p]) for p in predictors},
+        groups={g: tuple(columns[g]) for g in groups},
     )

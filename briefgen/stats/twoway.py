@@ -19,12 +19,13 @@ from dataclasses import dataclass
 import ibis
 import ibis.expr.types as ir
 import numpy as np
-from scipy import linalg as scipy_linalg
 
+from briefgen.stats.core.additive import additive_fit
 from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.shifted import deviations, t_quantile
 from briefgen.stats.core.summary import Summary, summarise
 from briefgen.stats.core.usage import RowUsage, usage
+from briefgen.stats.interaction import InteractionTest, interaction_test
 
 log = logging.getLogger(__name__)
 
@@ -134,6 +135,7 @@ class CrossTable:
     rows_without_level: int
     confidence: float
     standout: CrossStandout | None
+    interaction: InteractionTest
     usage: RowUsage
 
     def cell(self, row: str | None, column: str | None) -> CrossCell | None:
@@ -200,12 +202,14 @@ def cross_table(
     col_name: str,
     confidence: float = 0.95,
     min_cell: int = MIN_CELL,
+    scale: str = "mean",
 ) -> CrossTable:
     """Summarise ``y`` in every cell of ``row_column`` × ``col_column``, with margins.
 
     ``frame_table`` holds ``y`` (float, null when missing) and the two group
     columns as text; ``row_name`` and ``col_name`` are the user's names for them.
-    Levels are listed in label order.
+    Levels are listed in label order. ``scale`` is the scale of the interaction
+    test (see ``briefgen.stats.interaction``).
     """
     stacked = _stacked(frame_table, row_column, col_column)
     keyed = summarise(stacked, ["part", "row", "column"], confidence, list_outliers=False)
@@ -245,6 +249,7 @@ def cross_table(
         rows_without_level=without,
         confidence=confidence,
         standout=find_standout(cells, confidence),
+        interaction=interaction_test(frame_table, row_column, col_column, scale),
         usage=usage(
             f"cross:{pair}",
             used,
@@ -253,61 +258,6 @@ def cross_table(
             without_valued,
         ),
     )
-
-
-def _components(row_of: np.ndarray, column_of: np.ndarray, rows: int) -> np.ndarray:
-    """Connected component of every row and column level (linked when they share a cell)."""
-    parent = list(range(rows + int(column_of.max()) + 1))
-
-    def root(node: int) -> int:
-        while parent[node] != node:
-            parent[node] = parent[parent[node]]
-            node = parent[node]
-        return node
-
-    for row, column in zip(row_of.tolist(), column_of.tolist(), strict=True):
-        parent[root(rows + column)] = root(row)
-    return np.array([root(node) for node in range(len(parent))])
-
-
-def additive_fit(
-    row_of: np.ndarray, column_of: np.ndarray, means: np.ndarray, weights: np.ndarray
-) -> np.ndarray | None:
-    """Row + column effects fitted to cell means by weighted least squares; the fitted means.
-
-    ``row_of`` and ``column_of`` index each cell's levels from 0. Returns None when the
-    fit leaves no residual degree of freedom (every cell fitted exactly).
-    """
-    rows = int(row_of.max()) + 1
-    component = _components(row_of, column_of, rows)
-    # Row and column effects are defined only up to a constant within each connected
-    # block of levels; pinning the block's first column effect at 0 makes the system
-    # full rank.
-    pinned, free = set(), []
-    for node in range(len(component)):
-        if node >= rows and int(component[node]) not in pinned:
-            pinned.add(int(component[node]))
-        else:
-            free.append(node)
-    if len(means) <= len(free):
-        return None
-    position = np.full(len(component), -1)
-    position[free] = np.arange(len(free))
-    row_at, column_at = position[row_of], position[rows + column_of]
-    has_column = column_at >= 0
-    # Normal equations built straight from the cells: (levels × levels), whatever the
-    # number of cells or rows.
-    normal = np.zeros((len(free), len(free)))
-    right = np.zeros(len(free))
-    np.add.at(normal, (row_at, row_at), weights)
-    np.add.at(right, row_at, weights * means)
-    columned = weights[has_column]
-    np.add.at(normal, (column_at[has_column], column_at[has_column]), columned)
-    np.add.at(normal, (row_at[has_column], column_at[has_column]), columned)
-    np.add.at(normal, (column_at[has_column], row_at[has_column]), columned)
-    np.add.at(right, column_at[has_column], columned * means[has_column])
-    effects = scipy_linalg.solve(normal, right, assume_a="pos")
-    return effects[row_at] + np.where(has_column, effects[np.maximum(column_at, 0)], 0.0)
 
 
 def find_standout(cells: list[CrossCell], confidence: float) -> CrossStandout | None:

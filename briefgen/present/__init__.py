@@ -1,0 +1,1 @@
+"""Presentation: how results become claims a reader can act on."""

@@ -1,0 +1,160 @@
+"""Every kind of page-1 claim, on constructed cases where it must and must not appear.
+
+The data are constructed by seeded generators with known effects (or none); the
+statistics the claims rest on are checked against statsmodels beside them.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+import statsmodels.formula.api as smf
+from constructed import brief_for, findings_by_key
+
+from briefgen.present.family import family_sentence
+
+
+def _levels_frame(means: dict[str, float], n: int, seed: int, sd: float = 1.0) -> pd.DataFrame:
+    rng = np.random.default_rng(seed)
+    rows = [(level, rng.normal(mean, sd)) for level, mean in means.items() for _ in range(n)]
+    return pd.DataFrame(rows, columns=["site", "score"])
+
+
+def test_one_level_apart_is_named_highest_and_no_lowest_is_claimed(tmp_path):
+    # Level A sits one sd above three levels that share a mean: only "A highest" is true.
+    frame = _levels_frame({"A": 11.0, "B": 10.0, "C": 10.0, "D": 10.0}, 200, seed=7)
+    _, doc = brief_for(frame, tmp_path, target="score", groups=["site"])
+    finding = findings_by_key(doc)["group-site"]
+    assert finding.claim == "difference"
+    assert finding.headline.startswith("By site: A highest")
+    assert "lowest" not in finding.headline
+    assert finding.levels[0] == "A"
+
+
+def test_two_clearly_different_levels_are_named_highest_and_lowest(tmp_path):
+    frame = _levels_frame({"north": 12.0, "south": 10.0}, 100, seed=3)
+    _, doc = brief_for(frame, tmp_path, target="score", groups=["site"])
+    finding = findings_by_key(doc)["group-site"]
+    assert finding.claim == "difference"
+    assert "north highest" in finding.headline and "south lowest" in finding.headline
+    # The interval of the picked pair is Welch's at the Bonferroni level (one pair: 95%),
+    # compared with statsmodels' OLS on a two-level factor's unequal-variance analogue.
+    north = frame[frame.site == "north"].score
+    south = frame[frame.site == "south"].score
+    assert finding.estimate == pytest.approx(north.mean() - south.mean(), rel=1e-12)
+
+
+def test_pure_noise_groups_claim_nothing(tmp_path):
+    frame = _levels_frame({"A": 10.0, "B": 10.0, "C": 10.0}, 80, seed=11)
+    _, doc = brief_for(frame, tmp_path, target="score", groups=["site"])
+    finding = findings_by_key(doc)["group-site"]
+    assert finding.claim == "none"
+    assert finding.headline == "By site: no clear difference"
+
+
+def test_tied_zero_medians_never_name_one_level_both_highest_and_lowest(tmp_path):
+    # Zero-heavy counts: Poisson means 0.15, 0.35 and 0.6 all have median 0.
+    rng = np.random.default_rng(5)
+    rows = [
+        (code, int(v))
+        for code, lam in (("1", 0.6), ("2", 0.35), ("3", 0.15))
+        for v in rng.poisson(lam, 400)
+    ]
+    frame = pd.DataFrame(rows, columns=["code", "visits"])
+    assert frame.groupby("code").visits.median().eq(0).all()
+    _, doc = brief_for(frame, tmp_path, target="visits", groups=["code"])
+    finding = findings_by_key(doc)["group-code"]
+    assert finding.claim == "difference"
+    assert finding.levels[0] == "1"  # the level whose values tend highest (mean rank)
+    named = [level for level in ("1", "2", "3") if f" {level} " in f" {finding.headline} "]
+    assert len(named) == len(set(named))
+    assert not ("highest" in finding.headline and finding.levels[0] == finding.levels[-1])
+
+
+def test_line_and_ranks_disagreeing_claim_no_direction(tmp_path):
+    # The bulk rises with x; five far-out points at large x pull the least-squares line down.
+    rng = np.random.default_rng(2)
+    x = rng.uniform(0, 10, 300)
+    y = 0.5 * x + rng.normal(0, 1, 300)
+    x = np.concatenate([x, np.full(5, 40.0)])
+    y = np.concatenate([y, np.full(5, -400.0)])
+    frame = pd.DataFrame({"load": x, "output": y})
+    stats, doc = brief_for(frame, tmp_path, target="output", predictors=["load"])
+    ols = smf.ols("output ~ load", frame).fit()  # statsmodels reference for the line
+    assert stats.fits[0].slope == pytest.approx(ols.params["load"], rel=1e-9)
+    assert stats.fits[0].slope < 0 < stats.correlations[0].spearman_rho
+    finding = findings_by_key(doc)["fit-load"]
+    assert finding.claim == "none"
+    assert finding.headline.startswith("No consistent direction")
+
+
+def _simpson_frame(within_slope: float, seed: int) -> pd.DataFrame:
+    # Three crews: the crew with more hours has a lower baseline, so the pooled line falls.
+    rng = np.random.default_rng(seed)
+    rows = []
+    for crew, (x_mean, base) in {"red": (2, 30), "green": (5, 20), "blue": (8, 10)}.items():
+        x = rng.normal(x_mean, 0.8, 150)
+        rows += [(crew, xi, base + within_slope * xi + rng.normal(0, 1)) for xi in x]
+    return pd.DataFrame(rows, columns=["crew", "hours", "yield"])
+
+
+def test_a_group_that_reverses_the_slope_is_named_as_the_likely_confounder(tmp_path):
+    frame = _simpson_frame(within_slope=1.0, seed=4)
+    stats, doc = brief_for(frame, tmp_path, target="yield", groups=["crew"], predictors=["hours"])
+    pooled = smf.ols("Q('yield') ~ hours", frame).fit()
+    within = smf.ols("Q('yield') ~ hours + C(crew)", frame).fit()  # statsmodels reference
+    assert pooled.params["hours"] < 0 < within.params["hours"]
+    slopes = stats.slopes_by_group[0]
+    assert slopes.common_slope == pytest.approx(within.params["hours"], rel=1e-9)
+    assert slopes.common_slope_se == pytest.approx(within.bse["hours"], rel=1e-9)
+    assert slopes.common_p_value == pytest.approx(within.pvalues["hours"], rel=1e-6, abs=1e-300)
+    finding = findings_by_key(doc)["fit-hours"]
+    assert finding.claim == "rise"
+    assert finding.headline.startswith("Within each crew, yield rises with hours")
+    assert "crew" in finding.variables and "likely confounder" in finding.text
+    assert finding.estimate == pytest.approx(within.params["hours"], rel=1e-9)
+
+
+def test_a_group_that_removes_the_slope_is_said(tmp_path):
+    frame = _simpson_frame(within_slope=0.0, seed=8)
+    _, doc = brief_for(frame, tmp_path, target="yield", groups=["crew"], predictors=["hours"])
+    finding = findings_by_key(doc)["fit-hours"]
+    assert finding.claim == "none"
+    assert finding.headline == "Link with hours is explained by crew"
+
+
+def test_a_plain_rise_is_claimed_with_a_readable_step(tmp_path):
+    # 0.004 per metre reads as 4 per 1,000 metres.
+    rng = np.random.default_rng(9)
+    metres = rng.uniform(0, 5000, 400)
+    frame = pd.DataFrame({"metres": metres, "minutes": 0.004 * metres + rng.normal(0, 2, 400)})
+    _, doc = brief_for(frame, tmp_path, target="minutes", predictors=["metres"])
+    finding = findings_by_key(doc)["fit-metres"]
+    assert finding.claim == "rise"
+    assert "per 1,000)" in finding.headline
+
+
+def test_slopes_differing_by_group_are_never_said_after_no_clear_link(tmp_path):
+    # Opposite slopes in two shops cancel overall: the separate-lines F test is strong,
+    # but with no direction to qualify, the brief must not append it.
+    rng = np.random.default_rng(12)
+    rows = []
+    for shop, slope in (("east", 1.0), ("west", -1.0)):
+        x = rng.uniform(0, 10, 200)
+        rows += [(shop, xi, 50 + slope * (xi - 5) + rng.normal(0, 1)) for xi in x]
+    frame = pd.DataFrame(rows, columns=["shop", "price", "sales"])
+    stats, doc = brief_for(frame, tmp_path, target="sales", groups=["shop"], predictors=["price"])
+    assert stats.slopes_by_group[0].p_value < 1e-10
+    finding = findings_by_key(doc)["fit-price"]
+    assert finding.claim == "none"
+    assert "not the same everywhere" not in finding.text
+    assert doc.family.slope_differences == ()
+
+
+def test_page_one_says_how_many_questions_were_tested(tmp_path):
+    frame = _simpson_frame(within_slope=1.0, seed=4)
+    _, doc = brief_for(frame, tmp_path, target="yield", groups=["crew"], predictors=["hours"])
+    assert doc.family.size == 2  # one group comparison, one direction
+    assert "tests 2 questions" in family_sentence(doc.family)
+    assert "Holm" in doc.family_note
