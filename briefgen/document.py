@@ -212,8 +212,20 @@ def _fit_section(
         # The slope gets its own decimals: its scale is target units per predictor unit.
         decimals_for(abs(fit.slope or 0) or None),
         stats.confidence,
+        *_confounder(stats, fit, finding, names),
     )
     return Section(f"fit-{fit.predictor}", f"{label} and {x_label}", finding, chart, None)
+
+
+def _confounder(stats: BriefStats, fit: RegressionFit, finding, names: dict[str, str]) -> tuple:
+    """(per-level slopes, group name) when the finding names a confounding group, else ()."""
+    if finding is None or finding.test != "ols_common_slope_within_groups":
+        return ()
+    group = finding.variables[1]
+    slopes = next(
+        s for s in stats.slopes_by_group if s.predictor == fit.predictor and s.group == group
+    )
+    return slopes, names.get(group, group)
 
 
 def _overall_section(stats: BriefStats, words: Wording) -> Section:

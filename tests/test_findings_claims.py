@@ -114,6 +114,10 @@ def test_a_group_that_reverses_the_slope_is_named_as_the_likely_confounder(tmp_p
     assert finding.headline.startswith("Within each crew, yield rises with hours")
     assert "crew" in finding.variables and "likely confounder" in finding.text
     assert finding.estimate == pytest.approx(within.params["hours"], rel=1e-9)
+    # The scatter shows the confounder: points and one line per crew.
+    chart = next(s.chart for s in doc.sections if s.key == "fit-hours")
+    assert chart.title.endswith("by crew")
+    assert chart.svg.count('<g id="line2d_') >= 4  # three crews and the overall line
 
 
 def test_a_group_that_removes_the_slope_is_said(tmp_path):

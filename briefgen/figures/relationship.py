@@ -8,9 +8,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from briefgen.figures.theme import BAND, LINE, POINT, Chart, new_figure, themed, to_svg
+from briefgen.figures.cross import SERIES_COLOURS, SERIES_MARKERS
+from briefgen.figures.theme import BAND, LINE, MUTED, POINT, Chart, new_figure, themed, to_svg
 from briefgen.numbers import fmt, fmt_count, fmt_level
 from briefgen.stats.regression import RegressionFit
+from briefgen.stats.relationships import GroupSlopes
 from briefgen.stats.sample import Sample
 
 
@@ -21,8 +23,19 @@ def relationship_chart(
     y_label: str,
     slope_decimals: int,
     confidence: float,
+    by_group: GroupSlopes | None = None,
+    group_label: str | None = None,
 ) -> Chart | None:
-    """Scatter of the sample with the least-squares line and its confidence band."""
+    """Scatter of the sample with the least-squares line and its confidence band.
+
+    With ``by_group`` (a group variable that reverses or removes the slope) the points
+    take that group's colour and marker and each level gets its own line, drawn over
+    its own range; the overall line stays, dashed, for comparison.
+    """
+    if by_group is not None and by_group.group in sample.groups:
+        return _by_group_chart(
+            fit, sample, x_label, y_label, by_group, group_label or by_group.group
+        )
     if fit.slope is None or fit.residual_sd is None:
         return None
     xs = np.array([np.nan if v is None else v for v in sample.x[fit.predictor]], dtype=float)
@@ -60,6 +73,76 @@ def relationship_chart(
     return Chart(
         key=f"fit-{fit.predictor}",
         title=f"{y_label} against {x_label}",
+        svg=svg,
+        alt=alt,
+        caption=caption,
+    )
+
+
+def _by_group_chart(
+    fit: RegressionFit,
+    sample: Sample,
+    x_label: str,
+    y_label: str,
+    slopes: GroupSlopes,
+    group_label: str,
+) -> Chart | None:
+    """Points and a line per level of the confounding group; colour and marker both differ."""
+    if fit.slope is None:
+        return None
+    xs = np.array([np.nan if v is None else v for v in sample.x[fit.predictor]], dtype=float)
+    ys = np.array(sample.y, dtype=float)
+    levels = np.array(sample.groups[slopes.group], dtype=object)
+    drawn = [s for s in slopes.levels if s.slope is not None][: len(SERIES_MARKERS)]
+    with themed():
+        figure = new_figure(3.3)
+        axes = figure.subplots()
+        for index, level in enumerate(drawn):
+            colour, marker = SERIES_COLOURS[index], SERIES_MARKERS[index]
+            keep = (levels == level.level) & np.isfinite(xs) & np.isfinite(ys)
+            axes.scatter(
+                xs[keep],
+                ys[keep],
+                s=7,
+                marker=marker,
+                color=colour,
+                alpha=0.45,
+                linewidths=0,
+                rasterized=True,
+            )
+            grid = np.array([level.x_min, level.x_max])
+            axes.plot(
+                grid,
+                level.intercept + level.slope * grid,
+                color=colour,
+                linewidth=2,
+                label=str(level.level),
+            )
+        grid = np.array([fit.x_min, fit.x_max])
+        axes.plot(
+            grid,
+            fit.intercept + fit.slope * grid,
+            color=MUTED,
+            linewidth=1.2,
+            linestyle=(0, (4, 3)),
+            label="all rows",
+        )
+        axes.set_xlabel(x_label)
+        axes.set_ylabel(y_label)
+        axes.legend(title=group_label, frameon=False, loc="best")
+        svg = to_svg(figure)
+    caption = (
+        f"{y_label} against {x_label.lower()}, points and lines by {group_label} (colour and "
+        f"marker). Solid lines: least-squares fit within each level; dashed: one line through all "
+        f"rows, which mixes the levels. Points: a seeded sample of at most {fmt_count(sample.size)} rows."
+    )
+    alt = (
+        f"Scatter plot of {y_label.lower()} against {x_label.lower()} coloured by {group_label}, "
+        f"with one fitted line per level and a dashed overall line of the opposite or a weaker slope."
+    )
+    return Chart(
+        key=f"fit-{fit.predictor}",
+        title=f"{y_label} against {x_label}, by {group_label}",
         svg=svg,
         alt=alt,
         caption=caption,
