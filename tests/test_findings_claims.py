@@ -162,3 +162,22 @@ def test_page_one_says_how_many_questions_were_tested(tmp_path):
     assert doc.family.size == 2  # one group comparison, one direction
     assert "tests 2 questions" in family_sentence(doc.family)
     assert "Holm" in doc.family_note
+
+
+@pytest.mark.parametrize(("confidence", "claim"), [(0.95, "difference"), (0.99, "none")])
+def test_verdicts_follow_the_configured_confidence(tmp_path, confidence, claim):
+    # Two levels standardised to mean 0 and sd 1, then 0.474 apart: Welch's t ≈ 2.37 on
+    # about 98 df, p ≈ 0.02, clear at 95% and not at 99% (scipy reference below).
+    rng = np.random.default_rng(21)
+    base = [(z - z.mean()) / z.std(ddof=1) for z in (rng.normal(size=50), rng.normal(size=50))]
+    frame = pd.DataFrame(
+        {"team": ["a"] * 50 + ["b"] * 50, "score": np.concatenate([base[0], base[1] + 0.474])}
+    )
+    from scipy import stats as scipy_stats
+
+    p = scipy_stats.ttest_ind(base[1] + 0.474, base[0], equal_var=False).pvalue
+    assert 0.01 < p < 0.05
+    _, doc = brief_for(frame, tmp_path, target="score", groups=["team"], confidence=confidence)
+    finding = findings_by_key(doc)["group-team"]
+    assert finding.claim == claim
+    assert finding.p_value == pytest.approx(p, rel=1e-9)
