@@ -11,7 +11,7 @@ from __future__ import annotations
 import datetime as dt
 
 from briefgen.numbers import fmt_span
-from briefgen.stats.periods import MIN_FIT_PERIODS, period_label
+from briefgen.stats.periods import ADJECTIVE, MIN_FIT_PERIODS, period_label
 from briefgen.stats.trend import Trend
 
 
@@ -26,9 +26,9 @@ def date_text(value: dt.date | dt.datetime, resolution: str) -> str:
 
 
 def span_text(trend: Trend) -> str:
-    """'From 1991 to 2010 (19 years; 20 years in the fit)': dates, span, and periods fitted."""
+    """'From 1991 to 2010 (19 years; 20 yearly means in the fit)': dates, span, periods fitted."""
     fitted = sum(p.in_fit for p in trend.periods)
-    unit = trend.period if fitted == 1 else f"{trend.period}s"
+    unit = f"{ADJECTIVE[trend.period]} {'mean' if fitted == 1 else 'means'}"
     first = date_text(trend.first_time, trend.resolution)
     last = date_text(trend.last_time, trend.resolution)
     span = fmt_span(trend.first_time, trend.last_time)

@@ -59,3 +59,14 @@ def test_left_out_periods_are_named_in_legend_and_caption(tmp_path):
     labels = [line.get_label() for line in axes.get_lines()]
     assert "partly covered, not in the trend" in labels
     assert "hollow ones are left out of it" in trend_chart(trend, "Output", 1, 0.95).caption
+
+
+def test_values_every_fifth_year_are_joined(tmp_path):
+    frame = yearly_frame()
+    frame = frame[frame.year % 5 == 1]  # 1991, 1996, 2001, 2006
+    trend = frame_trend(frame, tmp_path, "year")
+    axes = Figure().subplots()
+    draw_trend(axes, trend)
+    (line,) = joining_lines(axes)  # one stroke through all four, no break between them
+    assert len(line.get_xdata()) == 4
+    assert "one every 5 years" in trend_chart(trend, "Output", 1, 0.95).caption

@@ -74,7 +74,7 @@ def test_numeric_year_column_is_yearly(tmp_path):
     assert trend.change == pytest.approx(ols.params[1] * span, rel=1e-9)
     # About 1.5 a year over 19 years, as constructed.
     assert trend.change == pytest.approx(1.5 * 19, rel=0.15)
-    assert span_text(trend) == "From 1991 to 2010 (19 years; 20 years in the fit)"
+    assert span_text(trend) == "From 1991 to 2010 (19 years; 20 yearly means in the fit)"
     assert partial_text(trend) == ""
 
 
@@ -147,7 +147,10 @@ def test_quarterly_auto_and_partial_quarters_left_out(tmp_path):
     assert (trend.change_ci_low, trend.change_ci_high) == pytest.approx(
         (low * trend.span_days, high * trend.span_days), rel=1e-9
     )
-    assert span_text(trend) == "From 10 Feb 2019 to 20 Nov 2023 (4.8 years; 18 quarters in the fit)"
+    assert (
+        span_text(trend)
+        == "From 10 Feb 2019 to 20 Nov 2023 (4.8 years; 18 quarterly means in the fit)"
+    )
     assert "first and last quarters (2019 Q1, 2023 Q4)" in partial_text(trend)
     assert "left out of the fit" in partial_text(trend)
 
@@ -197,7 +200,7 @@ def test_quarterly_values_on_quarter_starts_cover_their_quarter(tmp_path):
     trend = frame_trend(frame, tmp_path, "t")
     assert (trend.period, trend.resolution, trend.partial_periods) == ("quarter", "quarter", "none")
     assert len(trend.periods) == 28 and trend.gaps == ()
-    assert span_text(trend) == "From 2015 Q1 to 2021 Q4 (6.8 years; 28 quarters in the fit)"
+    assert span_text(trend) == "From 2015 Q1 to 2021 Q4 (6.8 years; 28 quarterly means in the fit)"
 
 
 def test_monthly_values_stay_monthly_over_a_short_span(tmp_path):
@@ -215,3 +218,15 @@ def test_period_labels():
     assert period_label(day, "quarter") == str(pd.Period(day, "Q")).replace("Q", " Q")
     assert period_label(day, "year") == "2024" and period_label(day, "month") == "2024-08"
     assert period_label(day, "day") == "2024-08-01"
+
+
+def test_values_every_fifth_year_have_a_cadence_not_gaps(tmp_path):
+    rng = np.random.default_rng(30)
+    years = [y for y in range(1800, 1900, 5) if y != 1850]
+    frame = pd.DataFrame({"year": years, "y": rng.normal(40, 5, len(years))})
+    trend = frame_trend(frame, tmp_path, "year")
+    assert (trend.period, trend.cadence) == ("year", 5)
+    # reference: pandas period_range at a 5-year step, minus the years present
+    every = pd.period_range("1800", "1895", freq="5Y").start_time.date
+    assert trend.gaps == tuple(d for d in every if d.year not in years) == (dt.date(1850, 1, 1),)
+    assert runs([p.start for p in trend.periods], "year") == ((0, 10), (10, 19))

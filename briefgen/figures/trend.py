@@ -58,16 +58,19 @@ def draw_trend(axes, trend: Trend) -> None:
 
 
 def _draw_fit(axes, trend: Trend) -> None:
-    """The least-squares line through the period means, from the first to the last timestamp."""
+    """The least-squares line through the period means, over the span and every period's middle."""
     if trend.fit is None or trend.fit.slope is None or trend.first_time is None:
         return
-    start, end = trend.first_time, trend.last_time
-    # The fit's slope is per day, measured from the first timestamp; its rise over the
-    # span is the brief's change.
-    ends = [trend.fit.intercept, trend.fit.intercept + trend.fit.slope * trend.span_days]
+    first = trend.first_time.replace(tzinfo=None)
+    middles = [_middle(p.start, p.end) for p in trend.periods]
+    # Yearly values dated 1 January sit mid-year: reach their points, not only the dates.
+    start = min(first, middles[0])
+    end = max(trend.last_time.replace(tzinfo=None), middles[-1])
+    # The fit's slope is per day, measured from the first timestamp.
+    days = [(x - first).total_seconds() / 86_400 for x in (start, end)]
     axes.plot(
         [start, end],
-        ends,
+        [trend.fit.intercept + trend.fit.slope * d for d in days],
         color=ACCENT,
         linestyle=(0, (4, 2)),
         linewidth=1.3,
@@ -78,10 +81,21 @@ def _draw_fit(axes, trend: Trend) -> None:
 def _caption(trend: Trend, label: str, confidence: float) -> str:
     """What the points, hollow points and dashed line mean, and how many rows they rest on."""
     n = sum(p.n for p in trend.periods)
+    # An interval needs two rows in a period; one value a period (yearly figures) has none.
+    intervals = (
+        f"with {fmt_level(confidence)} Student t intervals"
+        if any(p.n > 1 for p in trend.periods)
+        else "(one row each, so no intervals)"
+    )
+    hollow = (
+        " Hollow points: periods the data cover only in part."
+        if any(p.partial for p in trend.periods)
+        else ""
+    )
     text = (
-        f"Mean {label[:1].lower() + label[1:]} per {trend.period} with {fmt_level(confidence)} Student t intervals, "
-        f"{fmt_count(n)} rows over {len(trend.periods)} {trend.period}s. Hollow points: periods the data cover "
-        "only in part. Dashed: least-squares straight line through the period means"
+        f"Mean {label[:1].lower() + label[1:]} per {trend.period} {intervals}, "
+        f"{fmt_count(n)} rows over {len(trend.periods)} {trend.period}s{_every(trend)}.{hollow} "
+        "Dashed: least-squares straight line through the period means"
     )
     if trend.partial_periods == "left_out":
         text += " of fully covered periods (the hollow ones are left out of it)"
@@ -93,6 +107,10 @@ def _caption(trend: Trend, label: str, confidence: float) -> str:
     if trend.gaps:
         text += f" The line breaks at {fmt_count(len(trend.gaps))} {_plural_period(trend)} without data."
     return text
+
+
+def _every(trend: Trend) -> str:
+    return f", one every {trend.cadence} {trend.period}s" if trend.cadence > 1 else ""
 
 
 def _plural_period(trend: Trend) -> str:

@@ -8,6 +8,8 @@ the small per-period results in Python; the engine does the truncation of rows.
 from __future__ import annotations
 
 import datetime as dt
+import itertools
+import math
 from collections.abc import Sequence
 
 PERIODS = ("day", "week", "month", "quarter", "year")
@@ -84,26 +86,55 @@ def is_partial(start: dt.date, end: dt.date, first: dt.date, last_covered: dt.da
     return start < first or end - dt.timedelta(days=1) > last_covered
 
 
+def period_number(start: dt.date, period: str) -> int:
+    """A period's position on a count of periods, so that consecutive periods differ by 1."""
+    if period == "day":
+        return start.toordinal()
+    if period == "week":
+        return start.toordinal() // 7  # week starts are Mondays, 7 days apart
+    if period == "month":
+        return start.year * 12 + start.month - 1
+    if period == "quarter":
+        return (start.year * 12 + start.month - 1) // 3
+    return start.year
+
+
+def cadence(starts: Sequence[dt.date], period: str) -> int:
+    """The step, in periods, the data are recorded at: 5 for values every fifth year, else 1.
+
+    The greatest common divisor of the distances between present periods: a series
+    recorded every fifth year has no gaps in between, while one missing value in a
+    yearly series makes a gap.
+    """
+    numbers = [period_number(s, period) for s in starts]
+    if len(numbers) < 2:
+        return 1
+    return math.gcd(*(b - a for a, b in itertools.pairwise(numbers))) or 1
+
+
 def gaps(starts: Sequence[dt.date], period: str) -> tuple[dt.date, ...]:
-    """Period starts between the first and last present period that have no data."""
+    """Period starts on the data's cadence, between the first and last present period, without data."""
     if not starts:
         return ()
-    present = set(starts)
+    step, present = cadence(starts, period), set(starts)
     missing, start = [], starts[0]
     while start < starts[-1]:
         if start not in present:
             missing.append(start)
-        start = next_period_start(start, period)
+        for _ in range(step):
+            start = next_period_start(start, period)
     return tuple(missing)
 
 
 def runs(starts: Sequence[dt.date], period: str) -> tuple[tuple[int, int], ...]:
-    """Index ranges [i, j) of consecutive periods: a figure draws one line per run, broken at gaps."""
+    """Index ranges [i, j) of periods one cadence step apart: a figure draws one line per run."""
     if not starts:
         return ()
+    step = cadence(starts, period)
+    numbers = [period_number(s, period) for s in starts]
     result, begin = [], 0
     for i in range(1, len(starts)):
-        if next_period_start(starts[i - 1], period) != starts[i]:
+        if numbers[i] - numbers[i - 1] != step:
             result.append((begin, i))
             begin = i
     result.append((begin, len(starts)))

@@ -37,6 +37,7 @@ from briefgen.stats.periods import (
     MIN_FIT_PERIODS,
     PERIODS,
     RESOLUTIONS,
+    cadence,
     choose_period,
     gaps,
     is_partial,
@@ -98,7 +99,9 @@ class Trend:
     all are 1 January, ``intraday`` when some carry a time of day). ``partial_periods``
     says how partial first and last periods were treated: ``left_out`` of the fit
     (their starts in ``left_out_of_fit``), ``kept`` because leaving them out would
-    leave fewer than 3 periods, or ``none`` when no period is partial.
+    leave fewer than 3 periods, or ``none`` when no period is partial. ``cadence`` is
+    the step in periods the data are recorded at (5 for values every fifth year);
+    ``gaps`` are missing steps of that cadence.
     """
 
     key: str
@@ -123,6 +126,7 @@ class Trend:
     resolution: str = "intraday"
     partial_periods: str = "none"
     left_out_of_fit: tuple[dt.date, ...] = ()
+    cadence: int = 1
 
 
 def _as_date(value: dt.date | dt.datetime) -> dt.date:
@@ -328,4 +332,5 @@ def time_trend(frame_table: ir.Table, confidence: float = 0.95, period: str = "a
         resolution=resolution,
         partial_periods=handling,
         left_out_of_fit=tuple(p.start for p in periods if not p.in_fit),
+        cadence=cadence([p.start for p in periods], chosen),
     )
