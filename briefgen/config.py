@@ -19,7 +19,7 @@ from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_valida
 
 from briefgen.errors import ConfigError
 
-Period = Literal["auto", "day", "week", "month"]
+Period = Literal["auto", "day", "week", "month", "quarter", "year"]
 
 # Tokens output.dir and the email subject may carry, filled from the build date.
 DATE_TOKENS = ("date", "year", "month", "day")
@@ -66,7 +66,11 @@ class EngineSpec(_Strict):
 
 
 class TimeSpec(_Strict):
-    """A date or timestamp column, and the period to summarise it by."""
+    """A date, timestamp or year column, and the period to summarise it by.
+
+    ``auto`` picks the period from the span and never finer than the data are
+    recorded (see ``briefgen.stats.periods.choose_period``); a column of years is yearly.
+    """
 
     column: str
     period: Period = "auto"

@@ -120,9 +120,11 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
         )
     if stats.trend is not None:
         notes.append(
-            f"The trend uses one value per {stats.trend.period} (ISO weeks start on Monday); the overall change "
+            f"The trend uses one value per {stats.trend.period}"
+            f"{' (ISO weeks start on Monday)' if stats.trend.period == 'week' else ''}; the overall change "
             "is the least-squares slope of the period means over time (one point per period, unweighted) "
-            "multiplied by the span, so shocks shared within a period do not narrow its interval."
+            "multiplied by the span, so shocks shared within a period do not narrow its interval. A first or "
+            "last period the data cover only in part is left out of the line unless fewer than 3 would remain."
         )
     return tuple(notes)
 

@@ -32,6 +32,7 @@ from briefgen.stats.regression import RegressionFit
 from briefgen.stats.relationships import GroupSlopes, LogFit
 from briefgen.stats.trend import Trend
 from briefgen.stats.twoway import CrossTable
+from briefgen.trend_text import partial_text, span_text
 
 SMALL_GROUP = (
     30  # common practice, no published source: below ~30 a mean's interval is wide and fragile
@@ -411,11 +412,11 @@ def cross_finding(
 def trend_finding(trend: Trend, words: Wording, family: Family) -> Finding | None:
     if trend.change is None or trend.change_ci_low is None or not trend.periods:
         return None
-    first, last = trend.first_time, trend.last_time
     text = (
-        f"From {first:%-d %b %Y} to {last:%-d %b %Y} ({len(trend.periods)} {trend.period}s), the straight-line "
+        f"{span_text(trend)}, the straight-line "
         f"trend of {words.lower} changed by {_signed(trend.change, words)} across the span "
         f"({words.level_name} interval {_signed(trend.change_ci_low, words)} to {_signed(trend.change_ci_high, words)})."
+        f"{partial_text(trend)}"
     )
     clear = family.passes(trend.key)
     if clear:

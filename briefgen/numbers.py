@@ -6,6 +6,8 @@ value near 1e12 with spread 0.1 keeps the digits that differ between groups.
 
 from __future__ import annotations
 
+import calendar
+import datetime as dt
 import math
 
 
@@ -98,3 +100,46 @@ def fmt_step(step: float) -> str:
     if step >= 1:
         return fmt_count(int(round(step)))
     return fmt(step, max(0, -math.floor(math.log10(step))))
+
+
+def _plural(count: float, unit: str) -> str:
+    number = f"{count:,.1f}".removesuffix(".0") if isinstance(count, float) else f"{count:,}"
+    return f"{number} {unit}" if number == "1" else f"{number} {unit}s"
+
+
+def _whole_months(first: dt.date, last: dt.date) -> tuple[int, int]:
+    """Calendar months from ``first`` to ``last`` and the days left over after them."""
+    months = (last.year - first.year) * 12 + last.month - first.month
+    if last.day < first.day:
+        months -= 1
+    total = first.year * 12 + first.month - 1 + months
+    year, month = divmod(total, 12)
+    # The same day of the month, or the month's last day when it is shorter.
+    day = min(first.day, calendar.monthrange(year, month + 1)[1])
+    return months, (last - dt.date(year, month + 1, day)).days
+
+
+def fmt_span(first: dt.date | dt.datetime, last: dt.date | dt.datetime) -> str:
+    """The time from ``first`` to ``last`` in the unit people say it in: 45 days, 12 years.
+
+    Days up to 60 days, weeks up to half a year (183 days), months up to two years,
+    then years to one decimal (common practice, no published source). Computed from
+    the calendar dates, so a span of 1 Jan 1991 to 1 Jan 2010 is 19 years whatever
+    the periods in between hold.
+    """
+    a = first.date() if isinstance(first, dt.datetime) else first
+    b = last.date() if isinstance(last, dt.datetime) else last
+    if b < a:
+        raise ValueError(f"span ends ({b}) before it starts ({a})")
+    days = (b - a).days
+    if days == 0:
+        return "under a day"
+    if days <= 60:
+        return _plural(days, "day")
+    if days < 183:
+        return _plural(round(days / 7), "week")
+    months, rest = _whole_months(a, b)
+    months += rest >= 15  # nearer the next month than this one
+    if months < 24:
+        return _plural(months, "month")
+    return _plural(round(months / 12, 1), "year")

@@ -177,15 +177,71 @@ def check_columns(table: ir.Table, spec: BriefSpec, label: str) -> None:
                 "name a numeric column."
             )
     if spec.time is not None:
-        kind = schema[spec.time.column]
-        if not (kind.is_temporal() or kind.is_string()):
-            raise DataError(
-                f"{label}: column '{spec.time.column}' named by 'time' holds {kind}, "
-                "not dates; name a date or timestamp column."
-            )
+        check_time_column(table, spec.time.column, label)
     if spec.target in spec.groups or spec.target in spec.predictors:
         raise DataError(
             f"{label}: the target '{spec.target}' is also listed as a group or predictor; remove it there."
+        )
+
+
+# Whole numbers in this range in a time column are read as years (1 January of that year).
+YEAR_RANGE = (1000, 9999)
+
+
+def time_values(table: ir.Table, name: str) -> ir.TimestampColumn:
+    """A time column as timestamps: dates and text as they parse, whole numbers as years.
+
+    A numeric column of years (1990, 2010) becomes 1 January of each year; numbers
+    that are not whole or fall outside ``YEAR_RANGE`` become missing, as does text
+    that parses neither as a date nor as a four-digit year. Missing times are counted
+    by the trend, never guessed.
+    """
+    column = table[name]
+    kind = column.type()
+    if kind.is_timestamp():
+        return column
+    if kind.is_numeric():
+        return _years(column.cast(dt.float64))
+    as_time = column.try_cast(dt.timestamp)
+    if kind.is_string():
+        # A text column of years, such as "1990", reads as years too.
+        return as_time.coalesce(_years(column.strip().try_cast(dt.float64)))
+    return as_time
+
+
+def _years(values: ir.FloatingColumn) -> ir.TimestampColumn:
+    low, high = YEAR_RANGE
+    whole = values.notnull() & ~values.isnan() & (values == values.floor())
+    year = whole & values.between(low, high)
+    stamp = ibis.date(values.cast(dt.int64), 1, 1).cast(dt.timestamp)
+    return ibis.ifelse(year, stamp, ibis.null(dt.timestamp))
+
+
+def check_time_column(table: ir.Table, name: str, label: str) -> None:
+    """Refuse a time column of the wrong type, or one where no value reads as a date."""
+    kind = table.schema()[name]
+    if not (kind.is_temporal() or kind.is_string() or kind.is_numeric()):
+        raise DataError(
+            f"{label}: column '{name}' named by 'time' holds {kind}, not dates; name a date, "
+            "timestamp or year column."
+        )
+    column = table[name]
+    found = table.aggregate(
+        present=column.count(),
+        parsed=time_values(table, name).count(),
+        example=column.cast(dt.string).min(),
+    )
+    row = found.to_pyarrow().to_pylist()[0]
+    if int(row["present"] or 0) == 0:
+        raise DataError(
+            f"{label}: column '{name}' named by 'time' is empty in every row; check the export."
+        )
+    if int(row["parsed"] or 0) == 0:
+        low, high = YEAR_RANGE
+        raise DataError(
+            f"{label}: column '{name}' named by 'time' has no value that reads as a date (one value "
+            f"is {row['example']!r}); write dates as 2024-03-31 or 2024-03-31 14:05, or years as "
+            f"whole numbers from {low} to {high}, or name another column in 'time'."
         )
 
 

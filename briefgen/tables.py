@@ -13,7 +13,8 @@ from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_p, fmt_percent, p
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
 from briefgen.stats.groups import GroupResult
-from briefgen.stats.trend import Trend
+from briefgen.stats.periods import period_label
+from briefgen.stats.trend import PeriodStats, Trend
 from briefgen.stats.twoway import CrossTable
 
 SMALL_MARK = "†"
@@ -223,12 +224,18 @@ def cross_table_view(cross: CrossTable, words: Wording, names: tuple[str, str]) 
     )
 
 
+def _part_mark(period: PeriodStats) -> str:
+    if not period.partial:
+        return ""
+    return " (part)" if period.in_fit else " (part, not in the trend)"
+
+
 def trend_table(trend: Trend, words: Wording) -> Table:
     rows = []
     for p in trend.periods:
         rows.append(
             (
-                f"{p.start:%Y-%m-%d}" + (" (part)" if p.partial else ""),
+                period_label(p.start, trend.period) + _part_mark(p),
                 fmt_count(p.n),
                 words.value(p.mean),
                 words.interval(p.ci_low, p.ci_high) if p.ci_low is not None else "–",

@@ -170,6 +170,7 @@ def test_every_number_in_the_text_is_in_stats_json(built):
     page, payload = built
     values: list[float] = []
     _numbers_in(payload["stats"], values)
+    _numbers_in(payload["family"], values)  # adjusted p-values the certainty sentences quote
     # Captions total counts over a group's levels (outliers, listed outliers, far-out values).
     for group in payload["stats"]["groups"]:
         boxes = group["boxes"]

@@ -36,6 +36,21 @@ def test_time_accepts_a_column_name_or_a_mapping():
     assert long.time.period == "week"
 
 
+@pytest.mark.parametrize("period", ["auto", "day", "week", "month", "quarter", "year"])
+def test_every_period_is_accepted(period):
+    spec = parse_spec(GOOD + f"time:\n  column: when\n  period: {period}\n")
+    assert spec.time.period == period
+
+
+@pytest.mark.parametrize("period", ["fortnight", "yearly", "Q"])
+def test_unknown_period_names_the_key_and_the_choices(period):
+    with pytest.raises(ConfigError) as caught:
+        parse_spec(GOOD + f"time:\n  column: when\n  period: {period}\n", "brief.yaml")
+    message = str(caught.value)
+    assert "key 'time.period' is invalid" in message and "brief.yaml line 12" in message
+    assert "'quarter' or 'year'" in message
+
+
 def test_misspelled_key_names_line_and_suggests():
     text = GOOD.replace("predictors:", "predictor:")
     with pytest.raises(ConfigError) as caught:

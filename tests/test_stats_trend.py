@@ -43,7 +43,10 @@ PANDAS_PERIOD = {
     "day": lambda t: t.dt.floor("D"),
     "week": lambda t: t.dt.to_period("W-SUN").dt.start_time,
     "month": lambda t: t.dt.to_period("M").dt.start_time,
+    "quarter": lambda t: t.dt.to_period("Q").dt.start_time,
+    "year": lambda t: t.dt.to_period("Y").dt.start_time,
 }
+PANDAS_FREQ = {"day": "D", "week": "W-SUN", "month": "M", "quarter": "Q", "year": "Y"}
 
 
 def reference_periods(frame: pd.DataFrame, period: str, confidence: float) -> dict:
@@ -79,7 +82,10 @@ def assert_periods_match(trend, expected: dict) -> None:
             assert (p.ci_low, p.ci_high) == pytest.approx(e["ci"], rel=1e-11)
 
 
-@pytest.mark.parametrize(("period", "days"), [("day", 40), ("week", 200), ("month", 700)])
+@pytest.mark.parametrize(
+    ("period", "days"),
+    [("day", 40), ("week", 200), ("month", 700), ("quarter", 1500), ("year", 3700)],
+)
 def test_periods_match_pandas(tmp_path, period, days):
     frame = timed_frame(days, 1500, seed=3)
     frame.loc[frame.index[::50], "y"] = np.nan
@@ -90,8 +96,12 @@ def test_periods_match_pandas(tmp_path, period, days):
     for p in trend.periods:  # reference: Python's ISO calendar, weeks start on Monday
         if period == "week":
             assert p.start.isoweekday() == 1 and p.end - p.start == dt.timedelta(days=7)
-        if period == "month":
+        if period in ("month", "quarter", "year"):
             assert p.start.day == 1 and p.end.day == 1
+        if period == "quarter":
+            assert p.start.month in (1, 4, 7, 10) and (p.end.month - p.start.month) % 12 == 3
+        if period == "year":
+            assert (p.start.month, p.end.year) == (1, p.start.year + 1)
 
 
 def test_counts_of_rows_used_and_left_out(tmp_path):
@@ -106,12 +116,23 @@ def test_counts_of_rows_used_and_left_out(tmp_path):
     assert sum(p.n for p in trend.periods) == trend.rows_used
 
 
-def reference_period_points(frame: pd.DataFrame, period: str) -> tuple[np.ndarray, np.ndarray]:
-    """Period midpoints (days since the first usable time) and period means, from pandas."""
+def reference_period_points(
+    frame: pd.DataFrame, period: str, full_only: bool = True
+) -> tuple[np.ndarray, np.ndarray]:
+    """Period midpoints (days since the first usable time) and period means, from pandas.
+
+    With ``full_only`` the first and last periods are dropped when the data do not reach
+    their first or last calendar day, as long as at least 3 periods remain.
+    """
     usable = frame.dropna(subset=["t", "y"])
-    freq = {"day": "D", "week": "W-SUN", "month": "M"}[period]
-    labels = usable.t.dt.to_period(freq)
+    labels = usable.t.dt.to_period(PANDAS_FREQ[period])
     means = usable.groupby(labels)["y"].mean()  # reference: pandas groupby mean
+    if full_only:
+        first, last = usable.t.min().normalize(), usable.t.max().normalize()
+        # reference: pandas Period start_time and end_time (the period's last instant)
+        partial = (means.index.start_time < first) | (means.index.end_time.normalize() > last)
+        if (~partial).sum() >= 3:
+            means = means[~partial]
     starts = means.index.start_time
     middles = starts + ((means.index + 1).start_time - starts) / 2
     days = (middles - usable.t.min()).total_seconds().to_numpy() / 86_400
@@ -127,7 +148,8 @@ def test_overall_change_matches_linregress_and_statsmodels_on_period_means(tmp_p
     usable = frame.dropna()
     span = (usable.t.max() - usable.t.min()).total_seconds() / 86_400
     assert trend.span_days == pytest.approx(span, rel=1e-12)
-    assert trend.fit.n == len(x) == len(trend.periods)
+    assert trend.fit.n == len(x) == sum(p.in_fit for p in trend.periods)
+    assert len(trend.periods) == len(reference_period_points(frame, period, full_only=False)[0])
     line = scipy_stats.linregress(x, y)  # reference: scipy linregress on the period means
     assert trend.change == pytest.approx(line.slope * span, rel=1e-9)
     assert trend.change_per_30_days == pytest.approx(line.slope * 30, rel=1e-9)
@@ -240,10 +262,19 @@ def test_auto_period_rule():
     # The rule stated in choose_period's docstring (common practice, no published source).
     assert [choose_period(d) for d in (0, 31, 60)] == ["day"] * 3
     assert [choose_period(d) for d in (60.5, 200, 420)] == ["week"] * 3
-    assert [choose_period(d) for d in (420.5, 3000)] == ["month"] * 2
+    assert [choose_period(d) for d in (420.5, 900, 1095)] == ["month"] * 3
+    assert [choose_period(d) for d in (1100, 2000, 2921)] == ["quarter"] * 3
+    assert [choose_period(d) for d in (2923, 7000, 40_000)] == ["year"] * 3
+    # Never finer than the data are recorded: yearly values stay yearly over any span.
+    assert [choose_period(d, "year") for d in (0, 400, 3000)] == ["year"] * 3
+    assert choose_period(300, "month") == "month" and choose_period(3000, "month") == "year"
+    assert choose_period(30, "day") == choose_period(30, "intraday") == "day"
 
 
-@pytest.mark.parametrize(("days", "period"), [(20, "day"), (150, "week"), (900, "month")])
+@pytest.mark.parametrize(
+    ("days", "period"),
+    [(20, "day"), (150, "week"), (900, "month"), (2000, "quarter"), (4000, "year")],
+)
 def test_auto_gives_a_readable_number_of_points(tmp_path, days, period):
     frame = timed_frame(days, 2000, seed=days)
     trend = time_trend(engine_table(frame, tmp_path))
@@ -316,7 +347,7 @@ def test_one_timestamp_and_no_usable_rows(tmp_path):
 
 def test_unknown_period_rejected(tmp_path):
     with pytest.raises(ValueError, match="period"):
-        time_trend(engine_table(timed_frame(10, 20, seed=1), tmp_path), period="quarter")
+        time_trend(engine_table(timed_frame(10, 20, seed=1), tmp_path), period="fortnight")
 
 
 @settings(max_examples=10, deadline=None)
@@ -326,7 +357,7 @@ def test_unknown_period_rejected(tmp_path):
         min_size=1,
         max_size=30,
     ),
-    st.sampled_from(["day", "week", "month"]),
+    st.sampled_from(["day", "week", "month", "quarter", "year"]),
 )
 def test_bucketing_matches_pandas_for_any_timestamps(stamps, period):
     frame = pd.DataFrame({"t": pd.to_datetime(stamps).as_unit("us"), "y": 1.0})

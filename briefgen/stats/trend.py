@@ -1,8 +1,9 @@
 """Trend over time: one summary of the target per period, and the change across the span.
 
-Periods are calendar days, ISO 8601 weeks (starting Monday) or calendar months,
-truncated by the engine. Each period's mean, sd, median and interval come from
-``summarise_levels`` (exact median-shifted two passes, type 7 quantiles).
+Periods are calendar days, ISO 8601 weeks (starting Monday), calendar months,
+quarters or years, truncated by the engine (calendar rules in ``periods``). Each
+period's mean, sd, median and interval come from ``summarise_levels`` (exact
+median-shifted two passes, type 7 quantiles).
 
 The overall change comes from the periods, not the rows: an ordinary least squares
 line through the period means against the period midpoints (days since the first
@@ -12,8 +13,11 @@ them as independent and gives intervals far too narrow. Fitting one value per
 period is robust to shocks shared within a period: it avoids pseudo-replication
 (Hurlbert 1984, Ecological Monographs 54). The fit is unweighted, each period one
 point whatever its row count: the simplest choice, and a conservative one, since
-it lends no extra weight to busy periods (a thin partial period counts as much as
-a full one). It runs in Python on the per-period results (period-sized data).
+it lends no extra weight to busy periods. A first or last period the data cover
+only in part (a quarter whose data start in its last week) is left out of the fit,
+so a thin edge cannot drive the test, unless fewer than ``MIN_FIT_PERIODS`` would
+remain; the result says which periods were left out, or that they were kept. It
+runs in Python on the per-period results (period-sized data).
 """
 
 from __future__ import annotations
@@ -28,17 +32,27 @@ import numpy as np
 from briefgen.stats.core.shifted import deviations
 from briefgen.stats.core.summary import summarise_levels
 from briefgen.stats.core.usage import RowUsage, usage
+from briefgen.stats.periods import (
+    ENGINE_UNIT,
+    MIN_FIT_PERIODS,
+    PERIODS,
+    RESOLUTIONS,
+    cadence,
+    choose_period,
+    gaps,
+    is_partial,
+    last_covered_day,
+    next_period_start,
+)
 from briefgen.stats.regression import RegressionFit, fit_from_sums
+
+__all__ = ["PERIODS", "PeriodStats", "Trend", "choose_period", "next_period_start", "time_trend"]
 
 log = logging.getLogger(__name__)
 
-PERIODS = ("day", "week", "month")
-_TRUNCATE_UNIT = {"day": "D", "week": "W", "month": "M"}
-# Auto period thresholds in days of span; they keep the series at about 8 to 60
-# points for spans from 8 days to 5 years (see choose_period).
-MAX_DAILY_SPAN = 60
-MAX_WEEKLY_SPAN = 420
 CHANGE_WINDOW_DAYS = 30
+# How the fit treated partial first and last periods (``Trend.partial_periods``).
+PARTIAL_HANDLING = ("none", "left_out", "kept")
 
 
 @dataclasses.dataclass(frozen=True, slots=True)
@@ -48,7 +62,8 @@ class PeriodStats:
     Only rows with both a time and a target value count, so ``n >= 1``. The
     interval is Student t (None when n < 2); ``mean_shift`` is mean − median at full
     precision, for differencing means at large offsets. ``partial`` marks a first or last
-    period that the data's span does not fully cover (see ``time_trend``).
+    period that the data's span does not fully cover (see ``time_trend``); ``in_fit``
+    is False for a partial period the trend line leaves out.
     """
 
     start: dt.date
@@ -63,22 +78,30 @@ class PeriodStats:
     ci_high: float | None
     partial: bool
     mean_shift: float | None = None
+    in_fit: bool = True
 
 
 @dataclasses.dataclass(frozen=True, slots=True)
 class Trend:
     """Per-period summaries and the change in the target across the time span.
 
-    ``fit`` is the straight line through the period means (y) against the period
-    midpoints in days since ``first_time`` (x): ``predictor`` is "days", ``n`` the
-    number of periods, intervals on n − 2 df; ``fit.intercept`` is the line's value
-    at ``first_time`` and ``fit.slope`` its change per day, which is what a figure
-    draws. ``change`` is ``fit.slope`` × ``span_days``, the line's rise from the
-    first to the last timestamp, with its interval from the slope's t interval;
-    ``change_per_30_days`` the same for 30 days. With two periods the line (and
-    ``change``) exist but their intervals are None; with one period all are None.
-    ``gaps`` lists period starts inside the span with no usable rows (they are
-    absent from ``periods``).
+    ``fit`` is the straight line through the means of the periods in the fit (y)
+    against their midpoints in days since ``first_time`` (x): ``predictor`` is
+    "days", ``n`` the number of periods fitted, intervals on n − 2 df;
+    ``fit.intercept`` is the line's value at ``first_time`` and ``fit.slope`` its
+    change per day, which is what a figure draws. ``change`` is ``fit.slope`` ×
+    ``span_days``, the line's rise from the first to the last timestamp, with its
+    interval from the slope's t interval; ``change_per_30_days`` the same for 30
+    days. With two periods the line (and ``change``) exist but their intervals are
+    None; with one period all are None. ``gaps`` lists period starts inside the span
+    with no usable rows (they are absent from ``periods``). ``resolution`` is the
+    coarsest calendar unit whose start every usable timestamp falls on (``year`` when
+    all are 1 January, ``intraday`` when some carry a time of day). ``partial_periods``
+    says how partial first and last periods were treated: ``left_out`` of the fit
+    (their starts in ``left_out_of_fit``), ``kept`` because leaving them out would
+    leave fewer than 3 periods, or ``none`` when no period is partial. ``cadence`` is
+    the step in periods the data are recorded at (5 for values every fifth year);
+    ``gaps`` are missing steps of that cadence.
     """
 
     key: str
@@ -100,29 +123,10 @@ class Trend:
     confidence: float
     fit: RegressionFit | None
     usage: RowUsage
-
-
-def choose_period(span_days: float) -> str:
-    """Period for a span: day up to 60 days, week up to 420 days (60 weeks), else month.
-
-    Days give 1 to 61 points, weeks 9 to 61, months 14 upwards (60 at five
-    years). Spans under 8 days give fewer than 8 points and spans over five years
-    more than 60 months: the three calendar periods cannot do better there.
-    """
-    if span_days <= MAX_DAILY_SPAN:
-        return "day"
-    if span_days <= MAX_WEEKLY_SPAN:
-        return "week"
-    return "month"
-
-
-def next_period_start(start: dt.date, period: str) -> dt.date:
-    """The start of the period after the one starting at ``start``."""
-    if period == "day":
-        return start + dt.timedelta(days=1)
-    if period == "week":
-        return start + dt.timedelta(days=7)
-    return dt.date(start.year + start.month // 12, start.month % 12 + 1, 1)
+    resolution: str = "intraday"
+    partial_periods: str = "none"
+    left_out_of_fit: tuple[dt.date, ...] = ()
+    cadence: int = 1
 
 
 def _as_date(value: dt.date | dt.datetime) -> dt.date:
@@ -130,28 +134,42 @@ def _as_date(value: dt.date | dt.datetime) -> dt.date:
 
 
 def _counts(frame_table: ir.Table) -> dict:
-    """One pass: row counts and the first and last usable timestamps."""
+    """One pass: row counts, the first and last usable timestamps, and their resolution."""
     table = frame_table
     usable = table.t.notnull() & table.y.notnull()
     # Microsecond timestamps come back as plain datetimes and serve as Ibis literals.
     micro = table.t.type().copy(scale=6)
+    # Usable rows whose timestamp is the start of its day, week, … year.
+    starts = {
+        f"at_{name}": (usable & (table.t == table.t.truncate(unit))).sum()
+        for name, unit in ENGINE_UNIT.items()
+    }
     return (
         table.aggregate(
             rows=table.count(),
+            usable=usable.sum(),
             rows_without_time=table.t.isnull().sum(),
             rows_without_target=(table.t.notnull() & table.y.isnull()).sum(),
             valued_without_time=(table.t.isnull() & table.y.notnull()).sum(),
             first_time=table.t.min(where=usable).cast(micro),
             last_time=table.t.max(where=usable).cast(micro),
+            **starts,
         )
         .to_pyarrow()
         .to_pylist()[0]
     )
 
 
+def _resolution(counts: dict) -> str:
+    """The coarsest unit whose start every usable timestamp falls on; ``intraday`` if none."""
+    usable = int(counts["usable"] or 0)
+    fitting = [name for name in PERIODS if usable and int(counts[f"at_{name}"] or 0) == usable]
+    return max(fitting, key=RESOLUTIONS.index) if fitting else "intraday"
+
+
 def _period_summaries(usable: ir.Table, period: str, confidence: float) -> list[PeriodStats]:
     """The periods in time order, each with its mean − median at full precision."""
-    levels = usable.select(level=usable.t.truncate(_TRUNCATE_UNIT[period]).date(), y=usable.y)
+    levels = usable.select(level=usable.t.truncate(ENGINE_UNIT[period]).date(), y=usable.y)
     summaries, _boxes = summarise_levels(levels, confidence, list_outliers=False)
     result = []
     for s in sorted(summaries, key=lambda s: s.level):
@@ -175,26 +193,25 @@ def _period_summaries(usable: ir.Table, period: str, confidence: float) -> list[
     return result
 
 
-def _mark_partial(periods: list[PeriodStats], first: dt.date, last: dt.date) -> list[PeriodStats]:
-    """Flag first/last periods whose calendar days the data span does not reach."""
-    marked = []
-    for p in periods:
-        last_day = p.end - dt.timedelta(days=1)
-        partial = p.start < first or last_day > last
-        marked.append(dataclasses.replace(p, partial=True) if partial else p)
-    return marked
+def _mark_partial(
+    periods: list[PeriodStats], first: dt.date, last: dt.date, resolution: str
+) -> list[PeriodStats]:
+    """Flag first/last periods whose calendar days the data do not reach."""
+    covered = last_covered_day(last, resolution)
+    return [
+        dataclasses.replace(p, partial=True) if is_partial(p.start, p.end, first, covered) else p
+        for p in periods
+    ]
 
 
-def _gaps(periods: list[PeriodStats], period: str) -> tuple[dt.date, ...]:
-    if not periods:
-        return ()
-    present = {p.start for p in periods}
-    gaps, start = [], periods[0].start
-    while start < periods[-1].start:
-        if start not in present:
-            gaps.append(start)
-        start = next_period_start(start, period)
-    return tuple(gaps)
+def _choose_fit_periods(periods: list[PeriodStats]) -> tuple[list[PeriodStats], str]:
+    """Periods with ``in_fit`` set, and how partial ones were treated (PARTIAL_HANDLING)."""
+    partial = sum(p.partial for p in periods)
+    if not partial:
+        return periods, "none"
+    if len(periods) - partial < MIN_FIT_PERIODS:
+        return periods, "kept"
+    return [dataclasses.replace(p, in_fit=not p.partial) for p in periods], "left_out"
 
 
 def _scaled(value: float | None, factor: float) -> float | None:
@@ -257,28 +274,31 @@ def time_trend(frame_table: ir.Table, confidence: float = 0.95, period: str = "a
     ``frame_table`` holds ``t`` (timestamp) and ``y`` (float, null when missing);
     rows lacking either are not used and are counted. ``period`` is "auto" (see
     ``choose_period``, applied to the span from the first to the last usable
-    timestamp) or "day", "week" or "month". A period is ``partial`` when the
-    first usable timestamp falls on a later calendar day than the period's first
-    day, or the last usable timestamp on an earlier day than its last day; the
-    rule works at day resolution, so a day period is never partial.
+    timestamp and the data's resolution) or one of ``PERIODS``. A period is
+    ``partial`` when the first usable timestamp falls on a later calendar day than
+    the period's first day, or the data end before its last day; a timestamp at the
+    start of a coarser unit covers that unit (a yearly value dated 1 January covers
+    its year). The rule works at day resolution, so a day period is never partial.
     """
     if period != "auto" and period not in PERIODS:
-        raise ValueError(f"period must be 'auto', 'day', 'week' or 'month', not {period!r}")
+        raise ValueError(f"period must be 'auto' or one of {', '.join(PERIODS)}, not {period!r}")
     counts = _counts(frame_table)
     first_time, last_time = counts["first_time"], counts["last_time"]
     rows_used = int(counts["rows"]) - int(counts["rows_without_time"] or 0)
     rows_used -= int(counts["rows_without_target"] or 0)
     span_days = (last_time - first_time).total_seconds() / 86_400 if first_time is not None else 0.0
-    chosen = choose_period(span_days) if period == "auto" else period
+    resolution = _resolution(counts)
+    chosen = choose_period(span_days, resolution) if period == "auto" else period
     table = frame_table
     usable = table.filter(table.t.notnull() & table.y.notnull())
 
     periods: list[PeriodStats] = []
-    fit = None
+    fit, handling = None, "none"
     if first_time is not None:
         periods = _period_summaries(usable, chosen, confidence)
-        periods = _mark_partial(periods, _as_date(first_time), _as_date(last_time))
-        fit = _fit_periods(periods, first_time, confidence)
+        periods = _mark_partial(periods, _as_date(first_time), _as_date(last_time), resolution)
+        periods, handling = _choose_fit_periods(periods)
+        fit = _fit_periods([p for p in periods if p.in_fit], first_time, confidence)
     slope = fit.slope if fit else None
     low = fit.slope_ci_low if fit else None
     high = fit.slope_ci_high if fit else None
@@ -287,7 +307,7 @@ def time_trend(frame_table: ir.Table, confidence: float = 0.95, period: str = "a
         key="trend",
         period=chosen,
         periods=tuple(periods),
-        gaps=_gaps(periods, chosen),
+        gaps=gaps([p.start for p in periods], chosen),
         first_time=first_time,
         last_time=last_time,
         span_days=span_days,
@@ -309,4 +329,8 @@ def time_trend(frame_table: ir.Table, confidence: float = 0.95, period: str = "a
             "no usable date",
             int(counts["valued_without_time"] or 0),
         ),
+        resolution=resolution,
+        partial_periods=handling,
+        left_out_of_fit=tuple(p.start for p in periods if not p.in_fit),
+        cadence=cadence([p.start for p in periods], chosen),
     )

@@ -16,11 +16,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import ibis
-import ibis.expr.datatypes as dt
 import ibis.expr.types as ir
 
 from briefgen.config import BriefSpec
-from briefgen.source import category, numeric
+from briefgen.source import category, numeric, time_values
 
 OTHER_PREFIX = "Other"
 
@@ -110,9 +109,9 @@ def build_frame(
     columns |= {key: category(table, name) for key, name in groups.items()}
     time = spec.time.column if spec.time else None
     if time:
-        raw = table[time]
-        # Text that does not parse as a date becomes missing (and is counted), not a crash.
-        columns["t"] = raw if raw.type().is_timestamp() else raw.try_cast(dt.timestamp)
+        # Text that does not parse as a date becomes missing (and is counted), not a crash;
+        # whole numbers from 1000 to 9999 are years.
+        columns["t"] = time_values(table, time)
     narrow = table.select(**columns)
     if cache:
         # One scan of the file; every later pass reads the engine's columnar copy.
