@@ -24,7 +24,9 @@ class RegressionFit:
     """Straight-line fit of the target on one predictor, over rows with both values.
 
     ``residual_sd`` is s = √(SSE/(n−2)); with ``x_mean`` and ``sxx`` it gives the
-    confidence band of the line at any x: s·√(1/n + (x − x̄)²/Sxx).
+    confidence band of the line at any x: s·√(1/n + (x − x̄)²/Sxx). ``x_distinct``
+    counts the distinct predictor values in those rows (None where not counted, as
+    for the trend's fit on period means).
     """
 
     predictor: str
@@ -45,6 +47,7 @@ class RegressionFit:
     sxx: float | None
     x_min: float | None
     x_max: float | None
+    x_distinct: int | None = None
 
     def band(self, x: float, confidence: float) -> tuple[float, float]:
         """Confidence interval of the fitted mean at ``x``."""
@@ -150,9 +153,14 @@ def fit_lines(
                 x_min=refs[f"x_min{i}"],
                 x_max=refs[f"x_max{i}"],
                 confidence=confidence,
+                x_distinct=_count(refs.get(f"distinct{i}")),
             )
         )
     return tuple(fits)
+
+
+def _count(value) -> int | None:
+    return None if value is None else int(value)
 
 
 # RegressionFit fields that are estimates: unknown (None) when a fit cannot be made.
@@ -184,13 +192,14 @@ def fit_from_sums(
     x_min: float | None,
     x_max: float | None,
     confidence: float,
+    x_distinct: int | None = None,
 ) -> RegressionFit:
     """The fit from centred sums and the residual sum of squares, however they were summed.
 
     Slope and intercept need n ≥ 2 and spread in x; errors, intervals and R² need n ≥ 3.
     """
     base = {"predictor": predictor, "n": n, "x_mean": x_mean, "y_mean": y_mean, "sxx": sxx}
-    base |= {"x_min": x_min, "x_max": x_max}
+    base |= {"x_min": x_min, "x_max": x_max, "x_distinct": x_distinct}
     empty = dict.fromkeys(_ESTIMATE_FIELDS)
     if n < 2 or not sxx or sxx <= 0:
         return RegressionFit(**base, **empty)

@@ -13,8 +13,9 @@ from briefgen.stats.core.analysis import one_row
 
 def median_references(table: ir.Table, predictors: list[str]) -> dict:
     """Per predictor i: rows with both values ``n{i}``, medians ``x_ref{i}``/``y_ref{i}``
-    over them, the range ``x_min{i}``/``x_max{i}``, and ``lacking{i}``, rows with a
-    target value but no predictor value."""
+    over them, the range ``x_min{i}``/``x_max{i}``, ``distinct{i}``, how many distinct
+    predictor values those rows take (a handful reads as codes), and ``lacking{i}``,
+    rows with a target value but no predictor value."""
     expressions = {}
     y = table.y
     for i, column in enumerate(predictors):
@@ -26,6 +27,7 @@ def median_references(table: ir.Table, predictors: list[str]) -> dict:
             f"y_ref{i}": y.quantile(0.5, where=both),
             f"x_min{i}": x.min(where=both),
             f"x_max{i}": x.max(where=both),
+            f"distinct{i}": x.nunique(where=both),
             f"lacking{i}": (y.notnull() & x.isnull()).sum(),
         }
     return one_row(table, expressions)
