@@ -9,9 +9,10 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from briefgen.findings import Wording
-from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_p, fmt_percent, p_text
+from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_interval, fmt_p, fmt_percent, p_text
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
+from briefgen.stats.core.frame import ShownLevels
 from briefgen.stats.groups import GroupResult
 from briefgen.stats.trend import Trend
 from briefgen.stats.twoway import CrossTable
@@ -47,7 +48,13 @@ def group_table(group: GroupResult, words: Wording, name: str) -> Table:
                 fmt_count(box.outlier_count) if box else "–",
             )
         )
-    notes = []
+    notes = [
+        "Outliers are counted against each level's own box (beyond 1.5 × IQR), so they need not "
+        "add up to the count over all values."
+    ]
+    fold = fold_note(group.shown, name)
+    if fold:
+        notes.append(fold)
     if group.rows_without_level:
         notes.append(
             f"{fmt_count(group.rows_without_level)} rows have no {name} and are not in this table."
@@ -62,11 +69,30 @@ def group_table(group: GroupResult, words: Wording, name: str) -> Table:
             f"{words.level_name} interval",
             "Median",
             "Middle half (Q1 – Q3)",
-            "Outliers",
+            "Outliers in level",
         ),
         rows=tuple(rows),
         numeric=(False, True, True, True, True, True, True),
         notes=tuple(notes),
+    )
+
+
+MAX_FOLDED_LISTED = 12  # a longer list of names is not read; the count says the rest
+
+
+def fold_note(shown: ShownLevels, name: str) -> str | None:
+    """What "Other (k levels)" holds: its rows, their share, and the folded levels by name."""
+    if shown.other_label is None:
+        return None
+    share = shown.folded_share or 0.0
+    listed = ", ".join(shown.folded[:MAX_FOLDED_LISTED])
+    more = len(shown.folded) - MAX_FOLDED_LISTED
+    listed += f" and {more} more" if more > 0 else ""
+    return (
+        f"{shown.other_label} holds {fmt_count(shown.folded_rows)} rows "
+        f"({fmt_percent(share, 0 if share >= 0.1 else 1)}): {listed}. The {len(shown.kept)} levels "
+        f"of {name} shown by name are the largest; levels of equal size are ranked by how far "
+        "their mean lies from the overall mean."
     )
 
 
@@ -259,7 +285,7 @@ def fits_table(stats: BriefStats, labels: dict[str, str], words: Wording) -> Tab
                 labels.get(fit.predictor, fit.predictor),
                 fmt_count(fit.n),
                 fmt(fit.slope, d),
-                f"{fmt(fit.slope_ci_low, d)} to {fmt(fit.slope_ci_high, d)}",
+                fmt_interval(fit.slope_ci_low, fit.slope_ci_high, d),
                 fmt(fit.r_squared, 2) if fit.r_squared is not None else "–",
                 fmt(corr.pearson_r, 2) if corr and corr.pearson_r is not None else "–",
                 fmt(corr.spearman_rho, 2) if corr and corr.spearman_rho is not None else "–",
