@@ -47,7 +47,13 @@ def _numeric_key(level: str) -> tuple[float, str]:
 
 # Column roles: what a column is for, guessed from its type and how many values it takes.
 MAX_GROUP_LEVELS = 50  # more distinct labels than this reads as free text or an id, not a group
-SMALL_INTEGER_LEVELS = 12  # integers taking this few values (years, ratings) read as groups
+# Whole numbers taking at most as many values as a group shows (years, ratings) read as
+# groups; with more, a group would fold most of them into "Other" and lose their order, so
+# they are measures to relate the target to (common practice, no published source).
+SMALL_INTEGER_LEVELS = MAX_LEVELS
+# Any numbers taking this few values read as codes (1, 2, 3 for kinds), not quantities
+# (common practice, no published source); findings.CODE_LIKE_VALUES flags such predictors.
+CODE_VALUES = 5
 
 
 @dataclass(frozen=True, slots=True)
@@ -58,6 +64,7 @@ class ColumnRole:
     role: str
     distinct: int
     missing: int
+    numeric: bool = False
 
 
 def column_roles(table: ir.Table) -> tuple[ColumnRole, ...]:
@@ -72,7 +79,8 @@ def column_roles(table: ir.Table) -> tuple[ColumnRole, ...]:
     roles = []
     for i, name in enumerate(schema.names):
         kind, distinct = schema[name], int(row[f"d{i}"])
-        roles.append(ColumnRole(name, _role(kind, distinct, rows), distinct, int(row[f"m{i}"])))
+        role = _role(kind, distinct, rows)
+        roles.append(ColumnRole(name, role, distinct, int(row[f"m{i}"]), kind.is_numeric()))
     return tuple(roles)
 
 
@@ -81,7 +89,7 @@ def _role(kind, distinct: int, rows: int) -> str:
         return "time"
     unique = rows > MAX_GROUP_LEVELS and distinct >= 0.95 * rows
     if kind.is_floating() or kind.is_decimal():
-        return "measure"
+        return "category" if 1 < distinct <= CODE_VALUES and rows > distinct else "measure"
     if kind.is_integer():
         if unique:
             return "id"

@@ -12,7 +12,7 @@ from pathlib import Path
 import yaml
 
 from briefgen.errors import ConfigError
-from briefgen.profile import ColumnRole, column_roles
+from briefgen.profile import MAX_GROUP_LEVELS, MAX_LEVELS, ColumnRole, column_roles
 from briefgen.source import read_table
 
 MAX_GROUPS = 3
@@ -42,6 +42,22 @@ def propose(roles: tuple[ColumnRole, ...]) -> dict:
     return proposal
 
 
+def _numeric_role_notes(roles: tuple[ColumnRole, ...], proposal: dict) -> list[str]:
+    """Why a numeric column became a group or a predictor, where the choice is not obvious."""
+    notes = []
+    for r in roles:
+        if r.numeric and r.name in proposal["groups"]:
+            notes.append(
+                f"# {r.name}: numbers with {r.distinct} values, proposed as a group (codes)."
+            )
+        elif r.numeric and r.name in proposal["predictors"] and r.distinct <= MAX_GROUP_LEVELS:
+            notes.append(
+                f"# {r.name}: numbers with {r.distinct} values, more than a group shows "
+                f"(max_levels {MAX_LEVELS}), so proposed as a predictor."
+            )
+    return notes
+
+
 def starter_text(data: Path, config: Path, title: str | None = None) -> str:
     """The YAML text of a proposed config for ``data``, written to sit at ``config``."""
     label = str(data)
@@ -67,6 +83,7 @@ def starter_text(data: Path, config: Path, title: str | None = None) -> str:
     ]
     if skipped:
         header.append(f"# Not used: {', '.join(skipped)}.")
+    header += _numeric_role_notes(roles, proposal)
     header.append("# Reference of every key: README, section 'Config reference'.")
     return (
         "\n".join(header)
