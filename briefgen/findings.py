@@ -463,7 +463,7 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
                 f"Small groups in {names.get(group.variable, group.variable)}: {listed}. "
                 "Their averages can move a lot with a few more rows."
             )
-    notes += level_cautions(stats, names)
+    notes += level_cautions(stats, words, names)
     skewed = [c for c in stats.comparisons if c.strongly_skewed and c.skewness is not None]
     if skewed:
         pull = (
@@ -489,7 +489,8 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
     box = stats.overall_box
     if box is not None and box.outlier_count:
         notes.append(
-            f"{fmt_count(box.outlier_count)} values lie far from the rest (beyond 1.5 × IQR from the box "
+            f"{fmt_count(box.outlier_count)} {'value lies' if box.outlier_count == 1 else 'values lie'} "
+            "far from the rest (beyond 1.5 × IQR from the box "
             f"of all values{_within_level_note(stats)}). "
             "None were removed: every figure and average includes them."
         )
@@ -504,12 +505,10 @@ def _within_level_note(stats: BriefStats) -> str:
     """Why the tables by group count other outliers: each level is held to its own box."""
     if not stats.groups:
         return ""
-    return (
-        "; the tables by group count outliers against each level's own box, so their counts differ"
-    )
+    return "; the tables by group count outliers against each level's own box, so their counts can differ"
 
 
-def level_cautions(stats: BriefStats, names: dict[str, str]) -> list[str]:
+def level_cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[str]:
     """Variables whose role in the config looks wrong for the values they hold.
 
     A numeric group with more distinct values than the brief can show loses its order
@@ -522,10 +521,11 @@ def level_cautions(stats: BriefStats, names: dict[str, str]) -> list[str]:
         if shown.numeric and shown.other_label is not None:
             name = names.get(group.variable, group.variable)
             notes.append(
-                f"{name} holds numbers with {fmt_count(shown.levels_in_data)} distinct values, so as "
+                f"{name[:1].upper() + name[1:]} holds numbers with {fmt_count(shown.levels_in_data)} "
+                "distinct values, so as "
                 f"a group it shows {len(shown.kept)} of them and folds the rest into "
                 f"{shown.other_label} ({fmt_percent(shown.folded_share)} of rows), losing their order. "
-                f"To see how {stats.target} changes along {group.variable}, list it under predictors "
+                f"To see how {words.lower} changes along it, list {group.variable} under predictors "
                 "in the config instead of groups."
             )
     for fit in stats.fits:

@@ -40,6 +40,12 @@ def level_order(summaries: tuple[Summary, ...], other_label: str | None = None) 
     return [s.level for s in ranked] + folded
 
 
+def natural_sorted(levels) -> list[str]:
+    """Levels in their natural (numeric) order when they have one, else as given."""
+    levels = list(levels)
+    return sorted(levels, key=_numeric_key) if has_natural_order(levels) else levels
+
+
 def _numeric_key(level: str) -> tuple[float, str]:
     match = re.match(r"^\s*([-+]?\d+(?:\.\d+)?)", level)
     return (float(match.group(1)) if match else float("inf"), level)

@@ -10,9 +10,10 @@ from dataclasses import dataclass
 
 from briefgen.findings import Wording
 from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_interval, fmt_p, fmt_percent, p_text
+from briefgen.profile import natural_sorted
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
-from briefgen.stats.core.frame import ShownLevels
+from briefgen.stats.core.frame import OTHER_PREFIX, ShownLevels
 from briefgen.stats.groups import GroupResult
 from briefgen.stats.trend import Trend
 from briefgen.stats.twoway import CrossTable
@@ -48,10 +49,12 @@ def group_table(group: GroupResult, words: Wording, name: str) -> Table:
                 fmt_count(box.outlier_count) if box else "–",
             )
         )
-    notes = [
-        "Outliers are counted against each level's own box (beyond 1.5 × IQR), so they need not "
-        "add up to the count over all values."
-    ]
+    notes = []
+    if any(b.outlier_count for b in group.boxes):
+        notes.append(
+            "Outliers are counted against each level's own box (beyond 1.5 × IQR), so they need "
+            "not add up to the count over all values."
+        )
     fold = fold_note(group.shown, name)
     if fold:
         notes.append(fold)
@@ -85,7 +88,8 @@ def fold_note(shown: ShownLevels, name: str) -> str | None:
     if shown.other_label is None:
         return None
     share = shown.folded_share or 0.0
-    listed = ", ".join(shown.folded[:MAX_FOLDED_LISTED])
+    # Numbered levels (years, codes) read best in their order; others largest first.
+    listed = ", ".join(natural_sorted(shown.folded)[:MAX_FOLDED_LISTED])
     more = len(shown.folded) - MAX_FOLDED_LISTED
     listed += f" and {more} more" if more > 0 else ""
     return (
@@ -157,7 +161,7 @@ def effects_table(comparison: GroupComparison, words: Wording, name: str) -> Tab
         )
     return Table(
         key=f"table-effects-{comparison.variable}",
-        caption=f"Each level of {name} against {comparison.reference_level}, the largest level",
+        caption=f"Each level of {name} against {comparison.reference_level}, {_reference_phrase(comparison)}",
         header=(
             "Level",
             "n",
@@ -174,6 +178,19 @@ def effects_table(comparison: GroupComparison, words: Wording, name: str) -> Tab
             "difference, not adjusted for the number of levels.",
         ),
     )
+
+
+def _reference_phrase(comparison: GroupComparison) -> str:
+    """Why this level is the reference: the largest, or first by name among equally large."""
+    sizes = {e.level: e.n for e in comparison.effects}
+    largest = sizes.get(comparison.reference_level)
+    # The fold is never the reference, so it does not count as a tie.
+    tied = sum(1 for level, n in sizes.items() if n == largest and not _is_fold_label(level))
+    return "the largest level" if tied <= 1 else "first by name of the equally largest levels"
+
+
+def _is_fold_label(level: str) -> bool:
+    return level.startswith(f"{OTHER_PREFIX} (") and level.endswith(" levels)")
 
 
 def _percent(value: float | None) -> str:

@@ -19,7 +19,7 @@ from briefgen.profile import column_roles
 from briefgen.source import open_source, read_table
 from briefgen.starter import propose
 from briefgen.stats import compute
-from briefgen.tables import fold_note, group_table
+from briefgen.tables import effects_table, fold_note, group_table
 
 
 def _stats(frame: pd.DataFrame, folder, body: str):
@@ -73,6 +73,8 @@ def test_other_is_not_the_reference_although_it_is_largest(twelve):
     assert comparison.reference_level != "Other (5 levels)"
     # Among equally large named levels the reference is the first by name (stated rule).
     assert comparison.reference_level == min(stats.groups[0].shown.kept)
+    caption = effects_table(comparison, wording_for(stats, "y"), "site").caption
+    assert caption.endswith("first by name of the equally largest levels")
     effect = next(e for e in comparison.effects if e.level == "L12")
     a = frame.y[frame.site == "L12"].to_numpy()
     b = frame.y[frame.site == comparison.reference_level].to_numpy()
@@ -163,9 +165,9 @@ def test_a_numeric_group_with_many_values_is_flagged(numeric_group):
     shown = stats.groups[0].shown
     assert shown.numeric and shown.levels_in_data == frame.hour.nunique() == 30
     assert shown.folded_share == pytest.approx(23 * 20 / len(frame))
-    notes = level_cautions(stats, {"hour": "hour"})
-    flagged = [n for n in notes if n.startswith("hour holds numbers with 30 distinct values")]
-    assert len(flagged) == 1 and "list it under predictors" in flagged[0]
+    notes = level_cautions(stats, wording_for(stats, "y"), {"hour": "hour"})
+    flagged = [n for n in notes if n.startswith("Hour holds numbers with 30 distinct values")]
+    assert len(flagged) == 1 and "list hour under predictors" in flagged[0]
     assert "77% of rows" in flagged[0]
 
 
@@ -180,7 +182,7 @@ def test_a_predictor_with_three_values_is_flagged_as_codes(numeric_group):
 
 def test_a_text_group_and_a_measure_predictor_are_not_flagged(twelve):
     stats, _ = twelve
-    assert level_cautions(stats, {"site": "site"}) == []
+    assert level_cautions(stats, wording_for(stats, "y"), {"site": "site"}) == []
 
 
 def test_init_proposes_the_numeric_column_as_predictor_and_codes_as_groups(tmp_path):
