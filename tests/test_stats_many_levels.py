@@ -19,6 +19,7 @@ from briefgen.profile import column_roles
 from briefgen.source import open_source, read_table
 from briefgen.starter import propose
 from briefgen.stats import compute
+from briefgen.stats.regression import EXACT_DISTINCT_UP_TO
 from briefgen.tables import effects_table, fold_note, group_table
 
 
@@ -227,3 +228,22 @@ def test_outlier_counts_say_which_box_they_use(tmp_path):
     assert "box of all values" in note and "each level's own box" in note
     table = group_table(stats.groups[0], words, "site")
     assert table.header[-1] == "Outliers in level"
+
+
+def test_distinct_counts_are_exact_for_few_values_and_large_for_many(tmp_path):
+    rng = np.random.default_rng(23)
+    n = 2000
+    frame = pd.DataFrame(
+        {
+            "steps": rng.integers(0, 20, n).astype(float),  # 20 values: counted exactly
+            "load": rng.normal(0, 1, n),  # continuous: an estimate, far above the codes
+            "y": rng.normal(0, 1, n),
+        }
+    )
+    stats = _stats(frame, tmp_path, "predictors: [steps, load]\n")
+    fits = {f.predictor: f for f in stats.fits}
+    # Reference: numpy's np.unique.
+    assert fits["steps"].x_distinct == len(np.unique(frame.steps)) == 20
+    assert fits["load"].x_distinct > EXACT_DISTINCT_UP_TO
+    assert fits["load"].x_distinct == pytest.approx(len(np.unique(frame.load)), rel=0.1)
+    assert level_cautions(stats, wording_for(stats, "y"), {}) == []

@@ -25,8 +25,9 @@ class RegressionFit:
 
     ``residual_sd`` is s = √(SSE/(n−2)); with ``x_mean`` and ``sxx`` it gives the
     confidence band of the line at any x: s·√(1/n + (x − x̄)²/Sxx). ``x_distinct``
-    counts the distinct predictor values in those rows (None where not counted, as
-    for the trend's fit on period means).
+    counts the distinct predictor values in those rows: exact up to
+    ``EXACT_DISTINCT_UP_TO``, an estimate above (None where not counted, as for the
+    trend's fit on period means).
     """
 
     predictor: str
@@ -137,6 +138,7 @@ def fit_lines(
         if refs[f"n{i}"] >= 2 and sums[f"sxx{i}"] and sums[f"sxx{i}"] > 0
     }
     sse = _residual_pass(frame, predictors, refs, means, slopes)
+    distinct = _distinct_counts(frame, predictors, refs)
     fits = []
     for i, predictor in enumerate(predictors):
         x_mean, y_mean = centre.get(i, (None, None))
@@ -153,14 +155,36 @@ def fit_lines(
                 x_min=refs[f"x_min{i}"],
                 x_max=refs[f"x_max{i}"],
                 confidence=confidence,
-                x_distinct=_count(refs.get(f"distinct{i}")),
+                x_distinct=distinct.get(i),
             )
         )
     return tuple(fits)
 
 
-def _count(value) -> int | None:
-    return None if value is None else int(value)
+# A generous margin over the few values that read as codes: HyperLogLog's error on
+# small counts is far below this, so no predictor with a handful of values is missed.
+EXACT_DISTINCT_UP_TO = 32
+
+
+def _distinct_counts(frame: ir.Table, predictors: list[str], refs: dict) -> dict[int, int]:
+    """Distinct values per predictor: exact where the estimate is small, else the estimate."""
+    counts = {
+        i: int(refs[f"approx_distinct{i}"])
+        for i in range(len(predictors))
+        if refs.get(f"approx_distinct{i}") is not None
+    }
+    few = [i for i, n in counts.items() if n <= EXACT_DISTINCT_UP_TO]
+    y = frame.y
+    exact = one_row(
+        frame,
+        {
+            f"d{i}": frame[predictors[i]].nunique(
+                where=frame[predictors[i]].notnull() & y.notnull()
+            )
+            for i in few
+        },
+    )
+    return counts | {i: int(exact[f"d{i}"]) for i in few}
 
 
 # RegressionFit fields that are estimates: unknown (None) when a fit cannot be made.
