@@ -195,6 +195,7 @@ def test_init_proposes_the_numeric_column_as_predictor_and_codes_as_groups(tmp_p
             "kind": rng.integers(1, 4, n),  # 3 whole numbers: codes, a group
             "grade": rng.choice([1.0, 2.5, 4.0], n),  # 3 decimals: codes as well
             "y": rng.normal(10, 2, n),
+            "week": np.tile(np.arange(30), 20),  # 30 whole numbers after the outcome: an axis
         }
     )
     path = tmp_path / "data.csv"
@@ -202,6 +203,7 @@ def test_init_proposes_the_numeric_column_as_predictor_and_codes_as_groups(tmp_p
     proposal = propose(column_roles(read_table(path, "csv", "data.csv")))
     assert proposal["target"] == "y"
     assert "hour" in proposal["predictors"] and "hour" not in proposal["groups"]
+    assert "week" in proposal["predictors"]
     assert set(proposal["groups"]) == {"kind", "grade"}
 
 
