@@ -249,3 +249,22 @@ def test_distinct_counts_are_exact_for_few_values_and_large_for_many(tmp_path):
     assert fits["load"].x_distinct > EXACT_DISTINCT_UP_TO
     assert fits["load"].x_distinct == pytest.approx(len(np.unique(frame.load)), rel=0.1)
     assert level_cautions(stats, wording_for(stats, "y"), {}) == []
+
+
+def test_sizes_count_rows_with_a_target_so_every_count_agrees(tmp_path):
+    # "a" has the most rows but most lack a target; by rows used it is the smallest.
+    rng = np.random.default_rng(29)
+    sizes = {"a": 60, "b": 40, "c": 35, "d": 30, "e": 25}
+    frame = pd.concat(
+        [pd.DataFrame({"site": k, "y": rng.normal(0, 1, n)}) for k, n in sizes.items()],
+        ignore_index=True,
+    )
+    frame.loc[frame.index[:45], "y"] = np.nan  # 45 of a's 60 rows: 15 left with a value
+    stats = _stats(frame, tmp_path, "groups: [site]\nmax_levels: 4\n")
+    group = stats.groups[0]
+    assert group.shown.kept == ("b", "c", "d")
+    assert set(group.shown.folded) == {"a", "e"}
+    other = next(s for s in group.summaries if s.level == group.shown.other_label)
+    assert group.shown.folded_rows == other.n == 15 + 25
+    assert group.shown.rows == sum(s.n for s in group.summaries) == int(frame.y.notna().sum())
+    assert fold_note(group.shown, "site").startswith(f"{group.shown.other_label} holds 40 rows")

@@ -32,8 +32,9 @@ class ShownLevels:
     With more than ``max_levels`` levels, ``max_levels − 1`` levels are kept by
     the rule in ``shown_levels`` and the rest are relabelled ``other_label``;
     ``folded`` lists the relabelled levels (largest first, as ``shown_levels``
-    ranks them) and ``folded_rows`` counts their rows, out of ``rows`` rows with a
-    level. Without folding ``other_label`` is None. ``numeric`` is True when the
+    ranks them) and ``folded_rows`` counts their rows with a target value, out of
+    ``rows`` such rows with a level: the rows every analysis uses, so these counts
+    match the n the tables and charts show. Without folding ``other_label`` is None. ``numeric`` is True when the
     column holds numbers in the data (codes, or a measure used as a group).
     """
 
@@ -93,14 +94,15 @@ def shown_levels(
     """The levels the brief shows: the largest, ties broken by how far their mean lies out.
 
     The rule, with more than ``max_levels`` levels: keep the ``max_levels − 1``
-    levels with the most rows. Levels of equal size are ranked by the distance of
+    levels with the most rows that have a target value (the rows the analyses use,
+    so the sizes are the n the brief shows). Levels of equal size are ranked by the distance of
     their mean target from the overall mean, larger first, so that among equally
     large levels the ones that depart most stay in view; a level without any target
     value ranks last among its size. Only levels equal in both size and distance
     are ordered by name, so the name never decides a choice the data could make.
     """
     present = table.filter(table[column].notnull())
-    sizes = present.group_by(column).aggregate(rows=present.count())
+    sizes = present.group_by(column).aggregate(rows=present.y.count())
     counted = [(row[column], int(row["rows"])) for row in sizes.to_pyarrow().to_pylist()]
     rows = sum(n for _, n in counted)
     if len(counted) <= max_levels:
