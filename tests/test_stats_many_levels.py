@@ -14,6 +14,7 @@ import pytest
 from scipy import stats as scipy_stats
 
 from briefgen.config import parse_spec
+from briefgen.errors import ConfigError
 from briefgen.findings import cautions, group_finding, level_cautions, wording_for
 from briefgen.profile import column_roles
 from briefgen.source import open_source, read_table
@@ -268,3 +269,10 @@ def test_sizes_count_rows_with_a_target_so_every_count_agrees(tmp_path):
     assert group.shown.folded_rows == other.n == 15 + 25
     assert group.shown.rows == sum(s.n for s in group.summaries) == int(frame.y.notna().sum())
     assert fold_note(group.shown, "site").startswith(f"{group.shown.other_label} holds 40 rows")
+
+
+def test_max_levels_leaves_two_named_levels_beside_other(tmp_path):
+    with pytest.raises(ConfigError, match="max_levels"):
+        parse_spec(
+            "title: t\ndata:\n  path: d.csv\ntarget: y\nmax_levels: 2\n", tmp_path / "b.yaml"
+        )
