@@ -189,7 +189,8 @@ class BriefSpec(_Strict):
     log_target: bool = False
     confidence: float = Field(default=0.95, gt=0.5, lt=1.0)
     min_cell: int = Field(default=10, ge=2)
-    max_levels: int = Field(default=8, ge=2, le=20)
+    # At least two named levels beside "Other", so highest and lowest name real levels.
+    max_levels: int = Field(default=8, ge=3, le=20)
     engine: EngineSpec = Field(default_factory=EngineSpec)
     output: OutputSpec = Field(default_factory=OutputSpec)
     delivery: DeliverySpec = Field(default_factory=DeliverySpec)

@@ -13,6 +13,7 @@ from briefgen.numbers import (
     decimals_for,
     fmt,
     fmt_count,
+    fmt_interval,
     fmt_level,
     fmt_p,
     fmt_percent,
@@ -37,6 +38,8 @@ from briefgen.trend_text import partial_text, span_text
 SMALL_GROUP = (
     30  # common practice, no published source: below ~30 a mean's interval is wide and fragile
 )
+# common practice, no published source: a predictor with this few values reads as codes
+CODE_LIKE_VALUES = 5
 
 
 # Claims a finding can make; the document orders page 1 by these, never by reading text.
@@ -85,7 +88,7 @@ class Wording:
         return fmt(number, self.unit_decimals)
 
     def interval(self, low: float | None, high: float | None) -> str:
-        return f"{self.value(low)} to {self.value(high)}"
+        return fmt_interval(low, high, self.unit_decimals)
 
     @property
     def level_name(self) -> str:
@@ -156,7 +159,7 @@ def group_finding(
     where values tend to lie, so the sentence orders levels by mean rank and quotes
     medians; a sentence never pairs one test's verdict with the other's numbers.
     """
-    usable = [s for s in group.summaries if s.n >= 2 and s.mean is not None]
+    usable = [s for s in group.named_summaries if s.n >= 2 and s.mean is not None]
     # compare_groups returns None exactly when fewer than two levels have n ≥ 2.
     if len(usable) < 2 or comparison is None:
         return None
@@ -415,7 +418,7 @@ def trend_finding(trend: Trend, words: Wording, family: Family) -> Finding | Non
     text = (
         f"{span_text(trend)}, the straight-line "
         f"trend of {words.lower} changed by {_signed(trend.change, words)} across the span "
-        f"({words.level_name} interval {_signed(trend.change_ci_low, words)} to {_signed(trend.change_ci_high, words)})."
+        f"({words.level_name} interval {fmt_interval(trend.change_ci_low, trend.change_ci_high, words.unit_decimals, sign=True)})."
         f"{partial_text(trend)}"
     )
     clear = family.passes(trend.key)
@@ -485,7 +488,7 @@ def fit_finding(
     text = (
         f"The straight line {direction}: each extra {step_words} of {x_lower} goes with "
         f"{fmt(abs(slope), d)} {'more' if slope > 0 else 'less'} {words.lower} on average "
-        f"({words.level_name} interval {fmt(low, d)} to {fmt(high, d)}), "
+        f"({words.level_name} interval {fmt_interval(low, high, d)}), "
         f"and {x_lower} accounts for {fmt_percent(fit.r_squared)} of the variation (R², {fmt_count(fit.n)} rows)."
     )
     rho = correlation.spearman_rho if correlation is not None else None
@@ -495,7 +498,7 @@ def fit_finding(
         text += (
             f" In relative terms, each extra unit goes with a change of about "
             f"{fmt(log_fit.percent_change_per_unit, 1)}% in {words.lower} "
-            f"({fmt(log_fit.percent_ci_low, 1)}% to {fmt(log_fit.percent_ci_high, 1)}%, fit on the log scale)."
+            f"({fmt_interval(log_fit.percent_ci_low, log_fit.percent_ci_high, 1, suffix='%')}, fit on the log scale)."
         )
     question = family.question(key)
     p_adjusted = family.adjusted(key)
@@ -573,7 +576,7 @@ def _confounded_finding(found, fit, words, x_lower, names, text, data, step, per
     overall = "rises" if fit.slope > 0 else "falls"
     within_text = (
         f" Within each level of {group}, the slope is {_signed_slope(slope, d)} {per} "
-        f"({words.level_name} interval {fmt(low, d)} to {fmt(high, d)})."
+        f"({words.level_name} interval {fmt_interval(low, high, d)})."
     )
     data = data | {
         "variables": (fit.predictor, found.group),
@@ -628,6 +631,7 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
                 f"Small groups in {names.get(group.variable, group.variable)}: {listed}. "
                 "Their averages can move a lot with a few more rows."
             )
+    notes += level_cautions(stats, words, names)
     skewed = [c for c in stats.comparisons if c.strongly_skewed and c.skewness is not None]
     if skewed:
         pull = (
@@ -647,11 +651,51 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
     box = stats.overall_box
     if box is not None and box.outlier_count:
         notes.append(
-            f"{fmt_count(box.outlier_count)} values lie far from the rest (beyond 1.5 × IQR from the box). "
+            f"{fmt_count(box.outlier_count)} {'value lies' if box.outlier_count == 1 else 'values lie'} "
+            "far from the rest (beyond 1.5 × IQR from the box "
+            f"of all values{_within_level_note(stats)}). "
             "None were removed: every figure and average includes them."
         )
     if stats.trend is not None and any(p.partial for p in stats.trend.periods):
         notes.append(
             "The first or last period of the trend is only partly covered by the data; read its value with care."
         )
+    return notes
+
+
+def _within_level_note(stats: BriefStats) -> str:
+    """Why the tables by group count other outliers: each level is held to its own box."""
+    if not stats.groups:
+        return ""
+    return "; the tables by group count outliers against each level's own box, so their counts can differ"
+
+
+def level_cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[str]:
+    """Variables whose role in the config looks wrong for the values they hold.
+
+    A numeric group with more distinct values than the brief can show loses its order
+    and most of its rows to "Other"; a predictor with a handful of values is probably
+    a code, and a straight line through codes means little.
+    """
+    notes = []
+    for group in stats.groups:
+        shown = group.shown
+        if shown.numeric and shown.other_label is not None:
+            name = names.get(group.variable, group.variable)
+            notes.append(
+                f"{name[:1].upper() + name[1:]} holds numbers with {fmt_count(shown.levels_in_data)} "
+                "distinct values, so as "
+                f"a group it shows {len(shown.kept)} of them and folds the rest into "
+                f"{shown.other_label} ({fmt_percent(shown.folded_share)} of rows), losing their order. "
+                f"To see how {words.lower} changes along it, list {group.variable} under predictors "
+                "in the config instead of groups."
+            )
+    for fit in stats.fits:
+        if fit.x_distinct is not None and 1 < fit.x_distinct <= CODE_LIKE_VALUES:
+            notes.append(
+                f"{fit.predictor} takes only {fit.x_distinct} distinct values: it is likely a code or "
+                "a category, and a straight line through so few values can hide the pattern between "
+                f"them. If its values are labels, list {fit.predictor} under groups in the config "
+                "instead of predictors."
+            )
     return notes

@@ -41,6 +41,39 @@ def fmt(value: float | None, decimals: int) -> str:
     return text.replace("-", "−")
 
 
+MAX_EXTRA_DECIMALS = 4  # beyond this the bounds are equal for any reader: show them as they are
+
+
+def fmt_interval(
+    low: float | None,
+    high: float | None,
+    decimals: int,
+    *,
+    suffix: str = "",
+    sign: bool = False,
+    joiner: str = " to ",
+) -> str:
+    """The bounds of an interval, with enough decimals that unequal bounds read unequal.
+
+    Rounding both bounds to the measure's decimals can print "0.1% to 0.1%" for an
+    interval that has width; that reads as certainty the data do not give. Decimals
+    are added, one at a time and at most ``MAX_EXTRA_DECIMALS``, until the printed
+    bounds differ. Bounds that are truly equal keep ``decimals``. ``suffix`` follows
+    each bound ("%"); ``sign`` writes "+" before positive bounds.
+    """
+    digits = decimals
+    if low is not None and high is not None and low != high:
+        limit = min(decimals + MAX_EXTRA_DECIMALS, MAX_DECIMALS)
+        while digits < limit and fmt(low, digits) == fmt(high, digits):
+            digits += 1
+    return f"{_bound(low, digits, sign)}{suffix}{joiner}{_bound(high, digits, sign)}{suffix}"
+
+
+def _bound(value: float | None, decimals: int, sign: bool) -> str:
+    text = fmt(value, decimals)
+    return f"+{text}" if sign and text[:1] not in ("−", "–") else text
+
+
 def fmt_level(confidence: float) -> str:
     """A confidence level as people write it: 0.95 ─► '95%', 0.995 ─► '99.5%' (never rounded)."""
     return f"{confidence * 100:.10g}%"

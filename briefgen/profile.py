@@ -40,6 +40,12 @@ def level_order(summaries: tuple[Summary, ...], other_label: str | None = None) 
     return [s.level for s in ranked] + folded
 
 
+def natural_sorted(levels) -> list[str]:
+    """Levels in their natural (numeric) order when they have one, else as given."""
+    levels = list(levels)
+    return sorted(levels, key=_numeric_key) if has_natural_order(levels) else levels
+
+
 def _numeric_key(level: str) -> tuple[float, str]:
     match = re.match(r"^\s*([-+]?\d+(?:\.\d+)?)", level)
     return (float(match.group(1)) if match else float("inf"), level)
@@ -47,7 +53,13 @@ def _numeric_key(level: str) -> tuple[float, str]:
 
 # Column roles: what a column is for, guessed from its type and how many values it takes.
 MAX_GROUP_LEVELS = 50  # more distinct labels than this reads as free text or an id, not a group
-SMALL_INTEGER_LEVELS = 12  # integers taking this few values (years, ratings) read as groups
+# Whole numbers taking at most as many values as a group shows (years, ratings) read as
+# groups; with more, a group would fold most of them into "Other" and lose their order, so
+# they are measures to relate the target to (common practice, no published source).
+SMALL_INTEGER_LEVELS = MAX_LEVELS
+# Any numbers taking this few values read as codes (1, 2, 3 for kinds), not quantities
+# (common practice, no published source); findings.CODE_LIKE_VALUES flags such predictors.
+CODE_VALUES = 5
 
 
 @dataclass(frozen=True, slots=True)
@@ -58,6 +70,7 @@ class ColumnRole:
     role: str
     distinct: int
     missing: int
+    numeric: bool = False
 
 
 def column_roles(table: ir.Table) -> tuple[ColumnRole, ...]:
@@ -72,7 +85,8 @@ def column_roles(table: ir.Table) -> tuple[ColumnRole, ...]:
     roles = []
     for i, name in enumerate(schema.names):
         kind, distinct = schema[name], int(row[f"d{i}"])
-        roles.append(ColumnRole(name, _role(kind, distinct, rows), distinct, int(row[f"m{i}"])))
+        role = _role(kind, distinct, rows)
+        roles.append(ColumnRole(name, role, distinct, int(row[f"m{i}"]), kind.is_numeric()))
     return tuple(roles)
 
 
@@ -81,7 +95,7 @@ def _role(kind, distinct: int, rows: int) -> str:
         return "time"
     unique = rows > MAX_GROUP_LEVELS and distinct >= 0.95 * rows
     if kind.is_floating() or kind.is_decimal():
-        return "measure"
+        return "category" if 1 < distinct <= CODE_VALUES and rows > distinct else "measure"
     if kind.is_integer():
         if unique:
             return "id"

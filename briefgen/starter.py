@@ -12,7 +12,7 @@ from pathlib import Path
 import yaml
 
 from briefgen.errors import ConfigError
-from briefgen.profile import ColumnRole, column_roles
+from briefgen.profile import MAX_GROUP_LEVELS, MAX_LEVELS, ColumnRole, column_roles
 from briefgen.source import read_table
 
 MAX_GROUPS = 3
@@ -24,22 +24,43 @@ def _data_format(path: Path) -> str:
 
 
 def propose(roles: tuple[ColumnRole, ...]) -> dict:
-    """Target, groups, predictors and time from the roles; the last measure is the target.
+    """Target, groups, predictors and time from the roles; the target is a guess.
 
-    Exports usually put the outcome last, after the columns that describe it.
+    Exports usually put the outcome last, after the columns that describe it. A
+    measure with few distinct values (a year, a month, a size step) reads as an axis
+    to relate the outcome to rather than the outcome, so the target is the last
+    measure with more than ``MAX_GROUP_LEVELS`` values when there is one.
     """
-    measures = [r.name for r in roles if r.role == "measure"]
+    numeric = [r for r in roles if r.role == "measure"]
     categories = [r for r in roles if r.role == "category"]
     times = [r.name for r in roles if r.role == "time"]
-    if not measures:
+    if not numeric:
         return {}
-    target = measures[-1]
+    outcomes = [r for r in numeric if r.distinct > MAX_GROUP_LEVELS] or numeric
+    target = outcomes[-1].name
+    measures = [r.name for r in numeric if r.name != target] + [target]
     # Fewer levels first: they make the clearest comparisons.
     groups = [r.name for r in sorted(categories, key=lambda r: r.distinct)][:MAX_GROUPS]
     proposal = {"target": target, "groups": groups, "predictors": measures[:-1][:MAX_PREDICTORS]}
     if times:
         proposal["time"] = times[0]
     return proposal
+
+
+def _numeric_role_notes(roles: tuple[ColumnRole, ...], proposal: dict) -> list[str]:
+    """Why a numeric column became a group or a predictor, where the choice is not obvious."""
+    notes = []
+    for r in roles:
+        if r.numeric and r.name in proposal["groups"]:
+            notes.append(
+                f"# {r.name}: numbers with {r.distinct} values, proposed as a group (codes)."
+            )
+        elif r.numeric and r.name in proposal["predictors"] and r.distinct <= MAX_GROUP_LEVELS:
+            notes.append(
+                f"# {r.name}: numbers with {r.distinct} values, more than a group shows "
+                f"(max_levels {MAX_LEVELS}), so proposed as a predictor."
+            )
+    return notes
 
 
 def starter_text(data: Path, config: Path, title: str | None = None) -> str:
@@ -63,10 +84,11 @@ def starter_text(data: Path, config: Path, title: str | None = None) -> str:
     skipped = [f"{r.name} ({r.role})" for r in roles if r.name not in used]
     header = [
         f"# Proposed by `briefgen init` from the columns of {data.name}.",
-        "# Check the target first: it is the last numeric column, a guess.",
+        "# Check the target first: it is the last numeric column with many values, a guess.",
     ]
     if skipped:
         header.append(f"# Not used: {', '.join(skipped)}.")
+    header += _numeric_role_notes(roles, proposal)
     header.append("# Reference of every key: README, section 'Config reference'.")
     return (
         "\n".join(header)

@@ -9,9 +9,11 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from briefgen.findings import Wording
-from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_p, fmt_percent, p_text
+from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_interval, fmt_p, fmt_percent, p_text
+from briefgen.profile import natural_sorted
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
+from briefgen.stats.core.frame import OTHER_PREFIX, ShownLevels
 from briefgen.stats.groups import GroupResult
 from briefgen.stats.periods import period_label
 from briefgen.stats.trend import PeriodStats, Trend
@@ -49,6 +51,14 @@ def group_table(group: GroupResult, words: Wording, name: str) -> Table:
             )
         )
     notes = []
+    if any(b.outlier_count for b in group.boxes):
+        notes.append(
+            "Outliers are counted against each level's own box (beyond 1.5 × IQR), so they need "
+            "not add up to the count over all values."
+        )
+    fold = fold_note(group.shown, name)
+    if fold:
+        notes.append(fold)
     if group.rows_without_level:
         notes.append(
             f"{fmt_count(group.rows_without_level)} rows have no {name} and are not in this table."
@@ -63,11 +73,31 @@ def group_table(group: GroupResult, words: Wording, name: str) -> Table:
             f"{words.level_name} interval",
             "Median",
             "Middle half (Q1 – Q3)",
-            "Outliers",
+            "Outliers in level",
         ),
         rows=tuple(rows),
         numeric=(False, True, True, True, True, True, True),
         notes=tuple(notes),
+    )
+
+
+MAX_FOLDED_LISTED = 12  # a longer list of names is not read; the count says the rest
+
+
+def fold_note(shown: ShownLevels, name: str) -> str | None:
+    """What "Other (k levels)" holds: its rows, their share, and the folded levels by name."""
+    if shown.other_label is None:
+        return None
+    share = shown.folded_share or 0.0
+    # Numbered levels (years, codes) read best in their order; others largest first.
+    listed = ", ".join(natural_sorted(shown.folded)[:MAX_FOLDED_LISTED])
+    more = len(shown.folded) - MAX_FOLDED_LISTED
+    listed += f" and {more} more" if more > 0 else ""
+    return (
+        f"{shown.other_label} holds {fmt_count(shown.folded_rows)} rows "
+        f"({fmt_percent(share, 0 if share >= 0.1 else 1)}): {listed}. The {len(shown.kept)} levels "
+        f"of {name} shown by name are the largest; levels of equal size are ranked by how far "
+        "their mean lies from the overall mean."
     )
 
 
@@ -132,7 +162,7 @@ def effects_table(comparison: GroupComparison, words: Wording, name: str) -> Tab
         )
     return Table(
         key=f"table-effects-{comparison.variable}",
-        caption=f"Each level of {name} against {comparison.reference_level}, the largest level",
+        caption=f"Each level of {name} against {comparison.reference_level}, {_reference_phrase(comparison)}",
         header=(
             "Level",
             "n",
@@ -149,6 +179,19 @@ def effects_table(comparison: GroupComparison, words: Wording, name: str) -> Tab
             "difference, not adjusted for the number of levels.",
         ),
     )
+
+
+def _reference_phrase(comparison: GroupComparison) -> str:
+    """Why this level is the reference: the largest, or first by name among equally large."""
+    sizes = {e.level: e.n for e in comparison.effects}
+    largest = sizes.get(comparison.reference_level)
+    # The fold is never the reference, so it does not count as a tie.
+    tied = sum(1 for level, n in sizes.items() if n == largest and not _is_fold_label(level))
+    return "the largest level" if tied <= 1 else "first by name of the equally largest levels"
+
+
+def _is_fold_label(level: str) -> bool:
+    return level.startswith(f"{OTHER_PREFIX} (") and level.endswith(" levels)")
 
 
 def _percent(value: float | None) -> str:
@@ -266,7 +309,7 @@ def fits_table(stats: BriefStats, labels: dict[str, str], words: Wording) -> Tab
                 labels.get(fit.predictor, fit.predictor),
                 fmt_count(fit.n),
                 fmt(fit.slope, d),
-                f"{fmt(fit.slope_ci_low, d)} to {fmt(fit.slope_ci_high, d)}",
+                fmt_interval(fit.slope_ci_low, fit.slope_ci_high, d),
                 fmt(fit.r_squared, 2) if fit.r_squared is not None else "–",
                 fmt(corr.pearson_r, 2) if corr and corr.pearson_r is not None else "–",
                 fmt(corr.spearman_rho, 2) if corr and corr.spearman_rho is not None else "–",

@@ -120,14 +120,17 @@ class GroupComparison:
     notes: tuple[str, ...]
 
 
-def reference_level(summaries: Sequence[Summary]) -> Summary:
+def reference_level(summaries: Sequence[Summary], fold: str | None = None) -> Summary:
     """The level effects are measured from: the one with most values, ties by name.
 
     The largest level has the most precise mean, so differences from it have the
     narrowest intervals, and it is usually the case a reader thinks of as typical.
-    The name breaks ties so the choice never depends on row order.
+    The name breaks ties so the choice never depends on row order. ``fold`` (the
+    "Other (k levels)" label) is never the reference: it is a mixture of levels,
+    not a case anyone can act on; only when no other level is left does it serve.
     """
-    return min(summaries, key=lambda s: (-s.n, str(s.level)))
+    named = [s for s in summaries if fold is None or s.level != fold] or list(summaries)
+    return min(named, key=lambda s: (-s.n, str(s.level)))
 
 
 def _percent(difference: float, base: float) -> float | None:
@@ -232,11 +235,13 @@ def compare_groups(
     confidence: float = 0.95,
     *,
     variable: str | None = None,
+    fold: str | None = None,
 ) -> GroupComparison | None:
     """Compare the target across levels; None when fewer than two levels have n ≥ 2.
 
     ``levels_table`` has columns ``level`` and ``y``; ``summaries`` come from
-    ``summarise_levels`` on the same table.
+    ``summarise_levels`` on the same table. ``fold`` is the label of the folded
+    levels, if any, which is tested like a level but never made the reference.
     """
     tested = [s for s in summaries if s.n >= 2 and s.mean is not None and s.sd is not None]
     tested_names = {s.level for s in tested}
@@ -257,7 +262,7 @@ def compare_groups(
     needs_ranks = strongly_skewed or undefined_reason is not None
     ranks = rank_test(levels_table, [s.level for s in tested]) if needs_ranks else None
     leans_on, reason = lean_on(skewness, ranks, welch_runs=undefined_reason is None)
-    reference = reference_level(tested)
+    reference = reference_level(tested, fold)
     overall = pooled_mean(summaries)
     return GroupComparison(
         variable=variable,

@@ -36,6 +36,15 @@ class GroupResult:
     comparison: GroupComparison | None
     usage: RowUsage
 
+    @property
+    def named_summaries(self) -> tuple[Summary, ...]:
+        """Summaries of real levels, without "Other (k levels)".
+
+        A fold mixes several levels, so it must never be named highest or lowest as if
+        it were one; findings choose among these.
+        """
+        return tuple(s for s in self.summaries if not self.shown.is_fold(s.level))
+
 
 @dataclass(frozen=True, slots=True)
 class GroupAnalysis:
@@ -62,7 +71,9 @@ class GroupAnalysis:
         by_level = {s.level: s for s in summaries}
         ordered = tuple(by_level[level] for level in order)
         levels_table = table.filter(table.level.notnull())
-        comparison = compare_groups(levels_table, ordered, self.confidence, variable=self.variable)
+        comparison = compare_groups(
+            levels_table, ordered, self.confidence, variable=self.variable, fold=shown.other_label
+        )
         used = sum(s.n for s in ordered)
         return GroupResult(
             key=f"group-{self.variable}",

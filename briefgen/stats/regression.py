@@ -24,7 +24,10 @@ class RegressionFit:
     """Straight-line fit of the target on one predictor, over rows with both values.
 
     ``residual_sd`` is s = √(SSE/(n−2)); with ``x_mean`` and ``sxx`` it gives the
-    confidence band of the line at any x: s·√(1/n + (x − x̄)²/Sxx).
+    confidence band of the line at any x: s·√(1/n + (x − x̄)²/Sxx). ``x_distinct``
+    counts the distinct predictor values in those rows: exact up to
+    ``EXACT_DISTINCT_UP_TO``, an estimate above (None where not counted, as for the
+    trend's fit on period means).
     """
 
     predictor: str
@@ -45,6 +48,7 @@ class RegressionFit:
     sxx: float | None
     x_min: float | None
     x_max: float | None
+    x_distinct: int | None = None
 
     @property
     def slope_p_value(self) -> float | None:
@@ -141,6 +145,7 @@ def fit_lines(
         if refs[f"n{i}"] >= 2 and sums[f"sxx{i}"] and sums[f"sxx{i}"] > 0
     }
     sse = _residual_pass(frame, predictors, refs, means, slopes)
+    distinct = _distinct_counts(frame, predictors, refs)
     fits = []
     for i, predictor in enumerate(predictors):
         x_mean, y_mean = centre.get(i, (None, None))
@@ -157,9 +162,36 @@ def fit_lines(
                 x_min=refs[f"x_min{i}"],
                 x_max=refs[f"x_max{i}"],
                 confidence=confidence,
+                x_distinct=distinct.get(i),
             )
         )
     return tuple(fits)
+
+
+# A generous margin over the few values that read as codes: HyperLogLog's error on
+# small counts is far below this, so no predictor with a handful of values is missed.
+EXACT_DISTINCT_UP_TO = 32
+
+
+def _distinct_counts(frame: ir.Table, predictors: list[str], refs: dict) -> dict[int, int]:
+    """Distinct values per predictor: exact where the estimate is small, else the estimate."""
+    counts = {
+        i: int(refs[f"approx_distinct{i}"])
+        for i in range(len(predictors))
+        if refs.get(f"approx_distinct{i}") is not None
+    }
+    few = [i for i, n in counts.items() if n <= EXACT_DISTINCT_UP_TO]
+    y = frame.y
+    exact = one_row(
+        frame,
+        {
+            f"d{i}": frame[predictors[i]].nunique(
+                where=frame[predictors[i]].notnull() & y.notnull()
+            )
+            for i in few
+        },
+    )
+    return counts | {i: int(exact[f"d{i}"]) for i in few}
 
 
 # RegressionFit fields that are estimates: unknown (None) when a fit cannot be made.
@@ -191,13 +223,14 @@ def fit_from_sums(
     x_min: float | None,
     x_max: float | None,
     confidence: float,
+    x_distinct: int | None = None,
 ) -> RegressionFit:
     """The fit from centred sums and the residual sum of squares, however they were summed.
 
     Slope and intercept need n ≥ 2 and spread in x; errors, intervals and R² need n ≥ 3.
     """
     base = {"predictor": predictor, "n": n, "x_mean": x_mean, "y_mean": y_mean, "sxx": sxx}
-    base |= {"x_min": x_min, "x_max": x_max}
+    base |= {"x_min": x_min, "x_max": x_max, "x_distinct": x_distinct}
     empty = dict.fromkeys(_ESTIMATE_FIELDS)
     if n < 2 or not sxx or sxx <= 0:
         return RegressionFit(**base, **empty)

@@ -16,6 +16,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import ibis
+import ibis.expr.datatypes as dt
 import ibis.expr.types as ir
 
 from briefgen.config import BriefSpec
@@ -26,11 +27,15 @@ OTHER_PREFIX = "Other"
 
 @dataclass(frozen=True, slots=True)
 class ShownLevels:
-    """Which levels of one group variable the brief shows.
+    """Which levels of one group variable the brief shows, and what was folded.
 
-    With more than ``max_levels`` levels, the ``max_levels − 1`` largest by rows are
-    kept (ties by label) and the rest are relabelled ``other_label``; ``folded``
-    lists the relabelled levels. Without folding ``other_label`` is None.
+    With more than ``max_levels`` levels, ``max_levels − 1`` levels are kept by
+    the rule in ``shown_levels`` and the rest are relabelled ``other_label``;
+    ``folded`` lists the relabelled levels (largest first, as ``shown_levels``
+    ranks them) and ``folded_rows`` counts their rows with a target value, out of
+    ``rows`` such rows with a level: the rows every analysis uses, so these counts
+    match the n the tables and charts show. Without folding ``other_label`` is None. ``numeric`` is True when the
+    column holds numbers in the data (codes, or a measure used as a group).
     """
 
     variable: str
@@ -38,6 +43,18 @@ class ShownLevels:
     kept: tuple[str, ...]
     other_label: str | None
     folded: tuple[str, ...]
+    rows: int = 0
+    folded_rows: int = 0
+    numeric: bool = False
+
+    def is_fold(self, level: str | None) -> bool:
+        """True for the "Other (k levels)" label, which stands for several levels at once."""
+        return self.other_label is not None and level == self.other_label
+
+    @property
+    def folded_share(self) -> float | None:
+        """Share of the rows with a level that lie in the folded levels; None without rows."""
+        return self.folded_rows / self.rows if self.rows else None
 
 
 @dataclass(frozen=True, slots=True)
@@ -71,18 +88,51 @@ class AnalysisFrame:
         return table.filter(table[column].notnull()).mutate(level=table[column])
 
 
-def shown_levels(table: ir.Table, column: str, variable: str, max_levels: int) -> ShownLevels:
-    """One query for the level sizes of ``column``; the fold rule applied to them."""
+def shown_levels(
+    table: ir.Table, column: str, variable: str, max_levels: int, numeric: bool = False
+) -> ShownLevels:
+    """The levels the brief shows: the largest, ties broken by how far their mean lies out.
+
+    The rule, with more than ``max_levels`` levels: keep the ``max_levels − 1``
+    levels with the most rows that have a target value (the rows the analyses use,
+    so the sizes are the n the brief shows). Levels of equal size are ranked by the distance of
+    their mean target from the overall mean, larger first, so that among equally
+    large levels the ones that depart most stay in view; a level without any target
+    value ranks last among its size. Only levels equal in both size and distance
+    are ordered by name, so the name never decides a choice the data could make.
+    """
     present = table.filter(table[column].notnull())
-    sizes = present.group_by(column).aggregate(rows=present.count())
+    sizes = present.group_by(column).aggregate(rows=present.y.count())
     counted = [(row[column], int(row["rows"])) for row in sizes.to_pyarrow().to_pylist()]
-    by_size = sorted(counted, key=lambda item: (-item[1], item[0]))
-    if len(by_size) <= max_levels:
-        return ShownLevels(variable, len(by_size), tuple(sorted(c for c, _ in counted)), None, ())
-    kept = tuple(level for level, _ in by_size[: max_levels - 1])
-    folded = tuple(sorted(level for level, _ in by_size[max_levels - 1 :]))
+    rows = sum(n for _, n in counted)
+    if len(counted) <= max_levels:
+        kept = tuple(sorted(c for c, _ in counted))
+        return ShownLevels(variable, len(counted), kept, None, (), rows, 0, numeric)
+    distance = _distances_from_mean(present, column)
+    ranked = sorted(counted, key=lambda item: (-item[1], -distance.get(item[0], -1.0), item[0]))
+    kept = tuple(level for level, _ in ranked[: max_levels - 1])
+    folded = tuple(level for level, _ in ranked[max_levels - 1 :])
+    folded_rows = sum(n for _, n in ranked[max_levels - 1 :])
     label = f"{OTHER_PREFIX} ({len(folded)} levels)"
-    return ShownLevels(variable, len(by_size), kept, label, folded)
+    return ShownLevels(variable, len(counted), kept, label, folded, rows, folded_rows, numeric)
+
+
+def _distances_from_mean(present: ir.Table, column: str) -> dict[str, float]:
+    """|level mean − overall mean| of the target per level with a target value.
+
+    The values are shifted by the smallest target value (a data value) before
+    averaging, so means near an offset of 1e12 keep the digits that tell levels apart.
+    """
+    with_value = present.filter(present.y.notnull())
+    reference = with_value.aggregate(low=with_value.y.min()).to_pyarrow().to_pylist()[0]["low"]
+    if reference is None:
+        return {}
+    shifted = with_value.mutate(d=with_value.y - ibis.literal(reference, dt.float64))
+    means = shifted.group_by(column).aggregate(n=shifted.count(), shift=shifted.d.mean())
+    rows = means.to_pyarrow().to_pylist()
+    total = sum(int(r["n"]) for r in rows)
+    overall = sum(int(r["n"]) * r["shift"] for r in rows) / total
+    return {r[column]: abs(r["shift"] - overall) for r in rows}
 
 
 def _folded(table: ir.Table, shown: dict[str, ShownLevels], groups: dict[str, str]) -> ir.Table:
@@ -116,7 +166,11 @@ def build_frame(
     if cache:
         # One scan of the file; every later pass reads the engine's columnar copy.
         narrow = narrow.cache()
-    shown = {name: shown_levels(narrow, key, name, spec.max_levels) for key, name in groups.items()}
+    schema = table.schema()
+    shown = {
+        name: shown_levels(narrow, key, name, spec.max_levels, schema[name].is_numeric())
+        for key, name in groups.items()
+    }
     return AnalysisFrame(
         table=_folded(narrow, shown, groups),
         target=spec.target,

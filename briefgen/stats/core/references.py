@@ -13,8 +13,13 @@ from briefgen.stats.core.analysis import one_row
 
 def median_references(table: ir.Table, predictors: list[str]) -> dict:
     """Per predictor i: rows with both values ``n{i}``, medians ``x_ref{i}``/``y_ref{i}``
-    over them, the range ``x_min{i}``/``x_max{i}``, and ``lacking{i}``, rows with a
-    target value but no predictor value."""
+    over them, the range ``x_min{i}``/``x_max{i}``, ``approx_distinct{i}``, an estimate
+    (HyperLogLog) of how many distinct predictor values those rows take, and
+    ``lacking{i}``, rows with a target value but no predictor value.
+
+    The estimate costs nothing beside the medians, where an exact count of distinct
+    values nearly doubles this pass on a continuous predictor; an exact count follows
+    only for the predictors the estimate says take few values."""
     expressions = {}
     y = table.y
     for i, column in enumerate(predictors):
@@ -26,6 +31,7 @@ def median_references(table: ir.Table, predictors: list[str]) -> dict:
             f"y_ref{i}": y.quantile(0.5, where=both),
             f"x_min{i}": x.min(where=both),
             f"x_max{i}": x.max(where=both),
+            f"approx_distinct{i}": x.approx_nunique(where=both),
             f"lacking{i}": (y.notnull() & x.isnull()).sum(),
         }
     return one_row(table, expressions)
