@@ -66,6 +66,8 @@ class Wording:
     label: str
     unit_decimals: int
     confidence: float
+    kind: str = "continuous"  # stats.target_kind.kind: continuous, binary or count
+    scale: str = "ratio"  # percentages of the target only on a ratio scale
 
     def value(self, number: float | None) -> str:
         return fmt(number, self.unit_decimals)
@@ -83,12 +85,19 @@ class Wording:
 
 
 def wording_for(stats: BriefStats, label: str) -> Wording:
+    kind = stats.target_kind
     return Wording(
-        label=label, unit_decimals=decimals_for(stats.overall.sd), confidence=stats.confidence
+        label=label,
+        unit_decimals=decimals_for(stats.overall.sd),
+        confidence=stats.confidence,
+        kind=kind.kind if kind is not None else "continuous",
+        scale=kind.scale if kind is not None else "ratio",
     )
 
 
 def overall_finding(stats: BriefStats, words: Wording, figure: str | None = None) -> Finding:
+    if stats.overall_share is not None and words.kind in ("binary", "count"):
+        return kind_overall_finding(stats, words, figure)
     o = stats.overall
     text = (
         f"Across {fmt_count(o.n)} rows, the typical {words.lower} is {words.value(o.median)} "
@@ -136,6 +145,8 @@ def group_finding(
     typical values, so the sentence compares medians; a sentence never pairs one
     test's verdict with the other's numbers.
     """
+    if group.share_comparison is not None:
+        return binary_group_finding(group, words, name)
     usable = [s for s in group.summaries if s.n >= 2 and s.mean is not None]
     # compare_groups returns None exactly when fewer than two levels have n ≥ 2.
     if len(usable) < 2 or comparison is None:
@@ -143,6 +154,8 @@ def group_finding(
     figure = group.key
     test, p = _test_phrase(comparison)
     data = {"key": group.key, "kind": "groups", "variables": (group.variable,)}
+    if means_instead_of_medians(usable, comparison, words):
+        return count_group_finding(group, comparison, usable, words, name)
     if p is None:
         return replace(_untested_finding(comparison, words, name, figure), **data)
     if comparison.leans_on == "rank":
@@ -179,7 +192,7 @@ def _mean_finding(usable, comparison, words, name, test, p, figure) -> Finding:
             else (-pair.ci_high, -pair.ci_low)
         )
         text += f" ({words.level_name} interval {words.interval(low_end, high_end)})"
-    if low.mean and low.mean > 0 and abs(gap / low.mean) >= 0.005:
+    if words.scale == "ratio" and low.mean and low.mean > 0 and abs(gap / low.mean) >= 0.005:
         text += f", or {fmt_percent(gap / low.mean)} more"
     text += "."
     if clear:
@@ -454,6 +467,7 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
                 "Their averages can move a lot with a few more rows."
             )
     skewed = [c for c in stats.comparisons if c.strongly_skewed and c.skewness is not None]
+    skewed = skewed if words.kind == "continuous" else []  # counts are read by their means
     if skewed:
         pull = (
             "a few high values pull means up"
@@ -486,3 +500,204 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
             "The first or last period of the trend is only partly covered by the data; read its value with care."
         )
     return notes
+
+
+# ── The kind of target decides the wording (binary shares, counts with many zeros) ──
+
+
+def _share(value: float | None) -> str:
+    """A share (0–1) as a percent with one decimal: shares of rows read in tenths of a percent."""
+    return fmt_percent(value, 1)
+
+
+def _points(value: float | None) -> str:
+    """A difference of shares in percentage points, signed."""
+    text = fmt(None if value is None else 100 * value, 1)
+    return text if text.startswith("−") or text == "–" else f"+{text}"
+
+
+def _clear(p: float | None, words: Wording) -> bool:
+    """A verdict at the brief's configured confidence."""
+    return p is not None and p < 1 - words.confidence
+
+
+def kind_overall_finding(stats: BriefStats, words: Wording, figure: str | None) -> Finding:
+    """The target over all rows as a share of 1s (binary), or its mean and zeros (count)."""
+    o, share = stats.overall, stats.overall_share
+    wilson = f"{words.level_name} interval {_share(share.ci_low)} to {_share(share.ci_high)}"
+    if words.kind == "binary":
+        return Finding(
+            headline=f"{words.label}: {_share(share.share)} of rows are 1 (yes)",
+            text=(
+                f"Of {fmt_count(share.n)} rows with a value, {fmt_count(share.events)} "
+                f"({_share(share.share)}) have {words.lower} equal to 1 (yes) ({wilson})."
+            ),
+            certainty=f"Interval from Wilson's score method at {words.level_name} confidence.",
+            figure=figure,
+            key="overall",
+            kind="overall",
+            estimate=share.share,
+            ci_low=share.ci_low,
+            ci_high=share.ci_high,
+            test="wilson_score",
+        )
+    return Finding(
+        headline=f"Average {words.lower}: {words.value(o.mean)}; {_share(share.share)} are 0",
+        text=(
+            f"Across {fmt_count(o.n)} rows, the mean {words.lower} is {words.value(o.mean)} "
+            f"({words.level_name} interval {words.interval(o.ci_low, o.ci_high)}), and "
+            f"{_share(share.share)} of values are 0 ({wilson}). With this many zeros the median "
+            "says little, so the brief compares means."
+        ),
+        certainty=(
+            f"Mean interval from Student's t, share of zeros from Wilson's score method, at "
+            f"{words.level_name} confidence."
+        ),
+        figure=figure,
+        key="overall",
+        kind="overall",
+        estimate=o.mean,
+        ci_low=o.ci_low,
+        ci_high=o.ci_high,
+        test="student_t",
+    )
+
+
+def _share_pair(group: GroupResult, high: str, low: str) -> tuple[float, float, float] | None:
+    """(gap, low, high) of share(high) − share(low) from the pairwise Newcombe intervals."""
+    for pair in group.share_comparison.pairwise:
+        if (pair.level_a, pair.level_b) == (high, low):
+            return pair.difference, pair.ci_low, pair.ci_high
+        if (pair.level_a, pair.level_b) == (low, high):
+            return -pair.difference, -pair.ci_high, -pair.ci_low
+    return None
+
+
+def binary_group_finding(group: GroupResult, words: Wording, name: str) -> Finding | None:
+    """Highest and lowest share of 1s, the gap in percentage points, and the test on shares."""
+    comparison = group.share_comparison
+    shares = [s for s in group.shares if s.n >= 1 and s.share is not None]
+    data = {
+        "figure": group.key,
+        "key": group.key,
+        "kind": "groups",
+        "variables": (group.variable,),
+        "test": comparison.test,
+    }
+    if comparison.p_value is None:
+        return Finding(
+            headline=f"By {name}: difference not tested",
+            text=f"The levels of {name} could not be compared: {comparison.undefined_reason}.",
+            certainty="Read the table of levels instead; no statement of certainty is possible.",
+            claim="not_tested",
+            **data,
+        )
+    high = max(shares, key=lambda s: s.share)
+    # The lowest is picked among the other levels, so no level is named both highest and lowest.
+    low = min((s for s in shares if s is not high), key=lambda s: s.share)
+    gap, gap_low, gap_high = _share_pair(group, high.level, low.level)
+    test = "two-proportion z test" if comparison.test == "two_proportion_z" else "chi-square test"
+    p = comparison.p_value
+    clear = _clear(p, words)
+    text = (
+        f"By {name}, {_share(high.share)} of rows are 1 for {high.level} ({words.level_name} "
+        f"interval {_share(high.ci_low)} to {_share(high.ci_high)}) and {_share(low.share)} for "
+        f"{low.level} ({_share(low.ci_low)} to {_share(low.ci_high)}): a gap of "
+        f"{_points(gap)} percentage points"
+    )
+    if clear:
+        text += (
+            f" ({words.level_name} interval {_points(gap_low)} to {_points(gap_high)} points, "
+            "Newcombe's hybrid score method)"
+        )
+    text += "."
+    if clear:
+        headline = (
+            f"By {name}: {high.level} highest ({_share(high.share)}), "
+            f"{low.level} lowest ({_share(low.share)})"
+        )
+        certainty = (
+            f"A gap this large would be unlikely if {name} made no difference "
+            f"({test} on shares, {p_text(p)})."
+        )
+    else:
+        headline = f"By {name}: no clear difference"
+        certainty = _chance_phrase(name, f"{test} on shares", p)
+    return Finding(
+        headline=headline,
+        text=text,
+        certainty=certainty,
+        claim="difference" if clear else "none",
+        levels=(high.level, low.level),
+        estimate=gap,
+        ci_low=gap_low if clear else None,
+        ci_high=gap_high if clear else None,
+        p_value=p,
+        **data,
+    )
+
+
+def means_instead_of_medians(usable, comparison: GroupComparison, words: Wording) -> bool:
+    """True for a count target, and wherever the rank test leans on medians that tie.
+
+    Tied medians would name one level both highest and lowest; a count that is mostly
+    zero has medians at 0 in most levels, so its means carry the pattern.
+    """
+    if words.kind == "count":
+        return True
+    medians = {s.median for s in usable}
+    return comparison.leans_on == "rank" and len(medians) == 1
+
+
+def count_group_finding(
+    group: GroupResult, comparison: GroupComparison, usable, words: Wording, name: str
+) -> Finding:
+    """Means by Welch's test whatever the skew, with each named level's share of zeros."""
+    data = {"key": group.key, "kind": "groups", "variables": (group.variable,)}
+    if comparison.p_value is None:
+        return replace(_untested_finding(comparison, words, name, group.key), **data)
+    test = "Welch's t-test" if comparison.test == "welch_t" else "Welch's ANOVA"
+    finding = _mean_finding(usable, comparison, words, name, test, comparison.p_value, group.key)
+    zeros = {s.level: s for s in group.shares}
+    named = [zeros[level] for level in finding.levels if level in zeros]
+    text = finding.text
+    if len(named) == 2:
+        text += (
+            f" Values are 0 in {_share(named[0].share)} of rows for {named[0].level} and "
+            f"{_share(named[1].share)} for {named[1].level}."
+        )
+    why = (
+        "Most values are 0, so medians tie and say little; the brief compares means with Welch's "
+        "test, which holds for large groups whatever the skew."
+        if words.kind == "count"
+        else "The medians of every level are equal, so the brief compares means with Welch's test."
+    )
+    if comparison.rank_test is not None and comparison.rank_test.p_value is not None:
+        why += f" The rank test on typical values gives {p_text(comparison.rank_test.p_value)}."
+    return replace(
+        finding, text=text, detail=why, test=comparison.test, p_value=comparison.p_value, **data
+    )
+
+
+def kind_note(stats: BriefStats) -> str | None:
+    """How the kind and scale of the target shaped the brief, for the method notes."""
+    kind = stats.target_kind
+    if kind is None:
+        return None
+    notes = {
+        "binary": "The target is read as a 0/1 outcome ({why}): shares of 1s with Wilson (1927) "
+        "score intervals, gaps in percentage points with Newcombe's (1998) hybrid score interval, "
+        "and a two-proportion z test (two levels) or Pearson's chi-square test (more), pairs "
+        "adjusted by Holm's method; no box plots or outliers.",
+        "count": "The target is read as a count with many zeros ({why}): means with Student t "
+        "intervals and the share of zeros with Wilson score intervals; groups are compared by "
+        "their means (Welch), since medians at 0 cannot tell levels apart.",
+        "continuous": "",
+    }
+    text = notes[kind.kind].format(why=kind.kind_reason)
+    if kind.scale == "interval":
+        text += (
+            f" The target has no true zero ({kind.scale_reason}), so the brief gives differences "
+            "in its units and never as percentages of it."
+        )
+    return text.strip() or None

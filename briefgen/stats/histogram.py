@@ -107,7 +107,8 @@ class Histogram:
 
     @classmethod
     def plan(cls, spec: BriefSpec, frame: AnalysisFrame) -> tuple[Histogram, ...]:
-        return (cls(),)
+        # Two bars of 0 and 1 say less than the share with its interval the brief gives.
+        return () if frame.binary else (cls(),)
 
     def __call__(self, frame: AnalysisFrame) -> HistogramBins | None:
         return histogram_bins(frame.table, "y", self.max_bins)
