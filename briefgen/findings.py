@@ -614,7 +614,7 @@ def binary_group_finding(group: GroupResult, words: Wording, name: str) -> Findi
     if clear:
         headline = (
             f"By {name}: {high.level} highest ({_share(high.share)}), "
-            f"{low.level} lowest ({_share(low.share)})"
+            f"{low.level} lowest ({_share(low.share)}), {_points(gap)} percentage points"
         )
         certainty = (
             f"A gap this large would be unlikely if {name} made no difference "

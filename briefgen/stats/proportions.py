@@ -94,8 +94,10 @@ def wilson_interval(events: int, n: int, confidence: float = 0.95) -> tuple[floa
     z2n = z * z / n
     centre = (share + z2n / 2) / (1 + z2n)
     half = z / (1 + z2n) * math.sqrt(share * (1 - share) / n + z2n / (4 * n))
-    # At events = 0 or n one bound is exactly 0 or 1; rounding must not push it past.
-    return max(0.0, centre - half), min(1.0, centre + half)
+    # At events = 0 or n one bound is exactly 0 or 1; rounding must not move it.
+    low = 0.0 if events == 0 else max(0.0, centre - half)
+    high = 1.0 if events == n else min(1.0, centre + half)
+    return low, high
 
 
 def share_of(level: str, events: int, n: int, confidence: float) -> Share:
