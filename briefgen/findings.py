@@ -490,7 +490,8 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
             "pairwise p-values are adjusted for this (Holm's method)."
         )
     box = stats.overall_box
-    if box is not None and box.outlier_count:
+    # In a count that is mostly zero the box is 0 to 0 and every other value would be "far".
+    if box is not None and box.outlier_count and words.kind == "continuous":
         notes.append(
             f"{fmt_count(box.outlier_count)} values lie far from the rest (beyond 1.5 × IQR from the box). "
             "None were removed: every figure and average includes them."

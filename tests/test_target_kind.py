@@ -17,6 +17,7 @@ from briefgen.config import parse_spec
 from briefgen.errors import ConfigError
 from briefgen.stats.core.frame import build_frame
 from briefgen.stats.groups import GroupAnalysis
+from briefgen.stats.histogram import Histogram
 from briefgen.stats.overall import Overall
 from briefgen.stats.target_kind import ZERO_HEAVY, target_kind
 
@@ -135,3 +136,17 @@ def test_count_target_has_the_share_of_zeros_per_level(engine_table):
     for share in group.shares:
         # numpy's count of zeros on the same rows is the reference.
         assert share.events == int((y[groups == share.level] == 0).sum())
+
+
+def test_count_histogram_has_one_bin_per_whole_number(engine_table):
+    y = _values("count")
+    frame, spec = _frame(engine_table, y)
+    frame = replace(frame, kind=target_kind(frame))
+    (histogram,) = Histogram.plan(spec, frame)
+    bins = histogram(frame)
+    assert bins.rule == "whole_numbers"
+    # numpy.histogram with edges at k ± 0.5 is the reference.
+    expected, edges = np.histogram(y, bins=np.arange(y.min() - 0.5, y.max() + 1.0))
+    assert bins.edges == tuple(edges) and bins.counts == tuple(expected)
+    binary, spec = _frame(engine_table, _values("binary"))
+    assert Histogram.plan(spec, replace(binary, kind=target_kind(binary))) == ()
