@@ -484,6 +484,7 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
             "thing causes another, and factors not in the data may explain them."
         )
     many = sum(len(c.pairwise) for c in stats.comparisons)
+    many += sum(len(g.share_comparison.pairwise) for g in stats.groups if g.share_comparison)
     if many > 3:
         notes.append(
             f"The brief makes {many} pairwise comparisons; some small p-values would arise by chance, so "
