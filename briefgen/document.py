@@ -108,6 +108,8 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
         "Straight-line fits are ordinary least squares from centred sums; correlations are Pearson's r and "
         "Spearman's ρ. Whether a slope differs between groups is an F test of separate against parallel lines.",
     ]
+    if stats.target_kind is not None and stats.target_kind.kind == "binary":
+        del notes[1:3]  # no boxes, t intervals or Welch tests: kind_note says what ran instead
     notes += [note] if (note := kind_note(stats)) else []
     if stats.crosses:
         notes.append(

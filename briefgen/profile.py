@@ -28,18 +28,14 @@ def has_natural_order(levels: list[str]) -> bool:
 
 
 def level_order(summaries: tuple[Summary, ...], other_label: str | None = None) -> list[str]:
-    """Natural order if the levels have one, else by median, highest first; "Other" last.
-
-    Medians tie often in a 0/1 or zero-heavy count target; the mean (the share of 1s)
-    then orders the levels, and the name only after both.
-    """
+    """Natural order if the levels have one, else by median, highest first; "Other" last."""
     levels = [s.level for s in summaries if s.level != other_label]
     folded = [other_label] if other_label in {s.level for s in summaries} else []
     if has_natural_order(levels):
         return sorted(levels, key=_numeric_key) + folded
     ranked = sorted(
         (s for s in summaries if s.level != other_label),
-        key=lambda s: (s.median is None, -(s.median or 0.0), -(s.mean or 0.0), s.level),
+        key=lambda s: (s.median is None, -(s.median or 0.0), s.level),
     )
     return [s.level for s in ranked] + folded
 

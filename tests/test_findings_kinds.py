@@ -15,6 +15,7 @@ import re
 import numpy as np
 import pandas as pd
 import pytest
+from statsmodels.stats.proportion import confint_proportions_2indep, proportions_ztest
 
 from briefgen.config import parse_spec
 from briefgen.numbers import fmt_level
@@ -112,3 +113,22 @@ def test_zero_heavy_count_never_names_one_level_highest_and_lowest(tmp_path, ext
     assert "typically" not in group["headline"]
     if not extra:
         assert "are 0" in group["text"]
+
+
+def test_binary_two_levels_rest_on_the_z_test_and_newcombe_interval(tmp_path):
+    rng = np.random.default_rng(1927)
+    g = rng.choice(["trial", "control"], N)
+    y = (rng.random(N) < np.where(g == "trial", 0.30, 0.18)).astype(int)
+    payload, _ = _build(tmp_path, pd.DataFrame({"y": y, "g": g}), "y")
+    group = next(f for f in payload["findings"] if f["key"] == "group-g")
+    assert group["test"] == "two_proportion_z" and group["levels"] == ["trial", "control"]
+    a, b = (y[g == level] for level in group["levels"])
+    # statsmodels' Newcombe interval and z test on the same counts are the reference.
+    low, high = confint_proportions_2indep(
+        a.sum(), len(a), b.sum(), len(b), method="newcomb", compare="diff"
+    )
+    assert group["estimate"] == pytest.approx(a.mean() - b.mean())
+    assert (group["ci_low"], group["ci_high"]) == pytest.approx((low, high))
+    assert group["p_value"] == pytest.approx(
+        proportions_ztest([a.sum(), b.sum()], [len(a), len(b)])[1]
+    )

@@ -7,7 +7,7 @@ cover the same rows, "Other" included.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import ClassVar
 
 from briefgen.config import BriefSpec
@@ -66,7 +66,10 @@ class GroupAnalysis:
         without = result.summaries.get((None,))
         summaries = tuple(s for key, s in result.summaries.items() if key[0] is not None)
         shown = frame.shown[self.variable]
-        order = level_order(summaries, shown.other_label)
+        binary = frame.binary
+        # A 0/1 target's medians are 0 or 1; its levels read in order of their share of 1s.
+        ranked = tuple(replace(s, median=s.mean) for s in summaries) if binary else summaries
+        order = level_order(ranked, shown.other_label)
         by_level = {s.level: s for s in summaries}
         ordered = tuple(by_level[level] for level in order)
         levels_table = table.filter(table.level.notnull())
