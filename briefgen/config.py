@@ -187,6 +187,8 @@ class BriefSpec(_Strict):
     cross: list[tuple[str, str]] | None = None
     labels: dict[str, str] = Field(default_factory=dict)
     log_target: bool = False
+    target_kind: Literal["auto", "continuous", "binary", "count"] = "auto"
+    scale: Literal["auto", "ratio", "interval"] = "auto"
     confidence: float = Field(default=0.95, gt=0.5, lt=1.0)
     min_cell: int = Field(default=10, ge=2)
     # At least two named levels beside "Other", so highest and lowest name real levels.
@@ -217,6 +219,14 @@ class BriefSpec(_Strict):
                 )
             if pair[0] == pair[1]:
                 raise ValueError(f"a pair needs two different groups, not '{pair[0]}' twice")
+        return value
+
+    @field_validator("scale")
+    @classmethod
+    def _no_log_without_zero(cls, value: str, info) -> str:
+        # A percent change per unit is a ratio of the target: meaningless without a true zero.
+        if value == "interval" and info.data.get("log_target"):
+            raise ValueError("log_target reports percent changes, which need a ratio scale")
         return value
 
     @field_validator("engine", mode="before")

@@ -14,6 +14,7 @@ from briefgen.figures.cross import cross_chart
 from briefgen.figures.distribution import distribution_chart
 from briefgen.figures.histogram import histogram_chart
 from briefgen.figures.relationship import relationship_chart
+from briefgen.figures.shares import share_chart
 from briefgen.figures.theme import Chart
 from briefgen.figures.trend import trend_chart
 from briefgen.findings import (
@@ -24,6 +25,7 @@ from briefgen.findings import (
     cross_finding,
     fit_finding,
     group_finding,
+    kind_note,
     overall_finding,
     trend_finding,
     wording_for,
@@ -40,6 +42,7 @@ from briefgen.tables import (
     fits_table,
     group_table,
     pairwise_table,
+    share_pairs_table,
     slopes_table,
     trend_table,
 )
@@ -114,6 +117,9 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
         "the rank correlation agree and are both clear, and a group variable that reverses or removes the "
         "slope within its levels is named as the likely confounder.",
     ]
+    if stats.target_kind is not None and stats.target_kind.kind == "binary":
+        del notes[1:3]  # no boxes, t intervals or Welch tests: kind_note says what ran instead
+    notes += [note] if (note := kind_note(stats)) else []
     if stats.crosses:
         notes.append(
             f"Two-way combinations with fewer than {spec.min_cell} rows are marked and not ranked."
@@ -144,6 +150,8 @@ def _group_sections(
             if group.boxes
             else None
         )
+        if group.share_comparison is not None:
+            chart = share_chart(group, stats.overall_share, label, confidence, name)
         finding = group_finding(group, comparison, words, name, family)
         sections.append(
             Section(
@@ -157,6 +165,8 @@ def _group_sections(
         if comparison is not None:
             pairwise.append(pairwise_table(comparison, words, name))
             pairwise.append(effects_table(comparison, words, name))
+        elif group.share_comparison is not None:
+            pairwise.append(share_pairs_table(group.share_comparison, words, name))
     return sections, pairwise
 
 

@@ -22,13 +22,14 @@ from briefgen.numbers import (
     readable_step,
 )
 from briefgen.present.direction import confounding
-from briefgen.present.family import Family
+from briefgen.present.family import Family, verdict_test
 from briefgen.present.order import Ordering, order_levels
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
 from briefgen.stats.core.summary import Summary
 from briefgen.stats.correlation import Correlation
 from briefgen.stats.groups import GroupResult
+from briefgen.stats.proportions import newcombe_interval
 from briefgen.stats.regression import RegressionFit
 from briefgen.stats.relationships import GroupSlopes, LogFit
 from briefgen.stats.trend import Trend
@@ -83,6 +84,8 @@ class Wording:
     label: str
     unit_decimals: int
     confidence: float
+    kind: str = "continuous"  # stats.target_kind.kind: continuous, binary or count
+    scale: str = "ratio"  # percentages of the target only on a ratio scale
 
     def value(self, number: float | None) -> str:
         return fmt(number, self.unit_decimals)
@@ -100,12 +103,19 @@ class Wording:
 
 
 def wording_for(stats: BriefStats, label: str) -> Wording:
+    kind = stats.target_kind
     return Wording(
-        label=label, unit_decimals=decimals_for(stats.overall.sd), confidence=stats.confidence
+        label=label,
+        unit_decimals=decimals_for(stats.overall.sd),
+        confidence=stats.confidence,
+        kind=kind.kind if kind is not None else "continuous",
+        scale=kind.scale if kind is not None else "ratio",
     )
 
 
 def overall_finding(stats: BriefStats, words: Wording, figure: str | None = None) -> Finding:
+    if stats.overall_share is not None and words.kind in ("binary", "count"):
+        return kind_overall_finding(stats, words, figure)
     o = stats.overall
     text = (
         f"Across {fmt_count(o.n)} rows, the typical {words.lower} is {words.value(o.median)} "
@@ -159,19 +169,28 @@ def group_finding(
     where values tend to lie, so the sentence orders levels by mean rank and quotes
     medians; a sentence never pairs one test's verdict with the other's numbers.
     """
+    if group.share_comparison is not None:
+        return binary_group_finding(group, words, name, family)
     usable = [s for s in group.named_summaries if s.n >= 2 and s.mean is not None]
     # compare_groups returns None exactly when fewer than two levels have n ≥ 2.
     if len(usable) < 2 or comparison is None:
         return None
-    test_name = _test_phrase(comparison)
-    test, p = group_p_value(comparison)
+    by_means = words.kind == "count"
+    test_name = "Welch's t-test" if comparison.test == "welch_t" else "Welch's ANOVA"
+    if not by_means:
+        test_name = _test_phrase(comparison)
+    test, p = verdict_test(group, words.kind)
     data = {"key": group.key, "kind": "groups", "variables": (group.variable,)}
     if p is None:
         return replace(_untested_finding(comparison, words, name, group.key), **data)
     p_adjusted = family.adjusted(group.key)
     clear = family.passes(group.key)
-    ordering = order_levels(usable, comparison, family.alpha, clear, group.shown.other_label)
+    ordering = order_levels(
+        usable, comparison, family.alpha, clear, group.shown.other_label, by_means=by_means
+    )
     finding = _order_finding(ordering, usable, words, name, clear)
+    if by_means:
+        finding = _with_zero_shares(finding, group, comparison)
     verdict = f"{test_name}, {_adjusted_phrase(p, p_adjusted, family)}"
     certainty = (
         f"Differences this large would be unlikely if {name} made no difference ({verdict})."
@@ -190,11 +209,29 @@ def group_finding(
     return _with_disagreement(finding, comparison, family.alpha)
 
 
-def group_p_value(comparison: GroupComparison) -> tuple[str, float | None]:
-    """The test a group's verdict rests on, and its p-value."""
-    if comparison.leans_on == "rank" and comparison.rank_test is not None:
-        return comparison.rank_test.test, comparison.rank_test.p_value
-    return comparison.test, comparison.p_value
+def _with_zero_shares(finding: Finding, group: GroupResult, comparison: GroupComparison) -> Finding:
+    """A count target's sentence adds each named level's share of zeros, and why means."""
+    zeros = {s.level: s for s in group.shares}
+    named = [zeros[level] for level in finding.levels[:1] + finding.levels[-1:] if level in zeros]
+    text = finding.text
+    if len(named) == 2 and named[0] is not named[1]:
+        text += (
+            f" Values are 0 in {_share(named[0].share)} of rows for {named[0].level} and "
+            f"{_share(named[1].share)} for {named[1].level}."
+        )
+    why = (
+        "Most values are 0, so medians tie and say little; the brief compares means with Welch's "
+        "test, which holds for large groups whatever the skew."
+    )
+    if comparison.rank_test is not None and comparison.rank_test.p_value is not None:
+        why += f" The rank test on typical values gives {p_text(comparison.rank_test.p_value)}."
+    return replace(finding, text=text, detail=why)
+
+
+def _level(confidence: float) -> str:
+    """A widened interval level to one decimal (98.3%), where fmt_level would print 98.33333333%."""
+    text = fmt_level(confidence)
+    return text if len(text) <= 6 else f"{fmt(100 * confidence, 1)}%"
 
 
 def _listed(levels: tuple[str, ...]) -> str:
@@ -228,11 +265,16 @@ def _order_finding(
         )
         if clear and ordering.ends_apart and ordering.gap_ci_low is not None:
             text += (
-                f" ({fmt_level(ordering.pair_confidence)} interval "
+                f" ({_level(ordering.pair_confidence)} interval "
                 f"{words.interval(ordering.gap_ci_low, ordering.gap_ci_high)}, widened because "
                 f"this pair was picked as the most different of {ordering.pairs})"
             )
-        if low.mean and low.mean > 0 and abs(ordering.gap / low.mean) >= 0.005:
+        if (
+            words.scale == "ratio"
+            and low.mean
+            and low.mean > 0
+            and abs(ordering.gap / low.mean) >= 0.005
+        ):
             text += f", or {fmt_percent(ordering.gap / low.mean)} more"
         text += "."
     estimate = (high.median - low.median) if rank else ordering.gap
@@ -633,6 +675,7 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
             )
     notes += level_cautions(stats, words, names)
     skewed = [c for c in stats.comparisons if c.strongly_skewed and c.skewness is not None]
+    skewed = skewed if words.kind == "continuous" else []  # counts are read by their means
     if skewed:
         pull = (
             "a few high values pull means up"
@@ -649,7 +692,8 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
             "thing causes another, and factors not in the data may explain them."
         )
     box = stats.overall_box
-    if box is not None and box.outlier_count:
+    # In a count that is mostly zero the box is 0 to 0 and every other value would be "far".
+    if box is not None and box.outlier_count and words.kind == "continuous":
         notes.append(
             f"{fmt_count(box.outlier_count)} {'value lies' if box.outlier_count == 1 else 'values lie'} "
             "far from the rest (beyond 1.5 × IQR from the box "
@@ -699,3 +743,196 @@ def level_cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> 
                 "instead of predictors."
             )
     return notes
+
+
+# ── The kind of target decides the wording (binary shares, counts with many zeros) ──
+
+
+def _share(value: float | None) -> str:
+    """A share (0–1) as a percent with one decimal: shares of rows read in tenths of a percent."""
+    return fmt_percent(value, 1)
+
+
+def _points(value: float | None) -> str:
+    """A difference of shares in percentage points, signed."""
+    text = fmt(None if value is None else 100 * value, 1)
+    return text if text.startswith("−") or text == "–" else f"+{text}"
+
+
+def kind_overall_finding(stats: BriefStats, words: Wording, figure: str | None) -> Finding:
+    """The target over all rows as a share of 1s (binary), or its mean and zeros (count)."""
+    o, share = stats.overall, stats.overall_share
+    wilson = f"{words.level_name} interval {_share(share.ci_low)} to {_share(share.ci_high)}"
+    if words.kind == "binary":
+        return Finding(
+            headline=f"{words.label}: {_share(share.share)} of rows are 1 (yes)",
+            text=(
+                f"Of {fmt_count(share.n)} rows with a value, {fmt_count(share.events)} "
+                f"({_share(share.share)}) have {words.lower} equal to 1 (yes) ({wilson})."
+            ),
+            certainty=f"Interval from Wilson's score method at {words.level_name} confidence.",
+            figure=figure,
+            key="overall",
+            kind="overall",
+            estimate=share.share,
+            ci_low=share.ci_low,
+            ci_high=share.ci_high,
+            test="wilson_score",
+        )
+    return Finding(
+        headline=f"Average {words.lower}: {words.value(o.mean)}; {_share(share.share)} are 0",
+        text=(
+            f"Across {fmt_count(o.n)} rows, the mean {words.lower} is {words.value(o.mean)} "
+            f"({words.level_name} interval {words.interval(o.ci_low, o.ci_high)}), and "
+            f"{_share(share.share)} of values are 0 ({wilson}). With this many zeros the median "
+            "says little, so the brief compares means."
+        ),
+        certainty=(
+            f"Mean interval from Student's t, share of zeros from Wilson's score method, at "
+            f"{words.level_name} confidence."
+        ),
+        figure=figure,
+        key="overall",
+        kind="overall",
+        estimate=o.mean,
+        ci_low=o.ci_low,
+        ci_high=o.ci_high,
+        test="student_t",
+    )
+
+
+def _share_apart(group: GroupResult, a: str, b: str, alpha: float) -> bool:
+    """Whether the Holm-adjusted pairwise test on shares separates two levels."""
+    comparison = group.share_comparison
+    if len(comparison.levels) == 2:
+        return True  # the overall test is the pairwise test; the caller checked it
+    for pair in comparison.pairwise:
+        if {pair.level_a, pair.level_b} == {a, b}:
+            return pair.p_holm is not None and pair.p_holm < alpha
+    return False
+
+
+def binary_group_finding(
+    group: GroupResult, words: Wording, name: str, family: Family
+) -> Finding | None:
+    """Highest and lowest share of 1s, as far as adjusted pairwise tests separate them."""
+    comparison = group.share_comparison
+    fold = group.shown.other_label
+    shares = [s for s in group.shares if s.n >= 1 and s.share is not None]
+    if len([s for s in shares if s.level != fold]) >= 2:
+        shares = [s for s in shares if s.level != fold]
+    data = {
+        "figure": group.key,
+        "key": group.key,
+        "kind": "groups",
+        "variables": (group.variable,),
+        "test": comparison.test,
+    }
+    if comparison.p_value is None or len(shares) < 2:
+        return Finding(
+            headline=f"By {name}: difference not tested",
+            text=f"The levels of {name} could not be compared: {comparison.undefined_reason}.",
+            certainty="Read the table of levels instead; no statement of certainty is possible.",
+            claim="not_tested",
+            **data,
+        )
+    ordered = sorted(shares, key=lambda s: (-s.share, str(s.level)))
+    high, low = ordered[0], ordered[-1]
+    pairs = max(1, len(comparison.levels) * (len(comparison.levels) - 1) // 2)
+    # The pair is picked as the most different, so its interval is widened to 1 − α/m.
+    pair_confidence = 1 - family.alpha / pairs
+    gap, gap_low, gap_high = newcombe_interval(
+        high.events, high.n, low.events, low.n, pair_confidence
+    )
+    test = "two-proportion z test" if comparison.test == "two_proportion_z" else "chi-square test"
+    p, p_adjusted = comparison.p_value, family.adjusted(group.key)
+    clear = family.passes(group.key)
+    verdict = f"{test} on shares, {_adjusted_phrase(p, p_adjusted, family)}"
+    text = (
+        f"By {name}, {_share(high.share)} of rows are 1 for {high.level} ({words.level_name} "
+        f"interval {_share(high.ci_low)} to {_share(high.ci_high)}) and {_share(low.share)} for "
+        f"{low.level} ({_share(low.ci_low)} to {_share(low.ci_high)}): a gap of "
+        f"{_points(gap)} percentage points"
+    )
+    top = [
+        s.level
+        for s in ordered
+        if s is high
+        or not _share_apart(group, high.level, s.level, family.alpha)
+        or s.share == high.share
+    ]
+    bottom = [
+        s.level
+        for s in reversed(ordered)
+        if s is low
+        or not _share_apart(group, low.level, s.level, family.alpha)
+        or s.share == low.share
+    ]
+    single_top, single_bottom = top == [high.level], bottom == [low.level]
+    if clear and single_top and single_bottom:
+        text += (
+            f" ({_level(pair_confidence)} interval {_points(gap_low)} to {_points(gap_high)} "
+            "points, Newcombe's hybrid score method"
+            f"{', widened for picking this pair of ' + str(pairs) if pairs > 1 else ''})"
+        )
+    text += "."
+    if not clear:
+        headline = f"By {name}: no clear difference"
+        certainty = _chance_phrase(name, verdict)
+    else:
+        certainty = (
+            f"Differences this large would be unlikely if {name} made no difference ({verdict})."
+        )
+        if single_top and single_bottom:
+            headline = (
+                f"By {name}: {high.level} highest ({_share(high.share)}), "
+                f"{low.level} lowest ({_share(low.share)}), {_points(gap)} percentage points"
+            )
+        elif single_top:
+            headline = f"By {name}: {high.level} highest ({_share(high.share)})"
+            text += (
+                f" {_listed(tuple(bottom))} are not clearly apart from each other at the bottom."
+            )
+        elif single_bottom:
+            headline = f"By {name}: {low.level} lowest ({_share(low.share)})"
+            text += f" {_listed(tuple(top))} are not clearly apart from each other at the top."
+        else:
+            headline = f"By {name}: shares differ, but no single level is clearly apart"
+    interval = clear and single_top and single_bottom
+    return Finding(
+        headline=headline,
+        text=text,
+        certainty=certainty,
+        claim="difference" if clear else "none",
+        levels=(high.level, low.level),
+        estimate=gap,
+        ci_low=gap_low if interval else None,
+        ci_high=gap_high if interval else None,
+        p_value=p,
+        p_adjusted=p_adjusted,
+        **data,
+    )
+
+
+def kind_note(stats: BriefStats) -> str | None:
+    """How the kind and scale of the target shaped the brief, for the method notes."""
+    kind = stats.target_kind
+    if kind is None:
+        return None
+    notes = {
+        "binary": "The target is read as a 0/1 outcome ({why}): shares of 1s with Wilson (1927) "
+        "score intervals, gaps in percentage points with Newcombe's (1998) hybrid score interval, "
+        "and a two-proportion z test (two levels) or Pearson's chi-square test (more), pairs "
+        "adjusted by Holm's method; no box plots or outliers.",
+        "count": "The target is read as a count with many zeros ({why}): means with Student t "
+        "intervals and the share of zeros with Wilson score intervals; groups are compared by "
+        "their means (Welch), since medians at 0 cannot tell levels apart.",
+        "continuous": "",
+    }
+    text = notes[kind.kind].format(why=kind.kind_reason)
+    if kind.scale == "interval":
+        text += (
+            f" The target has no true zero ({kind.scale_reason}), so the brief gives differences "
+            "in its units and never as percentages of it."
+        )
+    return text.strip() or None

@@ -16,6 +16,7 @@ from briefgen.stats.compare import GroupComparison
 from briefgen.stats.core.frame import OTHER_PREFIX, ShownLevels
 from briefgen.stats.groups import GroupResult
 from briefgen.stats.periods import period_label
+from briefgen.stats.proportions import ProportionComparison
 from briefgen.stats.trend import PeriodStats, Trend
 from briefgen.stats.twoway import CrossTable
 
@@ -35,6 +36,8 @@ class Table:
 
 
 def group_table(group: GroupResult, words: Wording, name: str) -> Table:
+    if group.shares:
+        return share_table(group, words, name)
     rows = []
     boxes = {b.level: b for b in group.boxes}
     for s in group.summaries:
@@ -148,7 +151,8 @@ def effects_table(comparison: GroupComparison, words: Wording, name: str) -> Tab
     for effect in comparison.effects:
         is_reference = effect.level == comparison.reference_level
         rows.append(
-            (
+            _ratio_only(
+                words,
                 effect.level + (" (reference)" if is_reference else ""),
                 fmt_count(effect.n),
                 words.value(effect.mean),
@@ -163,7 +167,8 @@ def effects_table(comparison: GroupComparison, words: Wording, name: str) -> Tab
     return Table(
         key=f"table-effects-{comparison.variable}",
         caption=f"Each level of {name} against {comparison.reference_level}, {_reference_phrase(comparison)}",
-        header=(
+        header=_ratio_only(
+            words,
             "Level",
             "n",
             "Mean",
@@ -173,7 +178,7 @@ def effects_table(comparison: GroupComparison, words: Wording, name: str) -> Tab
             "Against overall mean",
         ),
         rows=tuple(rows),
-        numeric=(False, True, True, True, True, True, True),
+        numeric=_ratio_only(words, False, True, True, True, True, True, True),
         notes=(
             f"Overall mean {words.value(comparison.overall_mean)}. Intervals are Welch intervals of the "
             "difference, not adjusted for the number of levels.",
@@ -200,6 +205,92 @@ def _percent(value: float | None) -> str:
         return "–"
     text = fmt(value, 1)
     return (text if text.startswith("−") or text == "0.0" else f"+{text}") + "%"
+
+
+def _ratio_only(words: Wording, *cells):
+    """The effect columns, without the two percentages when the target has no true zero."""
+    return cells if words.scale == "ratio" else cells[:-2]
+
+
+def share_table(group: GroupResult, words: Wording, name: str) -> Table:
+    """Per level: the share of 1s (binary target), or the mean and share of 0s (count)."""
+    level = words.level_name
+    summaries = {s.level: s for s in group.summaries}
+    rows = []
+    for share in group.shares:
+        s = summaries[share.level]
+        share_cells = (
+            fmt_percent(share.share, 1),
+            f"{fmt_percent(share.ci_low, 1)} to {fmt_percent(share.ci_high, 1)}"
+            if share.ci_low is not None
+            else "–",
+        )
+        mean_cells = (
+            words.value(s.mean),
+            words.interval(s.ci_low, s.ci_high) if s.ci_low is not None else "–",
+        )
+        cells = share_cells if words.kind == "binary" else (*mean_cells, *share_cells)
+        rows.append((share.level, fmt_count(share.n), *cells))
+    if words.kind == "binary":
+        header = ("Level", "n", "Share of 1s", f"{level} interval (Wilson)")
+    else:
+        header = (
+            "Level",
+            "n",
+            "Mean",
+            f"{level} interval",
+            "Share of 0s",
+            f"{level} interval (Wilson)",
+        )
+    notes = []
+    if group.rows_without_level:
+        notes.append(
+            f"{fmt_count(group.rows_without_level)} rows have no {name} and are not in this table."
+        )
+    return Table(
+        key=f"table-group-{group.variable}",
+        caption=f"{words.label} by {name}",
+        header=header,
+        rows=tuple(rows),
+        numeric=(False, *([True] * (len(header) - 1))),
+        notes=tuple(notes),
+    )
+
+
+def share_pairs_table(comparison: ProportionComparison, words: Wording, name: str) -> Table:
+    """Every pair of levels: gap in percentage points, Newcombe interval, z test, Holm."""
+
+    def points(value: float | None) -> str:
+        return fmt(None if value is None else 100 * value, 1)
+
+    rows = tuple(
+        (
+            f"{pair.level_a} − {pair.level_b}",
+            points(pair.difference),
+            f"{points(pair.ci_low)} to {points(pair.ci_high)}",
+            fmt_p(pair.p_value),
+            fmt_p(pair.p_holm),
+        )
+        for pair in comparison.pairwise
+    )
+    test = "two-proportion z test" if comparison.test == "two_proportion_z" else "chi-square test"
+    return Table(
+        key=f"table-pairs-{comparison.variable}",
+        caption=f"Differences in the share of 1s between levels of {name}",
+        header=(
+            "Pair (first − second)",
+            "Difference (percentage points)",
+            f"{words.level_name} interval (Newcombe)",
+            "p",
+            "p (Holm)",
+        ),
+        rows=rows,
+        numeric=(False, True, True, True, True),
+        notes=(
+            f"Overall: {test} of equal shares, {p_text(comparison.p_value)}. Pairs: two-proportion "
+            "z tests, adjusted by Holm's method.",
+        ),
+    )
 
 
 def cross_cells_table(cross: CrossTable, words: Wording, names: tuple[str, str]) -> Table:

@@ -20,6 +20,8 @@ def _rule_phrase(bins: HistogramBins, decimals: int) -> str:
             f"{len(bins.counts)} equal bins of width {width} (the Freedman–Diaconis rule asked "
             f"for {fmt_count(bins.requested_bins)}, too many to read)"
         )
+    if bins.rule == "whole_numbers":
+        return "one bar per whole number"
     if bins.rule == "single":
         return "one bin: the middle half of the values has no spread"
     return f"Freedman–Diaconis bins of width {width}"

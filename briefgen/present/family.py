@@ -27,6 +27,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from briefgen.stats import BriefStats
+from briefgen.stats.groups import GroupResult
 from briefgen.stats.welch import holm
 
 
@@ -88,12 +89,19 @@ class Family:
         )
 
 
-def group_p(stats: BriefStats, variable: str) -> tuple[str, float | None]:
-    """The test a group's verdict rests on and its p-value."""
-    comparison = stats.comparison(variable)
+def verdict_test(group: GroupResult, kind: str) -> tuple[str, float | None]:
+    """The test a group's verdict rests on and its p-value.
+
+    Shares of a 0/1 target: the test on proportions. A count with many zeros: Welch's
+    test on means (medians at 0 cannot tell levels apart). Otherwise the test the
+    comparison leans on (Welch, or ranks when strongly skewed).
+    """
+    if group.share_comparison is not None:
+        return group.share_comparison.test, group.share_comparison.p_value
+    comparison = group.comparison
     if comparison is None:
         return "none", None
-    if comparison.leans_on == "rank" and comparison.rank_test is not None:
+    if kind != "count" and comparison.leans_on == "rank" and comparison.rank_test is not None:
         return comparison.rank_test.test, comparison.rank_test.p_value
     return comparison.test, comparison.p_value
 
@@ -117,8 +125,9 @@ Raw = tuple[str, str, float, tuple[str, ...]]
 
 def _raw_questions(stats: BriefStats) -> list[Raw]:
     questions = []
+    kind = stats.target_kind.kind if stats.target_kind is not None else "continuous"
     for group in stats.groups:
-        test, p = group_p(stats, group.variable)
+        test, p = verdict_test(group, kind)
         if p is not None:
             questions.append((group.key, test, p, (group.variable,)))
     for cross in stats.crosses:

@@ -80,14 +80,17 @@ def order_levels(
     alpha: float,
     overall_clear: bool,
     other_label: str | None = None,
+    *,
+    by_means: bool = False,
 ) -> Ordering:
     """Order the usable levels and find how many share the top and the bottom.
 
     With two levels the overall test is the pairwise test, so they are apart exactly
     when ``overall_clear``. "Other" (a fold of small levels) is never named highest
-    or lowest while two real levels remain.
+    or lowest while two real levels remain. ``by_means`` orders by means and Welch's
+    pairs whatever the comparison leans on (a count target with many zeros).
     """
-    rank = comparison.leans_on == "rank" and comparison.rank_test is not None
+    rank = not by_means and comparison.leans_on == "rank" and comparison.rank_test is not None
     named = [s for s in summaries if s.level != other_label] if other_label else list(summaries)
     if len(named) < 2:
         named = list(summaries)

@@ -24,6 +24,7 @@ from briefgen.stats.groups import GroupAnalysis, GroupResult
 from briefgen.stats.histogram import Histogram, HistogramBins
 from briefgen.stats.interaction import scale_for
 from briefgen.stats.overall import Overall
+from briefgen.stats.proportions import Share
 from briefgen.stats.regression import RegressionFit, fit_lines
 from briefgen.stats.relationships import (
     GroupSlopes,
@@ -33,6 +34,7 @@ from briefgen.stats.relationships import (
     slopes_by_group,
 )
 from briefgen.stats.sample import Sample, draw_sample
+from briefgen.stats.target_kind import TargetKind, target_kind
 from briefgen.stats.trend import Trend, time_trend
 from briefgen.stats.twoway import CrossTable, cross_table
 
@@ -74,6 +76,8 @@ class BriefStats:
     log_fits: tuple[LogFit, ...] | LogSkipped | None
     sample: Sample
     accounting: Accounting
+    target_kind: TargetKind | None = None
+    overall_share: Share | None = None
 
     @property
     def comparisons(self) -> tuple[GroupComparison, ...]:
@@ -166,6 +170,7 @@ def _sample(frame: AnalysisFrame) -> Sample:
 def compute(source: Source, spec: BriefSpec) -> BriefStats:
     """Run the analyses named by ``spec`` on ``source`` in its engine."""
     frame = build_frame(source.table, spec, label=source.label)
+    frame = replace(frame, kind=target_kind(frame, spec.target_kind, spec.scale))
     (overall,) = _run(Overall, spec, frame)
     histogram = next(iter(_run(Histogram, spec, frame)), None)
     groups = _run(GroupAnalysis, spec, frame)
@@ -191,4 +196,6 @@ def compute(source: Source, spec: BriefSpec) -> BriefStats:
         log_fits=log_fits,
         sample=_sample(frame),
         accounting=accounting,
+        target_kind=frame.kind,
+        overall_share=overall.share,
     )

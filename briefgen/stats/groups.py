@@ -7,7 +7,7 @@ cover the same rows, "Other" included.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import ClassVar
 
 from briefgen.config import BriefSpec
@@ -16,6 +16,7 @@ from briefgen.stats.compare import GroupComparison, compare_groups
 from briefgen.stats.core.frame import AnalysisFrame, ShownLevels
 from briefgen.stats.core.summary import BoxStats, Summary, summarise
 from briefgen.stats.core.usage import RowUsage, usage
+from briefgen.stats.proportions import ProportionComparison, Share, compare_shares, level_shares
 
 
 @dataclass(frozen=True, slots=True)
@@ -25,6 +26,11 @@ class GroupResult:
     ``rows_without_level`` counts rows with no level at all; ``shown`` says which
     levels were kept and which folded into "Other". ``comparison`` is None when
     fewer than two levels have two or more values.
+
+    ``shares`` hold, per level in the same order, the share of 1s (binary target)
+    or of 0s (count target) with Wilson intervals, else empty. For a binary target
+    ``share_comparison`` tests equal shares (``comparison`` and ``boxes`` are then
+    empty: a mean test and Tukey boxes do not fit 0/1 values).
     """
 
     key: str
@@ -35,6 +41,8 @@ class GroupResult:
     shown: ShownLevels
     comparison: GroupComparison | None
     usage: RowUsage
+    shares: tuple[Share, ...] = ()
+    share_comparison: ProportionComparison | None = None
 
     @property
     def named_summaries(self) -> tuple[Summary, ...]:
@@ -67,19 +75,35 @@ class GroupAnalysis:
         without = result.summaries.get((None,))
         summaries = tuple(s for key, s in result.summaries.items() if key[0] is not None)
         shown = frame.shown[self.variable]
-        order = level_order(summaries, shown.other_label)
+        binary = frame.binary
+        # A 0/1 target's medians are 0 or 1; its levels read in order of their share of 1s.
+        ranked = tuple(replace(s, median=s.mean) for s in summaries) if binary else summaries
+        order = level_order(ranked, shown.other_label)
         by_level = {s.level: s for s in summaries}
         ordered = tuple(by_level[level] for level in order)
         levels_table = table.filter(table.level.notnull())
-        comparison = compare_groups(
-            levels_table, ordered, self.confidence, variable=self.variable, fold=shown.other_label
-        )
+        kind = frame.kind.kind if frame.kind is not None else "continuous"
+        shares, share_comparison, boxes = (), None, result.boxes
+        if kind in ("binary", "count"):
+            by_share = level_shares(levels_table, 1.0 if kind == "binary" else 0.0, self.confidence)
+            shares = tuple(by_share[s.level] for s in ordered)
+        if kind == "binary":
+            comparison, boxes = None, {}
+            share_comparison = compare_shares(shares, self.confidence, variable=self.variable)
+        else:
+            comparison = compare_groups(
+                levels_table,
+                ordered,
+                self.confidence,
+                variable=self.variable,
+                fold=shown.other_label,
+            )
         used = sum(s.n for s in ordered)
         return GroupResult(
             key=f"group-{self.variable}",
             variable=self.variable,
             summaries=ordered,
-            boxes=tuple(result.boxes[(s.level,)] for s in ordered if (s.level,) in result.boxes),
+            boxes=tuple(boxes[(s.level,)] for s in ordered if (s.level,) in boxes),
             rows_without_level=without.rows if without else 0,
             shown=shown,
             comparison=comparison,
@@ -90,4 +114,6 @@ class GroupAnalysis:
                 f"no value in '{self.variable}'",
                 without.n if without else 0,
             ),
+            shares=shares,
+            share_comparison=share_comparison,
         )

@@ -35,7 +35,8 @@ class HistogramBins:
     ``edges`` has one more entry than ``counts``. ``rule`` is ``freedman_diaconis``,
     ``single`` (one bin: no spread in the middle half or none at all) or ``capped``
     (the rule asked for ``requested_bins`` > MAX_BINS, so MAX_BINS equal bins over
-    the range are used instead). ``width`` is the width of each bin.
+    the range are used instead) or ``whole_numbers`` (a count target: one bin per
+    whole number, centred on it, when at most MAX_BINS span the range). ``width`` is the width of each bin.
     """
 
     key: str
@@ -61,8 +62,14 @@ def bin_edges(n: int, low: float, high: float, q1: float, q3: float, max_bins: i
     return np.linspace(low, high, bins + 1), rule, requested
 
 
-def histogram_bins(table, column: str = "y", max_bins: int = MAX_BINS) -> HistogramBins | None:
-    """Freedman–Diaconis histogram of ``column`` in ``table``; None when it has no value."""
+def histogram_bins(
+    table, column: str = "y", max_bins: int = MAX_BINS, whole_numbers: bool = False
+) -> HistogramBins | None:
+    """Freedman–Diaconis histogram of ``column`` in ``table``; None when it has no value.
+
+    ``whole_numbers`` (a count target) gives one bin per value instead: a count that is
+    mostly zero has IQR 0, where the Freedman–Diaconis rule collapses to one bin.
+    """
     values = table[column]
     first = one_row(
         table,
@@ -77,9 +84,13 @@ def histogram_bins(table, column: str = "y", max_bins: int = MAX_BINS) -> Histog
     n = int(first["n"] or 0)
     if n == 0:
         return None
-    edges, rule, requested = bin_edges(
-        n, first["low"], first["high"], first["q1"], first["q3"], max_bins
-    )
+    if whole_numbers and first["high"] - first["low"] + 1 <= max_bins:
+        edges = np.arange(first["low"] - 0.5, first["high"] + 1.0, 1.0)
+        rule, requested = "whole_numbers", len(edges) - 1
+    else:
+        edges, rule, requested = bin_edges(
+            n, first["low"], first["high"], first["q1"], first["q3"], max_bins
+        )
     inner = {f"at{i}": (values >= float(edge)).sum() for i, edge in enumerate(edges[1:-1], 1)}
     at_or_above = one_row(table, inner)
     cumulative = [n] + [int(at_or_above[f"at{i}"] or 0) for i in range(1, len(edges) - 1)] + [0]
@@ -101,13 +112,17 @@ class Histogram:
     """The target's distribution in Freedman–Diaconis bins, shown in the overall section."""
 
     max_bins: int = MAX_BINS
+    whole_numbers: bool = False
     name: ClassVar[str] = "histogram"
     many: ClassVar[bool] = False
     result: ClassVar[type] = HistogramBins
 
     @classmethod
     def plan(cls, spec: BriefSpec, frame: AnalysisFrame) -> tuple[Histogram, ...]:
-        return (cls(),)
+        # Two bars of 0 and 1 say less than the share with its interval the brief gives.
+        if frame.binary:
+            return ()
+        return (cls(whole_numbers=frame.kind is not None and frame.kind.kind == "count"),)
 
     def __call__(self, frame: AnalysisFrame) -> HistogramBins | None:
-        return histogram_bins(frame.table, "y", self.max_bins)
+        return histogram_bins(frame.table, "y", self.max_bins, self.whole_numbers)

@@ -16,6 +16,7 @@ from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.frame import AnalysisFrame
 from briefgen.stats.core.summary import ALL_ROWS, BoxStats, Summary, summarise_levels
 from briefgen.stats.core.usage import RowUsage
+from briefgen.stats.proportions import Share, share_of
 
 # Squares of values beyond about 1e154 overflow double precision (max ≈ 1.8e308).
 LARGEST_SQUARABLE = 1e150
@@ -23,12 +24,18 @@ LARGEST_SQUARABLE = 1e150
 
 @dataclass(frozen=True, slots=True)
 class OverallResult:
-    """Summary and box of the target over every row with a value."""
+    """Summary and box of the target over every row with a value.
+
+    ``share`` is the share of 1s (binary target) or of 0s (count target) with its
+    Wilson interval, else None; a binary target has no box (every 1 would be an
+    outlier of a box at 0, or every 0 of one at 1).
+    """
 
     key: str
     summary: Summary
     box: BoxStats | None
     usage: RowUsage
+    share: Share | None = None
 
 
 def check_magnitudes(frame: AnalysisFrame) -> None:
@@ -66,9 +73,15 @@ class Overall:
                 "check the target column."
             )
         summary = summaries[0]
+        kind = frame.kind.kind if frame.kind is not None else "continuous"
+        share = None
+        if kind in ("binary", "count"):
+            events = frame.kind.ones if kind == "binary" else frame.kind.zeros
+            share = share_of(ALL_ROWS, events, summary.n, self.confidence)
         return OverallResult(
             key="overall",
             summary=summary,
-            box=boxes[0] if boxes else None,
+            box=boxes[0] if boxes and kind != "binary" else None,
             usage=RowUsage("target", summary.n),
+            share=share,
         )

@@ -14,6 +14,7 @@ two-way cells, slopes by group) sees exactly the levels the brief shows.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import TYPE_CHECKING
 
 import ibis
 import ibis.expr.datatypes as dt
@@ -21,6 +22,9 @@ import ibis.expr.types as ir
 
 from briefgen.config import BriefSpec
 from briefgen.source import category, numeric, time_values
+
+if TYPE_CHECKING:
+    from briefgen.stats.target_kind import TargetKind
 
 OTHER_PREFIX = "Other"
 
@@ -65,6 +69,8 @@ class AnalysisFrame:
     float64), ``g0``… (groups, text, already folded to the shown levels) and, when
     the spec sets a time column, ``t`` (timestamp). ``label`` names the data in
     messages. ``shown`` says, per group variable, which levels were kept.
+    ``kind`` is the target's kind and scale (``stats.target_kind``), set once
+    before the analyses run so each reads the same decision.
     """
 
     table: ir.Table
@@ -74,6 +80,11 @@ class AnalysisFrame:
     time: str | None
     label: str = "data"
     shown: dict[str, ShownLevels] | None = None
+    kind: TargetKind | None = None
+
+    @property
+    def binary(self) -> bool:
+        return self.kind is not None and self.kind.kind == "binary"
 
     def predictor_column(self, name: str) -> str:
         return next(k for k, v in self.predictors.items() if v == name)
