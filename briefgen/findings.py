@@ -457,16 +457,26 @@ def cross_finding(
 def trend_finding(trend: Trend, words: Wording, family: Family) -> Finding | None:
     if trend.change is None or trend.change_ci_low is None or not trend.periods:
         return None
+    if words.kind == "binary":
+        # A 0/1 target's trend is a change in its share of 1s, in percentage points.
+        change, measure = (
+            f"{_points(trend.change)} percentage points",
+            f"the share of {words.lower} = 1",
+        )
+        interval = f"{_points(trend.change_ci_low)} to {_points(trend.change_ci_high)} points"
+    else:
+        change, measure = _signed(trend.change, words), words.lower
+        interval = fmt_interval(
+            trend.change_ci_low, trend.change_ci_high, words.unit_decimals, sign=True
+        )
     text = (
-        f"{span_text(trend)}, the straight-line "
-        f"trend of {words.lower} changed by {_signed(trend.change, words)} across the span "
-        f"({words.level_name} interval {fmt_interval(trend.change_ci_low, trend.change_ci_high, words.unit_decimals, sign=True)})."
-        f"{partial_text(trend)}"
+        f"{span_text(trend)}, the straight-line trend of {measure} changed by {change} across "
+        f"the span ({words.level_name} interval {interval}).{partial_text(trend)}"
     )
     clear = family.passes(trend.key)
     if clear:
         direction = "rose" if trend.change > 0 else "fell"
-        headline = f"{words.label} {direction} over time ({_signed(trend.change, words)})"
+        headline = f"{words.label} {direction} over time ({change})"
         certainty = (
             f"Clear after adjusting for the {family.size} questions this brief tests. "
             "A trend says what happened, not why."
@@ -496,10 +506,13 @@ def _signed(value: float | None, words: Wording) -> str:
     return text if text.startswith("−") or text == "–" else f"+{text}"
 
 
-def _step_phrases(fit: RegressionFit) -> tuple[float, str, str]:
-    """The step of the predictor slopes are stated per: (step, 'unit' or '1,000 units', 'per …')."""
+def _step_phrases(fit: RegressionFit, factor: float = 1.0) -> tuple[float, str, str]:
+    """The step of the predictor slopes are stated per: (step, 'unit' or '1,000 units', 'per …').
+
+    ``factor`` is how the slope is printed (100 for percentage points of a 0/1 target).
+    """
     spread = None if fit.x_min is None or fit.x_max is None else fit.x_max - fit.x_min
-    step = readable_step(fit.slope, spread)
+    step = readable_step(fit.slope * factor, spread)
     if step == 1:
         return step, "unit", "per unit"
     return step, f"{fmt_step(step)} units", f"per {fmt_step(step)}"
@@ -522,20 +535,28 @@ def fit_finding(
     if fit.slope is None or fit.slope_ci_low is None:
         return None
     key = f"fit-{fit.predictor}"
-    step, step_words, per = _step_phrases(fit)
-    slope, low, high = fit.slope * step, fit.slope_ci_low * step, fit.slope_ci_high * step
+    # A 0/1 target's slope is a change in its share of 1s: said in percentage points.
+    points = words.kind == "binary"
+    factor = 100.0 if points else 1.0
+    step, step_words, per = _step_phrases(fit, factor)
+    scale = step * factor
+    slope, low, high = fit.slope * scale, fit.slope_ci_low * scale, fit.slope_ci_high * scale
     d = decimals_for(abs(slope))
+    amount = " percentage points" if points else ""
+    measure = f"in the share of {words.lower} = 1" if points else words.lower
     x_lower = x_label[:1].lower() + x_label[1:]
     direction = "rises" if fit.slope > 0 else "falls"
     text = (
         f"The straight line {direction}: each extra {step_words} of {x_lower} goes with "
-        f"{fmt(abs(slope), d)} {'more' if slope > 0 else 'less'} {words.lower} on average "
+        f"{fmt(abs(slope), d)}{amount} {'more' if slope > 0 else 'less'} {measure} on average "
         f"({words.level_name} interval {fmt_interval(low, high, d)}), "
         f"and {x_lower} accounts for {fmt_percent(fit.r_squared)} of the variation (R², {fmt_count(fit.n)} rows)."
     )
     rho = correlation.spearman_rho if correlation is not None else None
     if rho is not None:
-        text += f" Rank correlation ρ = {rho:.2f} (Pearson r = {correlation.pearson_r:.2f})."
+        text += (
+            f" Rank correlation ρ = {fmt(rho, 2)} (Pearson r = {fmt(correlation.pearson_r, 2)})."
+        )
     if log_fit is not None and log_fit.percent_change_per_unit is not None:
         text += (
             f" In relative terms, each extra unit goes with a change of about "
@@ -566,13 +587,16 @@ def fit_finding(
     }
     verdict = _adjusted_phrase(data["p_value"], p_adjusted, family)
     if found is not None:
-        return _confounded_finding(found, fit, words, x_lower, names, text, data, step, per)
+        return _confounded_finding(found, fit, words, x_lower, names, text, data, scale, per)
     if clear:
         differing = [names.get(g, g) for g in family.slopes_differ(fit.predictor)]
         if differing:
             text += f" The slope is not the same everywhere: it differs by {', '.join(differing)} (F test, adjusted)."
         return Finding(
-            headline=f"{words.label} {direction} with {x_lower} ({_signed_slope(slope, d)} {per})",
+            headline=(
+                f"{words.label} {direction} with {x_lower} "
+                f"({_signed_slope(slope, d)}{' points' if points else ''} {per})"
+            ),
             text=text,
             certainty=(
                 f"The line and the rank correlation agree and both are clear ({verdict}). "
@@ -588,7 +612,7 @@ def fit_finding(
             text=text
             + (
                 f" The straight line {direction} while the rank correlation points the other way "
-                f"(ρ = {rho:.2f}): a few far-out values tilt the line against most of the data."
+                f"(ρ = {fmt(rho, 2)}): a few far-out values tilt the line against most of the data."
             ),
             certainty="Neither direction can be claimed while the two measures disagree.",
             claim="none",

@@ -145,3 +145,18 @@ def test_binary_two_levels_rest_on_the_z_test_and_newcombe_interval(tmp_path):
     assert group["p_value"] == pytest.approx(
         proportions_ztest([a.sum(), b.sum()], [len(a), len(b)])[1]
     )
+
+
+def test_binary_slopes_and_trends_speak_in_percentage_points(tmp_path):
+    # A 0/1 outcome whose share rises by 2 points per unit of x: statsmodels OLS on the
+    # 0/1 values (a linear probability model) is the reference for the slope.
+    import statsmodels.formula.api as smf
+
+    rng = np.random.default_rng(77)
+    x = rng.uniform(0, 10, N)
+    y = (rng.random(N) < 0.2 + 0.02 * x).astype(int)
+    frame = pd.DataFrame({"y": y, "x": x, "g": rng.choice(["a", "b"], N)})
+    payload, _ = _build(tmp_path, frame, "y", "predictors: [x]\n")
+    finding = next(f for f in payload["findings"] if f["key"] == "fit-x")
+    assert finding["estimate"] == pytest.approx(smf.ols("y ~ x", frame).fit().params["x"])
+    assert "percentage points" in finding["text"] and "points per unit" in finding["headline"]
