@@ -17,21 +17,16 @@ from briefgen.figures.relationship import relationship_chart
 from briefgen.figures.shares import share_chart
 from briefgen.figures.theme import Chart
 from briefgen.figures.trend import trend_chart
-from briefgen.findings import (
-    SETTLED,
-    Finding,
-    Wording,
-    cautions,
-    cross_finding,
-    fit_finding,
-    group_finding,
-    kind_note,
-    overall_finding,
-    trend_finding,
-    wording_for,
-)
 from briefgen.numbers import decimals_for, fmt_count, fmt_level
+from briefgen.present.cautions import cautions
 from briefgen.present.family import Family, build_family, family_sentence
+from briefgen.present.finding import SETTLED, Finding
+from briefgen.present.sections.cross import cross_finding
+from briefgen.present.sections.fit import fit_finding
+from briefgen.present.sections.groups import group_finding
+from briefgen.present.sections.overall import kind_note, overall_finding
+from briefgen.present.sections.trend import trend_finding
+from briefgen.present.wording import Wording, wording_for
 from briefgen.stats import BriefStats, CrossTable, RegressionFit, Trend
 from briefgen.tables import (
     Table,

@@ -23,8 +23,8 @@ from briefgen import __version__
 from briefgen.config import BriefSpec
 from briefgen.document import Document
 from briefgen.errors import RenderError
-from briefgen.findings import Finding
 from briefgen.present.family import Family
+from briefgen.present.finding import Finding
 from briefgen.stats import BriefStats
 
 log = logging.getLogger(__name__)

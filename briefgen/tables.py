@@ -8,8 +8,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from briefgen.findings import Wording
 from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_interval, fmt_p, fmt_percent, p_text
+from briefgen.present.wording import Wording
 from briefgen.profile import natural_sorted
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison

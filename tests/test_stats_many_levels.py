@@ -15,8 +15,10 @@ from scipy import stats as scipy_stats
 
 from briefgen.config import parse_spec
 from briefgen.errors import ConfigError
-from briefgen.findings import cautions, group_finding, level_cautions, wording_for
+from briefgen.present.cautions import cautions, level_cautions
 from briefgen.present.family import build_family
+from briefgen.present.sections.groups import group_finding
+from briefgen.present.wording import wording_for
 from briefgen.profile import column_roles
 from briefgen.source import open_source, read_table
 from briefgen.starter import propose

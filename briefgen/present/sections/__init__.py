@@ -1,0 +1,1 @@
+"""One module per analysis: its results ─► the findings a reader sees."""

@@ -1,0 +1,94 @@
+"""The two-way finding: whether one combination stands out beyond its two parts."""
+
+from __future__ import annotations
+
+from briefgen.numbers import (
+    fmt_count,
+)
+from briefgen.present.family import Family
+from briefgen.present.finding import Finding
+from briefgen.present.wording import (
+    Wording,
+)
+from briefgen.stats.twoway import CrossTable
+
+
+def cross_finding(
+    cross: CrossTable, words: Wording, row_name: str, column_name: str, family: Family
+) -> Finding | None:
+    """Whether one combination departs from what its two parts predict added together.
+
+    The highest cell alone would mislead: it is high whenever its row and column are,
+    and it is the largest of many noisy cells. A combination is claimed only when the
+    interaction F test passes in the brief's family (on the log or rank scale for a
+    strongly skewed target) and the cell's own interval, adjusted for the number of
+    cells, excludes zero.
+    """
+    standout = getattr(cross, "standout", None)
+    if standout is None:
+        return None
+    figure = cross.key
+    data = {
+        "key": cross.key,
+        "kind": "cross",
+        "variables": (cross.row_variable, cross.column_variable),
+        "levels": (standout.row, standout.column),
+        "estimate": standout.excess,
+        "ci_low": standout.excess_ci_low,
+        "ci_high": standout.excess_ci_high,
+        "test": f"interaction_f_{cross.interaction.scale}",
+        "p_value": cross.interaction.p_value,
+        "p_adjusted": family.adjusted(cross.key),
+    }
+    pair = f"{standout.row} with {standout.column}"
+    interval = (
+        f"{words.interval(standout.excess_ci_low, standout.excess_ci_high)}, adjusted for the "
+        f"{standout.cells_compared} combinations compared"
+    )
+    excess = words.value(standout.excess)
+    excess = excess if excess.startswith("−") else f"+{excess}"
+    small = sum(
+        1 for c in cross.cells if c.row is not None and c.column is not None and c.too_small
+    )
+    detail = (
+        f"{small} combinations with fewer than {cross.min_cell} rows are marked and not compared."
+        if small
+        else ""
+    )
+    scale = {
+        "log": " (tested on the log scale, as values are strongly skewed)",
+        "rank": " (tested on ranks, as values are strongly skewed)",
+    }.get(cross.interaction.scale, "")
+    if standout.stands_out and family.passes(cross.key):
+        text = (
+            f"{pair[:1].upper() + pair[1:]} averages {words.value(standout.mean)} (n = {fmt_count(standout.n)}), {excess} against "
+            f"the {words.value(standout.expected)} that its {row_name} and its {column_name} predict "
+            f"added together ({words.level_name} interval of the difference {interval})."
+        )
+        return Finding(
+            headline=f"{pair[:1].upper() + pair[1:]} stands out ({excess} beyond its parts)",
+            text=text,
+            certainty=(
+                f"The combination itself matters, beyond each part{scale}; that says where, not why."
+            ),
+            figure=figure,
+            detail=detail,
+            claim="difference",
+            **data,
+        )
+    text = (
+        f"Each combination of {row_name} and {column_name} is close to what its two parts predict added "
+        f"together. The largest departure, {pair}, is {excess} ({interval})."
+    )
+    return Finding(
+        headline=f"No clear combination effect of {row_name} and {column_name}",
+        text=text,
+        certainty=(
+            "No departure is larger than chance would produce across this many combinations"
+            f"{scale}."
+        ),
+        figure=figure,
+        detail=detail,
+        claim="none",
+        **data,
+    )

@@ -1,0 +1,200 @@
+"""The relationship finding: a direction only where line, ranks and groups agree."""
+
+from __future__ import annotations
+
+from briefgen.numbers import (
+    decimals_for,
+    fmt,
+    fmt_count,
+    fmt_interval,
+    fmt_percent,
+    fmt_step,
+    readable_step,
+)
+from briefgen.present.direction import confounding
+from briefgen.present.family import Family
+from briefgen.present.finding import Finding
+from briefgen.present.wording import (
+    Wording,
+    adjusted_phrase,
+)
+from briefgen.stats.correlation import Correlation
+from briefgen.stats.regression import RegressionFit
+from briefgen.stats.relationships import GroupSlopes, LogFit
+
+
+def _step_phrases(fit: RegressionFit, factor: float = 1.0) -> tuple[float, str, str]:
+    """The step of the predictor slopes are stated per: (step, 'unit' or '1,000 units', 'per …').
+
+    ``factor`` is how the slope is printed (100 for percentage points of a 0/1 target).
+    """
+    spread = None if fit.x_min is None or fit.x_max is None else fit.x_max - fit.x_min
+    step = readable_step(fit.slope * factor, spread)
+    if step == 1:
+        return step, "unit", "per unit"
+    return step, f"{fmt_step(step)} units", f"per {fmt_step(step)}"
+
+
+def _signed_slope(value: float, decimals: int) -> str:
+    return f"{'+' if value > 0 else '−'}{fmt(abs(value), decimals)}"
+
+
+def fit_finding(
+    fit: RegressionFit,
+    correlation: Correlation | None,
+    log_fit: LogFit | None,
+    slopes: list[tuple[str, GroupSlopes]],
+    words: Wording,
+    x_label: str,
+    family: Family,
+) -> Finding | None:
+    """Direction of the target with one predictor, only where line, ranks and groups agree."""
+    if fit.slope is None or fit.slope_ci_low is None:
+        return None
+    key = f"fit-{fit.predictor}"
+    # A 0/1 target's slope is a change in its share of 1s: said in percentage points.
+    points = words.kind == "binary"
+    factor = 100.0 if points else 1.0
+    step, step_words, per = _step_phrases(fit, factor)
+    scale = step * factor
+    slope, low, high = fit.slope * scale, fit.slope_ci_low * scale, fit.slope_ci_high * scale
+    d = decimals_for(abs(slope))
+    amount = " percentage points" if points else ""
+    measure = f"in the share of {words.lower} = 1" if points else words.lower
+    x_lower = x_label[:1].lower() + x_label[1:]
+    direction = "rises" if fit.slope > 0 else "falls"
+    text = (
+        f"The straight line {direction}: each extra {step_words} of {x_lower} goes with "
+        f"{fmt(abs(slope), d)}{amount} {'more' if slope > 0 else 'less'} {measure} on average "
+        f"({words.level_name} interval {fmt_interval(low, high, d)}), "
+        f"and {x_lower} accounts for {fmt_percent(fit.r_squared)} of the variation (R², {fmt_count(fit.n)} rows)."
+    )
+    rho = correlation.spearman_rho if correlation is not None else None
+    if rho is not None:
+        text += (
+            f" Rank correlation ρ = {fmt(rho, 2)} (Pearson r = {fmt(correlation.pearson_r, 2)})."
+        )
+    if log_fit is not None and log_fit.percent_change_per_unit is not None:
+        text += (
+            f" In relative terms, each extra unit goes with a change of about "
+            f"{fmt(log_fit.percent_change_per_unit, 1)}% in {words.lower} "
+            f"({fmt_interval(log_fit.percent_ci_low, log_fit.percent_ci_high, 1, suffix='%')}, fit on the log scale)."
+        )
+    question = family.question(key)
+    p_adjusted = family.adjusted(key)
+    clear = family.passes(key)
+    names = {s.group: name for name, s in slopes}
+    found = (
+        confounding(fit, [s for _, s in slopes], family.alpha, family.bonferroni_alpha)
+        if clear
+        else None
+    )
+    data = {
+        "figure": key,
+        "key": key,
+        "kind": "fit",
+        "variables": (fit.predictor,),
+        "estimate": fit.slope,
+        "ci_low": fit.slope_ci_low,
+        "ci_high": fit.slope_ci_high,
+        "test": "ols_slope_and_spearman",
+        # The direction question's p: the larger of the line's and the ranks' (see family).
+        "p_value": question.p_value if question is not None else fit.slope_p_value,
+        "p_adjusted": p_adjusted,
+    }
+    verdict = adjusted_phrase(data["p_value"], p_adjusted, family)
+    if found is not None:
+        return _confounded_finding(found, fit, words, x_lower, names, text, data, scale, per)
+    if clear:
+        differing = [names.get(g, g) for g in family.slopes_differ(fit.predictor)]
+        if differing:
+            text += f" The slope is not the same everywhere: it differs by {', '.join(differing)} (F test, adjusted)."
+        return Finding(
+            headline=(
+                f"{words.label} {direction} with {x_lower} "
+                f"({_signed_slope(slope, d)}{' points' if points else ''} {per})"
+            ),
+            text=text,
+            certainty=(
+                f"The line and the rank correlation agree and both are clear ({verdict}). "
+                "This is an association in these data, not proof of cause."
+            ),
+            claim="rise" if fit.slope > 0 else "fall",
+            **data,
+        )
+    line_clear = fit.slope_p_value is not None and fit.slope_p_value < family.alpha
+    if rho is not None and rho * fit.slope < 0 and (line_clear or _rank_clear(correlation, family)):
+        return Finding(
+            headline=f"No consistent direction between {words.lower} and {x_lower}",
+            text=text
+            + (
+                f" The straight line {direction} while the rank correlation points the other way "
+                f"(ρ = {fmt(rho, 2)}): a few far-out values tilt the line against most of the data."
+            ),
+            certainty="Neither direction can be claimed while the two measures disagree.",
+            claim="none",
+            **data,
+        )
+    return Finding(
+        headline=f"No clear link with {x_lower}",
+        text=text,
+        certainty=f"No clear straight-line or rank relationship ({verdict}).",
+        claim="none",
+        **data,
+    )
+
+
+def _rank_clear(correlation: Correlation, family: Family) -> bool:
+    p = correlation.spearman_p_value
+    return p is not None and p < family.alpha
+
+
+def _confounded_finding(found, fit, words, x_lower, names, text, data, step, per) -> Finding:
+    """The within-group relation, with the group named as the likely confounder."""
+    within = found.slopes
+    group = names.get(found.group, found.group)
+    slope = within.common_slope * step
+    low, high = within.common_ci_low * step, within.common_ci_high * step
+    d = decimals_for(abs(slope))
+    overall = "rises" if fit.slope > 0 else "falls"
+    within_text = (
+        f" Within each level of {group}, the slope is {_signed_slope(slope, d)} {per} "
+        f"({words.level_name} interval {fmt_interval(low, high, d)})."
+    )
+    data = data | {
+        "variables": (fit.predictor, found.group),
+        "estimate": within.common_slope,
+        "ci_low": within.common_ci_low,
+        "ci_high": within.common_ci_high,
+        "test": "ols_common_slope_within_groups",
+        "p_value": within.common_p_value,
+    }
+    if found.kind == "reverses":
+        direction = "rises" if slope > 0 else "falls"
+        return Finding(
+            headline=f"Within each {group}, {words.lower} {direction} with {x_lower} ({_signed_slope(slope, d)} {per})",
+            text=text
+            + within_text
+            + (
+                f" Overall the line {overall} only because the levels of {group} differ in both "
+                f"{x_lower} and {words.lower}: {group} is the likely confounder."
+            ),
+            certainty=(
+                f"The within-group slope is clear at the brief's adjusted level; the overall line "
+                f"mixes levels of {group}. An association in these data, not proof of cause."
+            ),
+            claim="rise" if slope > 0 else "fall",
+            **data,
+        )
+    return Finding(
+        headline=f"Link with {x_lower} is explained by {group}",
+        text=text
+        + within_text
+        + (
+            f" The overall line {overall} mostly because the levels of {group} differ in both "
+            f"{x_lower} and {words.lower}: within a level, no clear link remains."
+        ),
+        certainty=f"{group[:1].upper() + group[1:]} is the likely confounder; read the levels separately.",
+        claim="none",
+        **data,
+    )

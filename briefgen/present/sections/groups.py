@@ -1,0 +1,349 @@
+"""Findings for one group variable: which levels are highest and lowest, and how surely.
+
+The verdict reads the brief's family; the order comes from ``present.order`` (means
+and Welch pairs, or mean ranks and Dunn pairs), or from Holm-adjusted tests on
+shares for a 0/1 target.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+from briefgen.numbers import (
+    fmt_percent,
+    p_text,
+)
+from briefgen.present.family import Family, verdict_test
+from briefgen.present.finding import Finding
+from briefgen.present.order import Ordering, order_levels
+from briefgen.present.wording import (
+    Wording,
+    adjusted_phrase,
+    chance_phrase,
+    listed,
+    points_text,
+    share_text,
+    widened_level,
+)
+from briefgen.stats.compare import GroupComparison
+from briefgen.stats.core.summary import Summary
+from briefgen.stats.groups import GroupResult
+from briefgen.stats.proportions import newcombe_interval
+
+
+def _test_phrase(comparison: GroupComparison) -> str:
+    """Name of the test the brief leans on."""
+    if comparison.leans_on == "rank" and comparison.rank_test is not None:
+        name = "Mann–Whitney" if comparison.rank_test.test == "mann_whitney" else "Kruskal–Wallis"
+        return f"{name} rank test"
+    return "Welch's t-test" if comparison.test == "welch_t" else "Welch's ANOVA"
+
+
+def group_finding(
+    group: GroupResult,
+    comparison: GroupComparison | None,
+    words: Wording,
+    name: str,
+    family: Family,
+) -> Finding | None:
+    """Which levels are highest and lowest, as far as the adjusted tests separate them.
+
+    Welch's tests compare means, so the sentence compares means; rank tests compare
+    where values tend to lie, so the sentence orders levels by mean rank and quotes
+    medians; a sentence never pairs one test's verdict with the other's numbers.
+    """
+    if group.share_comparison is not None:
+        return binary_group_finding(group, words, name, family)
+    usable = [s for s in group.named_summaries if s.n >= 2 and s.mean is not None]
+    # compare_groups returns None exactly when fewer than two levels have n ≥ 2.
+    if len(usable) < 2 or comparison is None:
+        return None
+    by_means = words.kind == "count"
+    test_name = "Welch's t-test" if comparison.test == "welch_t" else "Welch's ANOVA"
+    if not by_means:
+        test_name = _test_phrase(comparison)
+    test, p = verdict_test(group, words.kind)
+    data = {"key": group.key, "kind": "groups", "variables": (group.variable,)}
+    if p is None:
+        return replace(untested_finding(comparison, words, name, group.key), **data)
+    p_adjusted = family.adjusted(group.key)
+    clear = family.passes(group.key)
+    ordering = order_levels(
+        usable, comparison, family.alpha, clear, group.shown.other_label, by_means=by_means
+    )
+    finding = _order_finding(ordering, usable, words, name, clear)
+    if by_means:
+        finding = _with_zero_shares(finding, group, comparison)
+    verdict = f"{test_name}, {adjusted_phrase(p, p_adjusted, family)}"
+    certainty = (
+        f"Differences this large would be unlikely if {name} made no difference ({verdict})."
+        if clear
+        else chance_phrase(name, verdict)
+    )
+    finding = replace(
+        finding,
+        certainty=certainty,
+        figure=group.key,
+        test=test,
+        p_value=p,
+        p_adjusted=p_adjusted,
+        **data,
+    )
+    return _with_disagreement(finding, comparison, family.alpha)
+
+
+def _with_zero_shares(finding: Finding, group: GroupResult, comparison: GroupComparison) -> Finding:
+    """A count target's sentence adds each named level's share of zeros, and why means."""
+    zeros = {s.level: s for s in group.shares}
+    named = [zeros[level] for level in finding.levels[:1] + finding.levels[-1:] if level in zeros]
+    text = finding.text
+    if len(named) == 2 and named[0] is not named[1]:
+        text += (
+            f" Values are 0 in {share_text(named[0].share)} of rows for {named[0].level} and "
+            f"{share_text(named[1].share)} for {named[1].level}."
+        )
+    why = (
+        "Most values are 0, so medians tie and say little; the brief compares means with Welch's "
+        "test, which holds for large groups whatever the skew."
+    )
+    if comparison.rank_test is not None and comparison.rank_test.p_value is not None:
+        why += f" The rank test on typical values gives {p_text(comparison.rank_test.p_value)}."
+    return replace(finding, text=text, detail=why)
+
+
+def _order_finding(
+    ordering: Ordering, usable: list[Summary], words: Wording, name: str, clear: bool
+) -> Finding:
+    """Sentence and headline from an ordering; certainty and test data are added by the caller."""
+    by_level = {s.level: s for s in usable}
+    high, low = by_level[ordering.highest], by_level[ordering.lowest]
+    rank = ordering.measure == "rank"
+    value = (lambda s: words.value(s.median)) if rank else (lambda s: words.value(s.mean))
+    if rank:
+        text = (
+            f"By {name}, values tend to be highest for {high.level} (median {value(high)}) and "
+            f"lowest for {low.level} (median {value(low)}); their means are "
+            f"{words.value(high.mean)} and {words.value(low.mean)}."
+        )
+        if high.median == low.median:
+            text += (
+                " The medians are equal; the rank test compares where all values lie, "
+                "not only the middle one."
+            )
+    else:
+        text = (
+            f"By {name}, {high.level} has the highest mean {words.lower}, {value(high)}, and "
+            f"{low.level} the lowest, {value(low)}: a gap of {words.value(ordering.gap)}"
+        )
+        if clear and ordering.ends_apart and ordering.gap_ci_low is not None:
+            text += (
+                f" ({widened_level(ordering.pair_confidence)} interval "
+                f"{words.interval(ordering.gap_ci_low, ordering.gap_ci_high)}, widened because "
+                f"this pair was picked as the most different of {ordering.pairs})"
+            )
+        if (
+            words.scale == "ratio"
+            and low.mean
+            and low.mean > 0
+            and abs(ordering.gap / low.mean) >= 0.005
+        ):
+            text += f", or {fmt_percent(ordering.gap / low.mean)} more"
+        text += "."
+    estimate = (high.median - low.median) if rank else ordering.gap
+    base = {"text": text, "certainty": "", "levels": (high.level, low.level)}
+    if not clear:
+        return Finding(
+            headline=f"By {name}: no clear difference", claim="none", estimate=estimate, **base
+        )
+    if rank and high.median == low.median:
+        # Equal medians in brackets would contradict "highest"; the means show the gap.
+        value = lambda s: f"mean {words.value(s.mean)}"  # noqa: E731
+    headline, text_more = _order_headline(ordering, by_level, value, name, rank)
+    interval = {}
+    if not rank and ordering.ends_apart:
+        interval = {"ci_low": ordering.gap_ci_low, "ci_high": ordering.gap_ci_high}
+    levels = ordering.top[:1] + ordering.bottom[:1]
+    if not ordering.single_top or not ordering.single_bottom:
+        levels = (*ordering.top, *[lv for lv in ordering.bottom if lv not in ordering.top])
+    return Finding(
+        headline=headline,
+        text=f"{text}{text_more}",
+        certainty="",
+        claim="difference",
+        levels=levels,
+        estimate=estimate,
+        **interval,
+    )
+
+
+def _order_headline(ordering, by_level, value, name, rank) -> tuple[str, str]:
+    """Headline naming only the order the adjusted pairwise tests support, and a note."""
+    high, low = by_level[ordering.highest], by_level[ordering.lowest]
+    word = "typically highest" if rank else "highest"
+    if ordering.flat:
+        return (
+            f"By {name}: levels differ in spread, not in their {'medians' if rank else 'means'}",
+            "",
+        )
+    if ordering.single_top and ordering.single_bottom:
+        return (
+            f"By {name}: {high.level} {word} ({value(high)}), {low.level} lowest ({value(low)})",
+            "",
+        )
+    if ordering.single_top:
+        note = f" {listed(ordering.bottom)} are not clearly apart from each other at the bottom."
+        return f"By {name}: {high.level} {word} ({value(high)})", note
+    if ordering.single_bottom:
+        note = f" {listed(ordering.top)} are not clearly apart from each other at the top."
+        return f"By {name}: {low.level} lowest ({value(low)})", note
+    note = (
+        f" No single level is clearly apart from its neighbours: {listed(ordering.top)} are not "
+        f"told apart at the top, {listed(ordering.bottom)} at the bottom."
+    )
+    if ordering.ends_apart:
+        return (
+            f"By {name}: {high.level} above {low.level} ({value(high)} against {value(low)})",
+            note,
+        )
+    return f"By {name}: levels differ, but no single pair is clearly apart", note
+
+
+def _with_disagreement(finding: Finding, comparison: GroupComparison, alpha: float) -> Finding:
+    """Say so when the test on means and the test on ranks reach different verdicts."""
+    ranks = comparison.rank_test
+    if ranks is None or ranks.p_value is None or comparison.p_value is None:
+        return finding
+    if (comparison.p_value < alpha) == (ranks.p_value < alpha):
+        return finding
+    other = (
+        f"the test on means (Welch) gives {p_text(comparison.p_value)}"
+        if comparison.leans_on == "rank"
+        else f"the rank test on typical values gives {p_text(ranks.p_value)}"
+    )
+    note = f"Means and typical values tell different stories here: {other}."
+    detail = f"{finding.detail} {note}".strip()
+    return replace(finding, detail=detail)
+
+
+def untested_finding(
+    comparison: GroupComparison, words: Wording, name: str, figure: str
+) -> Finding:
+    reason = getattr(comparison, "undefined_reason", None) or "too few levels vary"
+    return Finding(
+        headline=f"By {name}: difference not tested",
+        text=f"The levels of {name} could not be compared with a test: {reason.rstrip('.')}.",
+        certainty="Read the table of levels instead; no statement of certainty is possible.",
+        figure=figure,
+        claim="not_tested",
+    )
+
+
+def _share_apart(group: GroupResult, a: str, b: str, alpha: float) -> bool:
+    """Whether the Holm-adjusted pairwise test on shares separates two levels."""
+    comparison = group.share_comparison
+    if len(comparison.levels) == 2:
+        return True  # the overall test is the pairwise test; the caller checked it
+    for pair in comparison.pairwise:
+        if {pair.level_a, pair.level_b} == {a, b}:
+            return pair.p_holm is not None and pair.p_holm < alpha
+    return False
+
+
+def binary_group_finding(
+    group: GroupResult, words: Wording, name: str, family: Family
+) -> Finding | None:
+    """Highest and lowest share of 1s, as far as adjusted pairwise tests separate them."""
+    comparison = group.share_comparison
+    fold = group.shown.other_label
+    shares = [s for s in group.shares if s.n >= 1 and s.share is not None]
+    if len([s for s in shares if s.level != fold]) >= 2:
+        shares = [s for s in shares if s.level != fold]
+    data = {
+        "figure": group.key,
+        "key": group.key,
+        "kind": "groups",
+        "variables": (group.variable,),
+        "test": comparison.test,
+    }
+    if comparison.p_value is None or len(shares) < 2:
+        return Finding(
+            headline=f"By {name}: difference not tested",
+            text=f"The levels of {name} could not be compared: {comparison.undefined_reason}.",
+            certainty="Read the table of levels instead; no statement of certainty is possible.",
+            claim="not_tested",
+            **data,
+        )
+    ordered = sorted(shares, key=lambda s: (-s.share, str(s.level)))
+    high, low = ordered[0], ordered[-1]
+    pairs = max(1, len(comparison.levels) * (len(comparison.levels) - 1) // 2)
+    # The pair is picked as the most different, so its interval is widened to 1 − α/m.
+    pair_confidence = 1 - family.alpha / pairs
+    gap, gap_low, gap_high = newcombe_interval(
+        high.events, high.n, low.events, low.n, pair_confidence
+    )
+    test = "two-proportion z test" if comparison.test == "two_proportion_z" else "chi-square test"
+    p, p_adjusted = comparison.p_value, family.adjusted(group.key)
+    clear = family.passes(group.key)
+    verdict = f"{test} on shares, {adjusted_phrase(p, p_adjusted, family)}"
+    text = (
+        f"By {name}, {share_text(high.share)} of rows are 1 for {high.level} ({words.level_name} "
+        f"interval {share_text(high.ci_low)} to {share_text(high.ci_high)}) and {share_text(low.share)} for "
+        f"{low.level} ({share_text(low.ci_low)} to {share_text(low.ci_high)}): a gap of "
+        f"{points_text(gap)} percentage points"
+    )
+    top = [
+        s.level
+        for s in ordered
+        if s is high
+        or not _share_apart(group, high.level, s.level, family.alpha)
+        or s.share == high.share
+    ]
+    bottom = [
+        s.level
+        for s in reversed(ordered)
+        if s is low
+        or not _share_apart(group, low.level, s.level, family.alpha)
+        or s.share == low.share
+    ]
+    single_top, single_bottom = top == [high.level], bottom == [low.level]
+    if clear and single_top and single_bottom:
+        text += (
+            f" ({widened_level(pair_confidence)} interval {points_text(gap_low)} to {points_text(gap_high)} "
+            "points, Newcombe's hybrid score method"
+            f"{', widened for picking this pair of ' + str(pairs) if pairs > 1 else ''})"
+        )
+    text += "."
+    if not clear:
+        headline = f"By {name}: no clear difference"
+        certainty = chance_phrase(name, verdict)
+    else:
+        certainty = (
+            f"Differences this large would be unlikely if {name} made no difference ({verdict})."
+        )
+        if single_top and single_bottom:
+            headline = (
+                f"By {name}: {high.level} highest ({share_text(high.share)}), "
+                f"{low.level} lowest ({share_text(low.share)}), {points_text(gap)} percentage points"
+            )
+        elif single_top:
+            headline = f"By {name}: {high.level} highest ({share_text(high.share)})"
+            text += f" {listed(tuple(bottom))} are not clearly apart from each other at the bottom."
+        elif single_bottom:
+            headline = f"By {name}: {low.level} lowest ({share_text(low.share)})"
+            text += f" {listed(tuple(top))} are not clearly apart from each other at the top."
+        else:
+            headline = f"By {name}: shares differ, but no single level is clearly apart"
+    interval = clear and single_top and single_bottom
+    return Finding(
+        headline=headline,
+        text=text,
+        certainty=certainty,
+        claim="difference" if clear else "none",
+        levels=(high.level, low.level),
+        estimate=gap,
+        ci_low=gap_low if interval else None,
+        ci_high=gap_high if interval else None,
+        p_value=p,
+        p_adjusted=p_adjusted,
+        **data,
+    )

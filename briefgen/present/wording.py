@@ -1,0 +1,101 @@
+"""How the brief names the target and writes its numbers, verdicts and doubts: one place.
+
+Every section words its findings through these helpers, so a p-value, an adjusted
+p-value, a share or a widened interval level reads the same on every page.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from briefgen.numbers import (
+    decimals_for,
+    fmt,
+    fmt_interval,
+    fmt_level,
+    fmt_p,
+    fmt_percent,
+    p_text,
+)
+from briefgen.present.family import Family
+from briefgen.stats import BriefStats
+
+
+@dataclass(frozen=True, slots=True)
+class Wording:
+    """How the brief names the target and writes its numbers."""
+
+    label: str
+    unit_decimals: int
+    confidence: float
+    kind: str = "continuous"  # stats.target_kind.kind: continuous, binary or count
+    scale: str = "ratio"  # percentages of the target only on a ratio scale
+
+    def value(self, number: float | None) -> str:
+        return fmt(number, self.unit_decimals)
+
+    def interval(self, low: float | None, high: float | None) -> str:
+        return fmt_interval(low, high, self.unit_decimals)
+
+    @property
+    def level_name(self) -> str:
+        return fmt_level(self.confidence)
+
+    @property
+    def lower(self) -> str:
+        return self.label[:1].lower() + self.label[1:]
+
+
+def wording_for(stats: BriefStats, label: str) -> Wording:
+    kind = stats.target_kind
+    return Wording(
+        label=label,
+        unit_decimals=decimals_for(stats.overall.sd),
+        confidence=stats.confidence,
+        kind=kind.kind if kind is not None else "continuous",
+        scale=kind.scale if kind is not None else "ratio",
+    )
+
+
+def signed(value: float | None, words: Wording) -> str:
+    text = words.value(value)
+    return text if text.startswith("−") or text == "–" else f"+{text}"
+
+
+def share_text(value: float | None) -> str:
+    """A share (0–1) as a percent with one decimal: shares of rows read in tenths of a percent."""
+    return fmt_percent(value, 1)
+
+
+def points_text(value: float | None) -> str:
+    """A difference of shares in percentage points, signed."""
+    text = fmt(None if value is None else 100 * value, 1)
+    return text if text.startswith("−") or text == "–" else f"+{text}"
+
+
+def widened_level(confidence: float) -> str:
+    """A widened interval level to one decimal (98.3%), where fmt_level would print 98.33333333%."""
+    text = fmt_level(confidence)
+    return text if len(text) <= 6 else f"{fmt(100 * confidence, 1)}%"
+
+
+def listed(levels: tuple[str, ...]) -> str:
+    names = [str(level) for level in levels]
+    return names[0] if len(names) == 1 else ", ".join(names[:-1]) + " and " + names[-1]
+
+
+def adjusted_phrase(p: float, p_adjusted: float | None, family: Family) -> str:
+    """'p = 0.004, 0.03 after adjusting for the 9 questions tested' (or just the p)."""
+    if p_adjusted is None or family.size <= 1:
+        return p_text(p)
+    return (
+        f"{p_text(p)}, {fmt_p(p_adjusted)} after adjusting for the {family.size} questions "
+        "this brief tests"
+    )
+
+
+def chance_phrase(name: str, verdict: str) -> str:
+    return (
+        f"Gaps this size could easily arise by chance ({verdict}): the data do not show "
+        f"that {name} matters, which is not the same as showing that it does not."
+    )
