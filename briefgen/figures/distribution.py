@@ -150,7 +150,7 @@ def _outlier_note(boxes: list[BoxStats], beyond_edge: int) -> str:
     shown = sum(len(b.outliers) for b in boxes)
     total_out = sum(b.outlier_count for b in boxes)
     note = (
-        f"{fmt_count(total_out)} values lie beyond the whiskers of their own level's box (1.5 × IQR, Tukey)"
+        f"{fmt_count(total_out)} {'value lies' if total_out == 1 else 'values lie'} beyond the whiskers of their own level's box (1.5 × IQR, Tukey)"
         + (
             f"; the {fmt_count(shown)} farthest are drawn as circles"
             if shown < total_out

@@ -134,7 +134,12 @@ def _by_group_chart(
     caption = (
         f"{y_label} against {x_label.lower()}, points and lines by {group_label} (colour and "
         f"marker). Solid lines: least-squares fit within each level; dashed: one line through all "
-        f"rows, which mixes the levels. Points: a seeded sample of at most {fmt_count(sample.size)} rows."
+        f"rows, which mixes the levels. Points: "
+        + (
+            f"all {fmt_count(sample.size)} rows."
+            if sample.size >= sample.rows_available
+            else f"a seeded random sample of {fmt_count(sample.size)} of the {fmt_count(sample.rows_available)} rows."
+        )
     )
     alt = (
         f"Scatter plot of {y_label.lower()} against {x_label.lower()} coloured by {group_label}, "

@@ -43,7 +43,18 @@ class Wording:
 
     @property
     def lower(self) -> str:
-        return self.label[:1].lower() + self.label[1:]
+        return in_sentence(self.label)
+
+
+def in_sentence(label: str) -> str:
+    """A label as it reads inside a sentence: first letter lower-cased unless it starts an acronym.
+
+    "Body mass" ─► "body mass", but "LOWINC" and "GDP per head" stay as written.
+    """
+    first = label.split(" ", 1)[0]
+    if len(first) > 1 and first.isupper():
+        return label
+    return label[:1].lower() + label[1:]
 
 
 def wording_for(stats: BriefStats, label: str) -> Wording:

@@ -17,6 +17,7 @@ from briefgen.present.finding import Finding
 from briefgen.present.wording import (
     Wording,
     adjusted_phrase,
+    in_sentence,
 )
 from briefgen.stats.correlation import Correlation
 from briefgen.stats.regression import RegressionFit
@@ -61,7 +62,7 @@ def fit_finding(
     d = decimals_for(abs(slope))
     amount = " percentage points" if points else ""
     measure = f"in the share of {words.lower} = 1" if points else words.lower
-    x_lower = x_label[:1].lower() + x_label[1:]
+    x_lower = in_sentence(x_label)
     direction = "rises" if fit.slope > 0 else "falls"
     text = (
         f"The straight line {direction}: each extra {step_words} of {x_lower} goes with "
@@ -129,7 +130,8 @@ def fit_finding(
             text=text
             + (
                 f" The straight line {direction} while the rank correlation points the other way "
-                f"(ρ = {fmt(rho, 2)}): a few far-out values tilt the line against most of the data."
+                f"(ρ = {fmt(rho, 2)}): most values move one way while the largest move the other, "
+                "so no single direction describes the data."
             ),
             certainty="Neither direction can be claimed while the two measures disagree.",
             claim="none",

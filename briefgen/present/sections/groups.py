@@ -119,6 +119,8 @@ def _order_finding(
     high, low = by_level[ordering.highest], by_level[ordering.lowest]
     rank = ordering.measure == "rank"
     value = (lambda s: words.value(s.median)) if rank else (lambda s: words.value(s.mean))
+    # Headlines say which measure their numbers are: medians on the rank path.
+    headline_value = (lambda s: f"median {words.value(s.median)}") if rank else value
     if rank:
         text = (
             f"By {name}, values tend to be highest for {high.level} (median {value(high)}) and "
@@ -138,8 +140,13 @@ def _order_finding(
         if clear and ordering.ends_apart and ordering.gap_ci_low is not None:
             text += (
                 f" ({widened_level(ordering.pair_confidence)} interval "
-                f"{words.interval(ordering.gap_ci_low, ordering.gap_ci_high)}, widened because "
-                f"this pair was picked as the most different of {ordering.pairs})"
+                f"{words.interval(ordering.gap_ci_low, ordering.gap_ci_high)}"
+                + (
+                    f", widened because this pair was picked as the most different of {ordering.pairs}"
+                    if ordering.pairs > 1
+                    else ""
+                )
+                + ")"
             )
         if (
             words.scale == "ratio"
@@ -157,8 +164,8 @@ def _order_finding(
         )
     if rank and high.median == low.median:
         # Equal medians in brackets would contradict "highest"; the means show the gap.
-        value = lambda s: f"mean {words.value(s.mean)}"  # noqa: E731
-    headline, text_more = _order_headline(ordering, by_level, value, name, rank)
+        headline_value = lambda s: f"mean {words.value(s.mean)}"  # noqa: E731
+    headline, text_more = _order_headline(ordering, by_level, headline_value, name, rank)
     interval = {}
     if not rank and ordering.ends_apart:
         interval = {"ci_low": ordering.gap_ci_low, "ci_high": ordering.gap_ci_high}

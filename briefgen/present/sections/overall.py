@@ -25,9 +25,12 @@ def overall_finding(stats: BriefStats, words: Wording, figure: str | None = None
     if o.mean is not None and o.median is not None and o.sd and (o.mean - o.median) > 0.2 * o.sd:
         text += " The mean sits above the median because a minority of long values pull it up."
     return Finding(
-        headline=f"Typical {words.lower}: {words.value(o.median)}",
+        headline=f"Typical {words.lower}: {words.value(o.median)} (median)",
         text=text,
-        certainty=f"Interval from Student's t at {words.level_name} confidence.",
+        certainty=(
+            f"Half the values lie either side of it; the mean is {words.value(o.mean)} "
+            f"({words.level_name} interval {words.interval(o.ci_low, o.ci_high)}, Student's t)."
+        ),
         figure=figure,
         key="overall",
         kind="overall",
@@ -46,10 +49,10 @@ def kind_overall_finding(stats: BriefStats, words: Wording, figure: str | None) 
     )
     if words.kind == "binary":
         return Finding(
-            headline=f"{words.label}: {share_text(share.share)} of rows are 1 (yes)",
+            headline=f"{words.label}: {share_text(share.share)} of rows are 1",
             text=(
                 f"Of {fmt_count(share.n)} rows with a value, {fmt_count(share.events)} "
-                f"({share_text(share.share)}) have {words.lower} equal to 1 (yes) ({wilson})."
+                f"({share_text(share.share)}) have {words.lower} equal to 1 ({wilson})."
             ),
             certainty=f"Interval from Wilson's score method at {words.level_name} confidence.",
             figure=figure,
