@@ -146,7 +146,11 @@ def generate(task: Task) -> pd.DataFrame:
 
 
 def config_for(task: Task, data_path: Path, out_dir: Path) -> dict:
-    """A config naming every group, two cross pairs, both predictors and the date."""
+    """A config naming every group, two cross pairs, both predictors and the date.
+
+    The pairs cross g2 with the others: g4 × g8 has 32 cells, about 6 rows each at
+    n = 200, under `min_cell`, so its standout test would not run there.
+    """
     return {
         "title": f"Null simulation {task.shape} n={task.n} seed={task.seed}",
         "data": {"path": str(data_path)},
@@ -154,7 +158,7 @@ def config_for(task: Task, data_path: Path, out_dir: Path) -> dict:
         "groups": list(GROUP_LEVELS),
         "predictors": list(PREDICTORS),
         "time": "day",
-        "cross": [["g2", "g4"], ["g4", "g8"]],
+        "cross": [["g2", "g4"], ["g2", "g8"]],
         # The log-scale fits run where the target is positive and skewed, as a user would ask.
         "log_target": task.shape == "lognormal",
         "output": {"dir": str(out_dir), "formats": ["json"]},
