@@ -109,6 +109,11 @@ class Outcome:
     def claims_effect(self) -> bool:
         return bool(self.claimed)
 
+    @property
+    def claims_in_words(self) -> bool:
+        """A claimed effect, or the slope-differs sentence, which claims one without a claim field."""
+        return self.claims_effect or self.slope_sentence
+
     def detected(self, key: str, claim: str) -> bool:
         return any(k == key and c == claim for k, _, c in self.findings)
 
@@ -256,13 +261,18 @@ def _share(k: int, n: int) -> str:
 def null_table(outcomes: Sequence[Outcome]) -> str:
     """Shape × n ─► briefs, share claiming any effect with its Wilson interval, what fired."""
     lines = [
-        f"{'shape':<10}{'n':>7}{'briefs':>7}  {'any claim [95% Wilson]':<26}fired (briefs claiming, by kind:key)",
-        "-" * 100,
+        f"{'shape':<10}{'n':>7}{'briefs':>7}  {'any claim [95% Wilson]':<26}"
+        f"{'or slope sentence':<26}fired (briefs claiming, by kind:key)",
+        "-" * 150,
     ]
     for (shape, n), cell in _cells(outcomes).items():
         k = sum(o.claims_effect for o in cell)
+        words = sum(o.claims_in_words for o in cell)
         kinds = ", ".join(f"{name} {count}" for name, count in sorted(fired(cell).items()))
-        lines.append(f"{shape:<10}{n:>7,}{len(cell):>7}  {_share(k, len(cell)):<26}{kinds or '-'}")
+        lines.append(
+            f"{shape:<10}{n:>7,}{len(cell):>7}  {_share(k, len(cell)):<26}"
+            f"{_share(words, len(cell)):<26}{kinds or '-'}"
+        )
     return "\n".join(lines)
 
 
@@ -295,6 +305,33 @@ def power_table(outcomes: Sequence[Outcome]) -> str:
     return "\n".join(lines)
 
 
+def load(path: Path) -> list[Outcome]:
+    """Outcomes saved by ``--json``, to print the tables again without building."""
+    outcomes = []
+    for row in json.loads(path.read_text(encoding="utf-8")):
+        task = row["task"]
+        effects = Effects(**task.pop("effects"))
+        findings = tuple(tuple(f) for f in row["findings"])
+        outcomes.append(
+            Outcome(Task(**task, effects=effects), findings, row["slope_sentence"], row["seconds"])
+        )
+    return outcomes
+
+
+def print_tables(outcomes: Sequence[Outcome]) -> None:
+    null = [o for o in outcomes if o.task.effects == NULL]
+    power = [o for o in outcomes if o.task.effects == MODEST]
+    print("False claims on pure noise (share of briefs claiming any effect)")
+    print(null_table(null))
+    if power:
+        print()
+        print(
+            f"Power: group g4 level B +{MODEST.group_shift} sd, x1 slope {MODEST.slope} sd/sd "
+            f"(r ≈ 0.15), trend +{MODEST.trend} sd over {SPAN_DAYS} days"
+        )
+        print(power_table(power))
+
+
 def _parse_seeds(text: str | None, sizes: Sequence[int]) -> dict[int, int]:
     """``40`` for every size, or ``200:40,2000:40,20000:20``; default DEFAULT_SEEDS."""
     if text is None:
@@ -313,7 +350,11 @@ def main(argv: Sequence[str] | None = None) -> int:
     parser.add_argument("--workers", type=int, default=2)
     parser.add_argument("--no-power", action="store_true", help="run the null briefs only")
     parser.add_argument("--json", type=Path, help="write every brief's outcome here")
+    parser.add_argument("--from-json", type=Path, help="print the tables of a saved run")
     args = parser.parse_args(argv)
+    if args.from_json:
+        print_tables(load(args.from_json))
+        return 0
     sizes = [int(s) for s in args.sizes.split(",")]
     shapes = [s for s in args.shapes.split(",") if s]
     unknown = set(shapes) - set(SHAPES)
@@ -336,17 +377,7 @@ def main(argv: Sequence[str] | None = None) -> int:
         )
 
     outcomes = simulate(tasks, args.workers, progress)
-    null = [o for o in outcomes if o.task.effects == NULL]
-    power = [o for o in outcomes if o.task.effects == MODEST]
-    print("False claims on pure noise (share of briefs claiming any effect)")
-    print(null_table(null))
-    if power:
-        print()
-        print(
-            f"Power: group g4 level B +{MODEST.group_shift} sd, x1 slope {MODEST.slope} sd/sd "
-            f"(r ≈ 0.15), trend +{MODEST.trend} sd over {SPAN_DAYS} days"
-        )
-        print(power_table(power))
+    print_tables(outcomes)
     print(f"\n{len(outcomes)} briefs in {time.perf_counter() - started:.0f} s", file=sys.stderr)
     if args.json:
         rows = [asdict(o) | {"claims_effect": o.claims_effect} for o in outcomes]

@@ -7,6 +7,7 @@ at most 5% of pure-noise briefs claiming any effect.
 
 from __future__ import annotations
 
+import dataclasses
 import json
 import math
 import sys
@@ -97,6 +98,15 @@ def test_claims_beside_planted_effects_count_as_elsewhere():
     assert json.dumps(null_claims.fired([extra, untested])) == (
         '{"groups:group-g8": 1, "text:slope-differs": 1}'
     )
+    assert untested.claims_in_words and not planted_only.slope_sentence
+
+
+def test_saved_outcomes_load_back(tmp_path):
+    task = Task("lognormal", 2_000, 7, STRONG)
+    saved = [null_claims.Outcome(task, (("trend", "trend", "rise"),), True, 1.5)]
+    path = tmp_path / "run.json"
+    path.write_text(json.dumps([dataclasses.asdict(o) for o in saved]))
+    assert null_claims.load(path) == saved
 
 
 # 100 briefs per shape: the share's binomial standard error at 5% is sqrt(.05·.95/100) = 2.2%.
