@@ -147,7 +147,14 @@ def _group_sections(
         )
         if group.share_comparison is not None:
             chart = share_chart(group, stats.overall_share, label, confidence, name)
-        finding = group_finding(group, comparison, words, name, family)
+        finding = group_finding(
+            group,
+            comparison,
+            words,
+            name,
+            family,
+            _adjusted_for_others(stats, spec, group.variable),
+        )
         sections.append(
             Section(
                 f"group-{group.variable}",
@@ -163,6 +170,20 @@ def _group_sections(
         elif group.share_comparison is not None:
             pairwise.append(share_pairs_table(group.share_comparison, words, name))
     return sections, pairwise
+
+
+def _adjusted_for_others(stats: BriefStats, spec: BriefSpec, variable: str) -> list[tuple]:
+    """(other column, its name, test of ``variable`` given it) for each two-way table with it."""
+    found = []
+    for cross in stats.crosses:
+        if cross.row_variable == variable:
+            other, test = cross.column_variable, cross.interaction.row_given_column
+        elif cross.column_variable == variable:
+            other, test = cross.row_variable, cross.interaction.column_given_row
+        else:
+            continue
+        found.append((other, name_for(spec, other), test))
+    return found
 
 
 def _cross_section(cross: CrossTable, spec: BriefSpec, words: Wording, family: Family) -> Section:

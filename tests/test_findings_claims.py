@@ -181,3 +181,24 @@ def test_verdicts_follow_the_configured_confidence(tmp_path, confidence, claim):
     finding = findings_by_key(doc)["group-team"]
     assert finding.claim == claim
     assert finding.p_value == pytest.approx(p, rel=1e-9)
+
+
+def test_differences_another_group_explains_are_not_claimed(tmp_path):
+    # Breed sets the weight; farms differ only in their mix of breeds (like islands and
+    # species). statsmodels' type II ANOVA is the reference for "farm given breed".
+    from statsmodels.stats.anova import anova_lm
+
+    rng = np.random.default_rng(31)
+    rows = []
+    for farm, mix in {"hill": (0.8, 0.2), "vale": (0.5, 0.5), "moor": (0.2, 0.8)}.items():
+        for breed in rng.choice(["heavy", "light"], 200, p=mix):
+            rows.append((farm, breed, {"heavy": 60.0, "light": 40.0}[breed] + rng.normal(0, 4)))
+    frame = pd.DataFrame(rows, columns=["farm", "breed", "weight"])
+    stats, doc = brief_for(frame, tmp_path, target="weight", groups=["farm", "breed"])
+    given = stats.crosses[0].interaction.row_given_column
+    reference = anova_lm(smf.ols("weight ~ C(farm) + C(breed)", frame).fit(), typ=2)
+    assert given.p_value == pytest.approx(reference.loc["C(farm)", "PR(>F)"], rel=1e-6)
+    found = findings_by_key(doc)
+    assert found["group-farm"].claim == "none"
+    assert found["group-farm"].headline == "By farm: differences explained by breed"
+    assert found["group-breed"].claim == "difference"

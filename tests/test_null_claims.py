@@ -114,7 +114,6 @@ SLOW_BRIEFS = 100
 
 
 @pytest.mark.slow
-@pytest.mark.xfail(strict=False, reason="until issue 7 family adjustment lands")
 @pytest.mark.parametrize("shape", null_claims.SHAPES)
 def test_pure_noise_briefs_rarely_claim_an_effect(shape):
     # DESIGN.md: on pure-noise data at most 5% of briefs claim anything. Allow two

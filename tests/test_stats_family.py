@@ -139,3 +139,31 @@ def test_step_names():
     assert fmt_step(1.0) == "unit"
     assert fmt_step(1000.0) == "1,000"
     assert fmt_step(0.1) == "0.1"
+
+
+def test_each_variable_given_the_other_matches_statsmodels_type_2(engine_table):
+    # statsmodels anova_lm(typ=2) on the additive model: each factor given the other.
+    frame = _unbalanced_two_way(seed=9, skewed=False)
+    table = anova_lm(smf.ols("y ~ C(a) + C(b)", frame).fit(), typ=2)
+    result = interaction_test(engine_table(frame), "a", "b")
+    for adjusted, factor in ((result.row_given_column, "C(a)"), (result.column_given_row, "C(b)")):
+        assert adjusted.f_statistic == pytest.approx(table.loc[factor, "F"], rel=1e-9)
+        assert adjusted.p_value == pytest.approx(table.loc[factor, "PR(>F)"], rel=1e-7)
+        assert adjusted.df_effect == table.loc[factor, "df"]
+
+
+def test_a_confounded_design_still_tests_each_variable_given_the_other(engine_table):
+    # Like islands and species: level q of b occurs only with level y of a, so the
+    # interaction has no degree of freedom, yet a given b is estimable within b = p.
+    rng = np.random.default_rng(3)
+    rows = [("x", "p", 40), ("y", "p", 40), ("y", "q", 60)]
+    frame = pd.DataFrame(
+        [(a, b, {"p": 1.0, "q": 5.0}[b] + rng.normal()) for a, b, n in rows for _ in range(n)],
+        columns=["a", "b", "y"],
+    )
+    result = interaction_test(engine_table(frame), "a", "b")
+    assert result.p_value is None
+    table = anova_lm(smf.ols("y ~ C(a) + C(b)", frame).fit(), typ=2)
+    assert result.row_given_column.f_statistic == pytest.approx(table.loc["C(a)", "F"], rel=1e-9)
+    # Most of a's raw difference is b's: little of it is kept once b is allowed for.
+    assert result.row_given_column.kept < 0.1

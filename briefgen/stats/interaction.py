@@ -16,7 +16,7 @@ The scale is chosen by the caller and recorded in the result.
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import ibis
 import ibis.expr.types as ir
@@ -31,11 +31,35 @@ SCALES = ("mean", "log", "rank")
 
 
 @dataclass(frozen=True, slots=True)
+class AdjustedTest:
+    """Whether one group variable still matters once the other is allowed for.
+
+    The F test of ``y ~ other + this`` against ``y ~ other`` (type II sums of squares,
+    on the interaction test's scale), over the additive model's residual. ``kept`` is
+    its sum of squares over the variable's own (unadjusted) sum of squares: the share
+    of its differences the other variable does not explain. Fields are None when the
+    other variable leaves no degree of freedom for it.
+    """
+
+    f_statistic: float | None
+    df_effect: int | None
+    df_residual: int | None
+    p_value: float | None
+    kept: float | None
+
+
+_UNDEFINED = AdjustedTest(None, None, None, None, None)
+
+
+@dataclass(frozen=True, slots=True)
 class InteractionTest:
     """F test of the row × column interaction on ``scale`` ("mean", "log" or "rank").
 
-    Fields are None when the design leaves no degree of freedom for the interaction
-    (for instance one level of either variable) or no spread within cells.
+    Interaction fields are None when the design leaves no degree of freedom for the
+    interaction (for instance one level of either variable, or levels that occur in
+    one combination only) or no spread within cells. ``row_given_column`` and
+    ``column_given_row`` test each variable once the other is allowed for, which
+    tells a real difference from one the other variable explains (confounding).
     """
 
     scale: str
@@ -44,6 +68,8 @@ class InteractionTest:
     df_interaction: int | None
     df_within: int | None
     p_value: float | None
+    row_given_column: AdjustedTest = _UNDEFINED
+    column_given_row: AdjustedTest = _UNDEFINED
 
 
 def _scaled(table: ir.Table, scale: str) -> ir.Table:
@@ -85,16 +111,59 @@ def interaction_test(
     parameters = len(row_labels) + len(column_labels) - blocks(row_of, column_of)
     df_interaction = len(cells) - parameters
     df_within = int(weights.sum()) - len(cells)
-    fitted = additive_fit(row_of, column_of, means, weights)
-    if fitted is None or df_interaction < 1 or df_within < 1:
-        return empty
-    ss_interaction = float(np.sum(weights * (means - fitted) ** 2))
     ss_within = sum((s.n - 1) * s.sd**2 for s in cells if s.n >= 2 and s.sd is not None)
-    if ss_within <= 0:
-        return empty
+    fitted = additive_fit(row_of, column_of, means, weights)
+    # No interaction df: the additive model fits every cell mean exactly.
+    fitted = means if fitted is None else fitted
+    sse_additive = ss_within + float(np.sum(weights * (means - fitted) ** 2))
+    adjusted = {
+        "row_given_column": _given(
+            row_of, column_of, means, weights, ss_within, sse_additive, parameters
+        ),
+        "column_given_row": _given(
+            column_of, row_of, means, weights, ss_within, sse_additive, parameters
+        ),
+    }
+    if df_interaction < 1 or df_within < 1 or ss_within <= 0:
+        return replace(empty, **adjusted)
+    ss_interaction = sse_additive - ss_within
     f = (ss_interaction / df_interaction) / (ss_within / df_within)
     p = float(scipy_stats.f.sf(f, df_interaction, df_within))
-    return InteractionTest(scale, len(cells), f, df_interaction, df_within, p)
+    return InteractionTest(scale, len(cells), f, df_interaction, df_within, p, **adjusted)
+
+
+def _group_means(index: np.ndarray, means: np.ndarray, weights: np.ndarray) -> np.ndarray:
+    """Each cell's level mean over ``index`` (weighted by n), cell by cell."""
+    totals = np.bincount(index, weights * means)
+    sizes = np.bincount(index, weights)
+    return (totals / sizes)[index]
+
+
+def _given(
+    this: np.ndarray,
+    other: np.ndarray,
+    means: np.ndarray,
+    weights: np.ndarray,
+    ss_within: float,
+    sse_additive: float,
+    parameters: int,
+) -> AdjustedTest:
+    """Type II F test of ``this`` variable given ``other``, from the cell summaries."""
+    sse_other = ss_within + float(
+        np.sum(weights * (means - _group_means(other, means, weights)) ** 2)
+    )
+    grand = float(np.sum(weights * means) / weights.sum())
+    ss_alone = float(np.sum(weights * (_group_means(this, means, weights) - grand) ** 2))
+    df_effect = parameters - len(np.unique(other))
+    df_residual = int(weights.sum()) - parameters
+    if df_effect < 1 or df_residual < 1 or sse_additive <= 0:
+        return _UNDEFINED
+    ss_effect = max(sse_other - sse_additive, 0.0)
+    f = (ss_effect / df_effect) / (sse_additive / df_residual)
+    p = float(scipy_stats.f.sf(f, df_effect, df_residual))
+    return AdjustedTest(
+        f, df_effect, df_residual, p, ss_effect / ss_alone if ss_alone > 0 else None
+    )
 
 
 def scale_for(strongly_skewed: bool, minimum: float | None) -> str:

@@ -7,12 +7,14 @@ shares for a 0/1 target.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import replace
 
 from briefgen.numbers import (
     fmt_percent,
     p_text,
 )
+from briefgen.present.direction import VANISHING
 from briefgen.present.family import Family, verdict_test
 from briefgen.present.finding import Finding
 from briefgen.present.order import Ordering, order_levels
@@ -28,6 +30,7 @@ from briefgen.present.wording import (
 from briefgen.stats.compare import GroupComparison
 from briefgen.stats.core.summary import Summary
 from briefgen.stats.groups import GroupResult
+from briefgen.stats.interaction import AdjustedTest
 from briefgen.stats.proportions import newcombe_interval
 
 
@@ -45,8 +48,13 @@ def group_finding(
     words: Wording,
     name: str,
     family: Family,
+    others: Sequence[tuple[str, str, AdjustedTest]] = (),
 ) -> Finding | None:
     """Which levels are highest and lowest, as far as the adjusted tests separate them.
+
+    ``others`` are (column, name, test of this group given that column) for each
+    two-way table the group is in: a clear difference that vanishes once the other
+    group is allowed for is said to be explained by it (the likely confounder).
 
     Welch's tests compare means, so the sentence compares means; rank tests compare
     where values tend to lie, so the sentence orders levels by mean rank and quotes
@@ -89,7 +97,47 @@ def group_finding(
         p_adjusted=p_adjusted,
         **data,
     )
+    if clear and others:
+        finding = _with_confounders(finding, name, words, others, family.alpha)
     return _with_disagreement(finding, comparison, family.alpha)
+
+
+def _with_confounders(
+    finding: Finding,
+    name: str,
+    words: Wording,
+    others: Sequence[tuple[str, str, AdjustedTest]],
+    alpha: float,
+) -> Finding:
+    """Say when another configured group explains this one's differences, wholly or in part."""
+    defined = [(c, n, t) for c, n, t in others if t.p_value is not None and t.kept is not None]
+    for column, other, test in defined:
+        if test.p_value >= alpha and test.kept < VANISHING:
+            text = (
+                f"{finding.text} Once {other} is allowed for, the differences by {name} shrink to "
+                f"{fmt_percent(test.kept)} of their size and are no longer clear "
+                f"({p_text(test.p_value)}): the levels of {name} differ mostly in their mix of "
+                f"{other}, the likely confounder."
+            )
+            return replace(
+                finding,
+                headline=f"By {name}: differences explained by {other}",
+                text=text,
+                certainty=f"Compare levels of {name} within each {other} before acting on them.",
+                claim="none",
+                variables=(*finding.variables, column),
+                ci_low=None,
+                ci_high=None,
+            )
+    partial = [(n, t) for _, n, t in defined if t.kept < VANISHING]
+    if partial:
+        other, test = partial[0]
+        note = (
+            f"Part of this goes with {other}: allowing for it, {fmt_percent(test.kept)} of the "
+            f"differences by {name} remain ({p_text(test.p_value)})."
+        )
+        return replace(finding, detail=f"{finding.detail} {note}".strip())
+    return finding
 
 
 def _with_zero_shares(finding: Finding, group: GroupResult, comparison: GroupComparison) -> Finding:
