@@ -252,5 +252,13 @@ def numeric(table: ir.Table, name: str) -> ir.FloatingColumn:
 
 
 def category(table: ir.Table, name: str) -> ir.StringColumn:
-    """A grouping column as text, so numbers-as-codes group like labels."""
-    return table[name].cast(dt.string)
+    """A grouping column as text, so numbers-as-codes group like labels.
+
+    Whole numbers stored as floats (a CSV column of codes with one gap reads as
+    float) print as "5", not "5.0": a code's label should look like the code.
+    """
+    column = table[name]
+    if column.type().is_floating():
+        whole = column.notnull() & (column == column.round(0)) & (column.abs() < 1e15)
+        return ibis.ifelse(whole, column.cast(dt.int64).cast(dt.string), column.cast(dt.string))
+    return column.cast(dt.string)
