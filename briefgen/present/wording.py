@@ -99,6 +99,8 @@ def adjusted_phrase(p: float, p_adjusted: float | None, family: Family) -> str:
     """'p = 0.004, 0.03 after adjusting for the 9 questions tested' (or just the p)."""
     if p_adjusted is None or family.size <= 1:
         return p_text(p)
+    if fmt_p(p) == fmt_p(p_adjusted):
+        return f"{p_text(p)}, also after adjusting for the {family.size} questions this brief tests"
     return (
         f"{p_text(p)}, {fmt_p(p_adjusted)} after adjusting for the {family.size} questions "
         "this brief tests"

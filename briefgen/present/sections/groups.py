@@ -169,12 +169,23 @@ def _order_finding(
     value = (lambda s: words.value(s.median)) if rank else (lambda s: words.value(s.mean))
     # Headlines say which measure their numbers are: medians on the rank path.
     headline_value = (lambda s: f"median {words.value(s.median)}") if rank else value
-    if rank:
+    # "Highest" and "lowest" in the sentence only where the tests support them; otherwise
+    # the range is stated, which is true whatever the order.
+    ordered = clear and ordering.single_top and ordering.single_bottom
+    if rank and ordered:
         text = (
             f"By {name}, values tend to be highest for {high.level} (median {value(high)}) and "
             f"lowest for {low.level} (median {value(low)}); their means are "
             f"{words.value(high.mean)} and {words.value(low.mean)}."
         )
+    elif rank:
+        medians = [s.median for s in usable if s.level in ordering.values]
+        text = (
+            f"By {name}, medians of {words.lower} range from {words.value(min(medians))} to "
+            f"{words.value(max(medians))}; by where their values fall, {high.level} sits highest "
+            f"and {low.level} lowest (means {words.value(high.mean)} and {words.value(low.mean)})."
+        )
+    if rank:
         if high.median == low.median:
             text += (
                 " The medians are equal; the rank test compares where all values lie, "
@@ -184,6 +195,9 @@ def _order_finding(
         text = (
             f"By {name}, {high.level} has the highest mean {words.lower}, {value(high)}, and "
             f"{low.level} the lowest, {value(low)}: a gap of {words.value(ordering.gap)}"
+            if ordered
+            else f"By {name}, the mean {words.lower} runs from {value(low)} ({low.level}) to "
+            f"{value(high)} ({high.level}): a gap of {words.value(ordering.gap)}"
         )
         if clear and ordering.ends_apart and ordering.gap_ci_low is not None:
             text += (
