@@ -192,7 +192,7 @@ class BriefSpec(_Strict):
     confidence: float = Field(default=0.95, gt=0.5, lt=1.0)
     min_cell: int = Field(default=10, ge=2)
     # At least two named levels beside "Other", so highest and lowest name real levels.
-    max_levels: int = Field(default=8, ge=3, le=20)
+    max_levels: int = Field(default=12, ge=3, le=20)
     engine: EngineSpec = Field(default_factory=EngineSpec)
     output: OutputSpec = Field(default_factory=OutputSpec)
     delivery: DeliverySpec = Field(default_factory=DeliverySpec)

@@ -18,7 +18,9 @@ if TYPE_CHECKING:
 
     from briefgen.stats.core.summary import Summary
 
-MAX_LEVELS = 8  # common practice (no published source): about 8 categories read at a glance
+MAX_LEVELS = (
+    12  # common practice (no published source): a dozen levels still fit one chart and table
+)
 _ORDERED = re.compile(r"^\s*[-+]?\d")
 
 

@@ -5,7 +5,7 @@ from __future__ import annotations
 import pandas as pd
 
 from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_p, fmt_percent
-from briefgen.profile import MAX_LEVELS, has_natural_order, level_order
+from briefgen.profile import has_natural_order, level_order
 from briefgen.stats.core.frame import shown_levels
 from briefgen.stats.core.summary import summarise_levels
 
@@ -50,14 +50,14 @@ def test_levels_sorted_by_median_and_small_levels_folded(engine_table):
     table = engine_table(pd.DataFrame(rows))
     summaries, _ = summarise_levels(table, 0.95)
     assert len(summaries) == 12
-    shown = shown_levels(table, "level", "level", MAX_LEVELS)
+    shown = shown_levels(table, "level", "level", 8)
     assert shown.other_label == "Other (5 levels)" and len(shown.folded) == 5
     folded = table.mutate(
         level=(table.level.isin(list(shown.kept))).ifelse(table.level, shown.other_label)
     )
     folded_summaries, _ = summarise_levels(folded, 0.95)
     levels = [s.level for s in folded_summaries]
-    assert len(levels) == MAX_LEVELS
+    assert len(levels) == 8
     assert "Other (5 levels)" in levels
     other = next(s for s in folded_summaries if s.level.startswith("Other"))
     assert other.n == sum(40 - 3 * i for i in range(7, 12))

@@ -32,7 +32,7 @@ def folded_case(tmp_path_factory):
     folder = tmp_path_factory.mktemp("folded")
     frame.to_parquet(folder / "data.parquet", index=False)
     spec = parse_spec(
-        "title: Folded\ndata:\n  path: data.parquet\ntarget: y\ngroups: [site]\n",
+        "title: Folded\ndata:\n  path: data.parquet\ntarget: y\ngroups: [site]\nmax_levels: 8\n",
         folder / "brief.yaml",
     )
     stats = compute(open_source(spec), spec)

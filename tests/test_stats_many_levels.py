@@ -141,7 +141,7 @@ def test_other_is_never_named_highest_or_lowest(tmp_path):
             pd.DataFrame({"site": f"site {i}", "y": shift + rng.normal(0, 1, 60 - 4 * i)})
         )
     frame = pd.concat(frames, ignore_index=True)
-    stats = _stats(frame, tmp_path, "groups: [site]\n")
+    stats = _stats(frame, tmp_path, "groups: [site]\nmax_levels: 8\n")
     group = stats.groups[0]
     assert max(group.summaries, key=lambda s: s.mean).level == group.shown.other_label
     finding = group_finding(
@@ -172,11 +172,13 @@ def test_a_numeric_group_with_many_values_is_flagged(numeric_group):
     stats, frame, _ = numeric_group
     shown = stats.groups[0].shown
     assert shown.numeric and shown.levels_in_data == frame.hour.nunique() == 30
-    assert shown.folded_share == pytest.approx(23 * 20 / len(frame))
+    assert shown.folded_share == pytest.approx(
+        19 * 20 / len(frame)
+    )  # 11 of 30 shown (max_levels 12)
     notes = level_cautions(stats, wording_for(stats, "y"), {"hour": "hour"})
     flagged = [n for n in notes if n.startswith("Hour holds numbers with 30 distinct values")]
     assert len(flagged) == 1 and "list hour under predictors" in flagged[0]
-    assert "77% of rows" in flagged[0]
+    assert "63% of rows" in flagged[0]
 
 
 def test_a_predictor_with_three_values_is_flagged_as_codes(numeric_group):
@@ -220,7 +222,7 @@ def test_outlier_counts_say_which_box_they_use(tmp_path):
     # mark different values.
     y = np.concatenate([rng.lognormal(0, 1, 200), rng.normal(0, 0.1, 200)])
     frame = pd.DataFrame({"site": np.repeat(["north", "south"], 200), "y": y})
-    stats = _stats(frame, tmp_path, "groups: [site]\n")
+    stats = _stats(frame, tmp_path, "groups: [site]\nmax_levels: 8\n")
 
     def tukey(values: np.ndarray) -> int:
         # Reference: numpy quantiles (linear, type 7) and Tukey's (1977) 1.5 × IQR fences.

@@ -196,7 +196,10 @@ def _confounded_finding(found, fit, words, x_lower, names, text, data, step, per
             f" The overall line {overall} mostly because the levels of {group} differ in both "
             f"{x_lower} and {words.lower}: within a level, no clear link remains."
         ),
-        certainty=f"{group[:1].upper() + group[1:]} is the likely confounder; read the levels separately.",
+        certainty=(
+            f"{group[:1].upper() + group[1:]} is the likely confounder, unless its levels are "
+            f"themselves defined by {x_lower}; either way, read the levels separately."
+        ),
         claim="none",
         **data,
     )
