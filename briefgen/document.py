@@ -73,6 +73,16 @@ class Document:
     family: Family
 
     @property
+    def settled_findings(self) -> tuple[Finding, ...]:
+        """Page 1's claims and summaries, each with its own line of certainty."""
+        return tuple(f for f in self.key_findings if f.claim in SETTLED)
+
+    @property
+    def open_findings(self) -> tuple[Finding, ...]:
+        """Page 1's "no clear …" and untested findings, named together on one line."""
+        return tuple(f for f in self.key_findings if f.claim not in SETTLED)
+
+    @property
     def findings(self) -> tuple[Finding, ...]:
         """Every finding the brief shows, in page order (each section's, once)."""
         return tuple(s.finding for s in self.sections if s.finding is not None)
