@@ -9,7 +9,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_interval, fmt_p, fmt_percent, p_text
-from briefgen.present.wording import Wording
+from briefgen.present.wording import Wording, test_name
 from briefgen.profile import natural_sorted
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
@@ -116,11 +116,11 @@ def pairwise_table(comparison: GroupComparison, words: Wording, name: str) -> Ta
                 fmt_p(pair.p_holm),
             )
         )
-    test = "Welch's t-test" if comparison.test == "welch_t" else "Welch's ANOVA"
+    test = test_name(comparison.test)
     notes = [
         f"Overall: {test}, {p_text(comparison.p_value)}."
         + (
-            f" Rank-based check ({'Mann–Whitney' if comparison.rank_test.test == 'mann_whitney' else 'Kruskal–Wallis'}): "
+            f" Rank-based check ({test_name(comparison.rank_test.test)}): "
             f"{p_text(comparison.rank_test.p_value)}."
             if comparison.rank_test is not None
             else ""
@@ -273,7 +273,7 @@ def share_pairs_table(comparison: ProportionComparison, words: Wording, name: st
         )
         for pair in comparison.pairwise
     )
-    test = "two-proportion z test" if comparison.test == "two_proportion_z" else "chi-square test"
+    test = test_name(comparison.test)
     return Table(
         key=f"table-pairs-{comparison.variable}",
         caption=f"Differences in the share of 1s between levels of {name}",

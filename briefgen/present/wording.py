@@ -20,6 +20,23 @@ from briefgen.numbers import (
 from briefgen.present.family import Family
 from briefgen.stats import BriefStats
 
+# Every test as the brief names it to a reader: one table, used by sentences and tables alike.
+TEST_NAMES = {
+    "welch_t": "Welch's t-test",
+    "welch_anova": "Welch's ANOVA",
+    "mann_whitney": "Mann–Whitney rank test",
+    "kruskal_wallis": "Kruskal–Wallis rank test",
+    "two_proportion_z": "two-proportion z test",
+    "chi_square": "chi-square test",
+    "student_t": "Student's t interval",
+    "wilson_score": "Wilson score interval",
+}
+
+
+def test_name(code: str) -> str:
+    """The reader's name of a test from its stats.json code."""
+    return TEST_NAMES.get(code, code.replace("_", " "))
+
 
 @dataclass(frozen=True, slots=True)
 class Wording:

@@ -25,6 +25,7 @@ from briefgen.present.wording import (
     listed,
     points_text,
     share_text,
+    test_name,
     widened_level,
 )
 from briefgen.stats.compare import GroupComparison
@@ -37,9 +38,8 @@ from briefgen.stats.proportions import newcombe_interval
 def _test_phrase(comparison: GroupComparison) -> str:
     """Name of the test the brief leans on."""
     if comparison.leans_on == "rank" and comparison.rank_test is not None:
-        name = "Mann–Whitney" if comparison.rank_test.test == "mann_whitney" else "Kruskal–Wallis"
-        return f"{name} rank test"
-    return "Welch's t-test" if comparison.test == "welch_t" else "Welch's ANOVA"
+        return test_name(comparison.rank_test.test)
+    return test_name(comparison.test)
 
 
 def group_finding(
@@ -67,9 +67,7 @@ def group_finding(
     if len(usable) < 2 or comparison is None:
         return None
     by_means = words.kind == "count"
-    test_name = "Welch's t-test" if comparison.test == "welch_t" else "Welch's ANOVA"
-    if not by_means:
-        test_name = _test_phrase(comparison)
+    named_test = _test_phrase(comparison) if not by_means else test_name(comparison.test)
     test, p = verdict_test(group, words.kind)
     data = {"key": group.key, "kind": "groups", "variables": (group.variable,)}
     if p is None:
@@ -82,7 +80,7 @@ def group_finding(
     finding = _order_finding(ordering, usable, words, name, clear)
     if by_means:
         finding = _with_zero_shares(finding, group, comparison)
-    verdict = f"{test_name}, {adjusted_phrase(p, p_adjusted, family)}"
+    verdict = f"{named_test}, {adjusted_phrase(p, p_adjusted, family)}"
     certainty = (
         f"Differences this large would be unlikely if {name} made no difference ({verdict})."
         if clear
@@ -350,7 +348,7 @@ def binary_group_finding(
     gap, gap_low, gap_high = newcombe_interval(
         high.events, high.n, low.events, low.n, pair_confidence
     )
-    test = "two-proportion z test" if comparison.test == "two_proportion_z" else "chi-square test"
+    test = test_name(comparison.test)
     p, p_adjusted = comparison.p_value, family.adjusted(group.key)
     clear = family.passes(group.key)
     verdict = f"{test} on shares, {adjusted_phrase(p, p_adjusted, family)}"
