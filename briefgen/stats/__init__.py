@@ -17,26 +17,23 @@ from briefgen.source import Source
 from briefgen.stats.accounting import Accounting, count_rows
 from briefgen.stats.compare import GroupComparison
 from briefgen.stats.core.frame import AnalysisFrame, build_frame
-from briefgen.stats.core.references import median_references
 from briefgen.stats.core.summary import BoxStats, Summary
-from briefgen.stats.correlation import Correlation, correlate
+from briefgen.stats.correlation import Correlation
 from briefgen.stats.groups import GroupAnalysis, GroupResult
 from briefgen.stats.histogram import Histogram, HistogramBins
-from briefgen.stats.interaction import scale_for
 from briefgen.stats.overall import Overall
 from briefgen.stats.proportions import Share
-from briefgen.stats.regression import RegressionFit, fit_lines
+from briefgen.stats.regression import RegressionFit
 from briefgen.stats.relationships import (
     GroupSlopes,
     LogFit,
     LogSkipped,
-    fit_log_target,
-    slopes_by_group,
+    RelationshipAnalysis,
 )
 from briefgen.stats.sample import Sample, draw_sample
 from briefgen.stats.target_kind import TargetKind, target_kind
-from briefgen.stats.trend import Trend, time_trend
-from briefgen.stats.twoway import CrossTable, cross_table
+from briefgen.stats.trend import Trend, TrendAnalysis
+from briefgen.stats.twoway import CrossAnalysis, CrossTable
 
 log = logging.getLogger(__name__)
 
@@ -54,8 +51,9 @@ __all__ = [
     "compute",
 ]
 
-# The analysis families with their own module, parameters and result (see stats.core.analysis).
-ANALYSES = (Overall, Histogram, GroupAnalysis)
+# Every analysis family, in the order compute runs them; each has its own module, frozen
+# parameters, a plan from the spec and one call on the frame (see stats.core.analysis).
+ANALYSES = (Overall, Histogram, GroupAnalysis, CrossAnalysis, TrendAnalysis, RelationshipAnalysis)
 
 
 @dataclass(frozen=True, slots=True)
@@ -105,58 +103,6 @@ def _run(family, spec: BriefSpec, frame: AnalysisFrame) -> tuple:
     return tuple(results)
 
 
-def _crosses(
-    frame: AnalysisFrame, spec: BriefSpec, groups: tuple[GroupResult, ...], minimum: float | None
-) -> tuple[CrossTable, ...]:
-    """Two-way tables of means for each configured pair of groups.
-
-    The interaction test leaves the mean scale when either group's comparison found
-    the target strongly skewed within levels (see ``briefgen.stats.interaction``).
-    """
-    skewed = {g.variable for g in groups if g.comparison and g.comparison.strongly_skewed}
-    return tuple(
-        cross_table(
-            frame.table,
-            frame.group_column(a),
-            frame.group_column(b),
-            a,
-            b,
-            spec.confidence,
-            spec.min_cell,
-            scale=scale_for(bool({a, b} & skewed), minimum),
-        )
-        for a, b in spec.cross_pairs
-    )
-
-
-def _relationships(frame: AnalysisFrame, spec: BriefSpec):
-    """Line fits, correlations, per-group slopes and log fits, named by predictor.
-
-    Fits and correlations share one median-reference pass.
-    """
-    table, confidence = frame.table, spec.confidence
-    # Queries run on the frame's x0.. columns; results carry the configured predictor names.
-    columns = list(frame.predictors)
-    names = [frame.predictors[c] for c in columns]
-    references = median_references(table, columns) if columns else {}
-    fits = tuple(
-        replace(fit, predictor=frame.predictors[fit.predictor])
-        for fit in fit_lines(table, columns, confidence, references)
-    )
-    correlations = correlate(table, columns, names, confidence, references) if columns else ()
-    slopes = tuple(
-        slopes_by_group(table, frame.group_column(g), frame.predictor_column(p), g, p, confidence)
-        for p in spec.predictors
-        for g in spec.groups
-    )
-    log_fits = (
-        fit_log_target(table, columns, names, confidence) if spec.log_target and columns else None
-    )
-    if isinstance(log_fits, tuple):
-        log_fits = tuple(replace(f, line=replace(f.line, predictor=f.predictor)) for f in log_fits)
-    return fits, correlations, slopes, log_fits, references
-
-
 def _sample(frame: AnalysisFrame) -> Sample:
     """Seeded sample of points for scatter plots, keyed by predictor name."""
     sample = draw_sample(frame.table, list(frame.predictors), groups=list(frame.groups))
@@ -174,12 +120,16 @@ def compute(source: Source, spec: BriefSpec) -> BriefStats:
     (overall,) = _run(Overall, spec, frame)
     histogram = next(iter(_run(Histogram, spec, frame)), None)
     groups = _run(GroupAnalysis, spec, frame)
-    crosses = _crosses(frame, spec, groups, overall.summary.min)
-    trend = time_trend(frame.table, spec.confidence, spec.time.period) if spec.time else None
-    fits, correlations, slopes, log_fits, references = _relationships(frame, spec)
+    # The two-way interaction test leaves the mean scale when a group found the target
+    # strongly skewed within its levels (see briefgen.stats.interaction).
+    skewed = frozenset(g.variable for g in groups if g.comparison and g.comparison.strongly_skewed)
+    planned = CrossAnalysis.plan(spec, frame, skewed=skewed, minimum=overall.summary.min)
+    crosses = tuple(cross(frame) for cross in planned)
+    trend = next(iter(_run(TrendAnalysis, spec, frame)), None)
+    (relationships,) = _run(RelationshipAnalysis, spec, frame)
     usages = [r.usage for r in (overall, *groups, *crosses)]
     usages += [trend.usage] if trend is not None else []
-    accounting = count_rows(source.table, frame, spec, usages, references)
+    accounting = count_rows(source.table, frame, spec, usages, relationships.references)
     log.info("statistics done: %d rows read", accounting.rows_read)
     return BriefStats(
         target=spec.target,
@@ -190,10 +140,10 @@ def compute(source: Source, spec: BriefSpec) -> BriefStats:
         groups=groups,
         crosses=crosses,
         trend=trend,
-        fits=fits,
-        correlations=correlations,
-        slopes_by_group=slopes,
-        log_fits=log_fits,
+        fits=relationships.fits,
+        correlations=relationships.correlations,
+        slopes_by_group=relationships.slopes_by_group,
+        log_fits=relationships.log_fits,
         sample=_sample(frame),
         accounting=accounting,
         target_kind=frame.kind,

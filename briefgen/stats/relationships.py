@@ -17,13 +17,19 @@ from __future__ import annotations
 
 import logging
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
+from typing import TYPE_CHECKING, ClassVar
 
 import ibis.expr.types as ir
 from scipy import stats as scipy_stats
 
+from briefgen.stats.core.references import median_references
 from briefgen.stats.correlation import Correlation, correlate
 from briefgen.stats.regression import RegressionFit, fit_from_sums, fit_lines
+
+if TYPE_CHECKING:
+    from briefgen.config import BriefSpec
+    from briefgen.stats.core.frame import AnalysisFrame
 
 __all__ = [
     "Correlation",
@@ -329,3 +335,61 @@ def _log_fit(line: RegressionFit, name: str, confidence: float) -> LogFit:
         r_squared=line.r_squared,
         line=line,
     )
+
+
+@dataclass(frozen=True, slots=True)
+class Relationships:
+    """Every relation of the target with the predictors, named by predictor.
+
+    ``references`` is the one median-reference pass the fits and correlations share;
+    the row accounting reads it to count rows each predictor left out.
+    """
+
+    key: str
+    fits: tuple[RegressionFit, ...]
+    correlations: tuple[Correlation, ...]
+    slopes_by_group: tuple[GroupSlopes, ...]
+    log_fits: tuple[LogFit, ...] | LogSkipped | None
+    references: dict
+
+
+@dataclass(frozen=True, slots=True)
+class RelationshipAnalysis:
+    """Line fits, correlations, per-group slopes and log fits of the target on each predictor."""
+
+    confidence: float
+    log_target: bool
+    name: ClassVar[str] = "relationships"
+    many: ClassVar[bool] = False
+    result: ClassVar[type] = Relationships
+
+    @classmethod
+    def plan(cls, spec: BriefSpec, frame: AnalysisFrame) -> tuple[RelationshipAnalysis, ...]:
+        return (cls(spec.confidence, spec.log_target),)
+
+    def __call__(self, frame: AnalysisFrame) -> Relationships:
+        table, confidence = frame.table, self.confidence
+        # Queries run on the frame's x0.. columns; results carry the configured predictor names.
+        columns = list(frame.predictors)
+        names = [frame.predictors[c] for c in columns]
+        references = median_references(table, columns) if columns else {}
+        fits = tuple(
+            replace(fit, predictor=frame.predictors[fit.predictor])
+            for fit in fit_lines(table, columns, confidence, references)
+        )
+        correlations = correlate(table, columns, names, confidence, references) if columns else ()
+        slopes = tuple(
+            slopes_by_group(table, g_column, p_column, g_name, p_name, confidence)
+            for p_column, p_name in frame.predictors.items()
+            for g_column, g_name in frame.groups.items()
+        )
+        log_fits = (
+            fit_log_target(table, columns, names, confidence)
+            if self.log_target and columns
+            else None
+        )
+        if isinstance(log_fits, tuple):
+            log_fits = tuple(
+                replace(f, line=replace(f.line, predictor=f.predictor)) for f in log_fits
+            )
+        return Relationships("relationships", fits, correlations, slopes, log_fits, references)

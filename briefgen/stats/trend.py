@@ -25,6 +25,7 @@ from __future__ import annotations
 import dataclasses
 import datetime as dt
 import logging
+from typing import TYPE_CHECKING, ClassVar
 
 import ibis.expr.types as ir
 import numpy as np
@@ -45,6 +46,10 @@ from briefgen.stats.periods import (
     next_period_start,
 )
 from briefgen.stats.regression import RegressionFit, fit_from_sums
+
+if TYPE_CHECKING:
+    from briefgen.config import BriefSpec
+    from briefgen.stats.core.frame import AnalysisFrame
 
 __all__ = ["PERIODS", "PeriodStats", "Trend", "choose_period", "next_period_start", "time_trend"]
 
@@ -334,3 +339,21 @@ def time_trend(frame_table: ir.Table, confidence: float = 0.95, period: str = "a
         left_out_of_fit=tuple(p.start for p in periods if not p.in_fit),
         cadence=cadence([p.start for p in periods], chosen),
     )
+
+
+@dataclasses.dataclass(frozen=True, slots=True)
+class TrendAnalysis:
+    """The target over time: one value per ``period`` and its change across the span."""
+
+    confidence: float
+    period: str
+    name: ClassVar[str] = "trend"
+    many: ClassVar[bool] = False
+    result: ClassVar[type] = Trend
+
+    @classmethod
+    def plan(cls, spec: BriefSpec, frame: AnalysisFrame) -> tuple[TrendAnalysis, ...]:
+        return (cls(spec.confidence, spec.time.period),) if spec.time else ()
+
+    def __call__(self, frame: AnalysisFrame) -> Trend:
+        return time_trend(frame.table, self.confidence, self.period)

@@ -15,6 +15,7 @@ from __future__ import annotations
 import logging
 import math
 from dataclasses import dataclass
+from typing import TYPE_CHECKING, ClassVar
 
 import ibis
 import ibis.expr.types as ir
@@ -25,7 +26,11 @@ from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.shifted import deviations, t_quantile
 from briefgen.stats.core.summary import Summary, summarise
 from briefgen.stats.core.usage import RowUsage, usage
-from briefgen.stats.interaction import InteractionTest, interaction_test
+from briefgen.stats.interaction import InteractionTest, interaction_test, scale_for
+
+if TYPE_CHECKING:
+    from briefgen.config import BriefSpec
+    from briefgen.stats.core.frame import AnalysisFrame
 
 log = logging.getLogger(__name__)
 
@@ -307,3 +312,47 @@ def find_standout(cells: list[CrossCell], confidence: float) -> CrossStandout | 
             )
         )
     return max(found, key=lambda s: (s.stands_out, abs(s.excess)))
+
+
+@dataclass(frozen=True, slots=True)
+class CrossAnalysis:
+    """Two-way table of the target over one configured pair of group variables.
+
+    ``scale`` is the interaction test's scale, decided from the group comparisons
+    (see ``briefgen.stats.interaction.scale_for``), so ``plan`` takes them.
+    """
+
+    row: str
+    column: str
+    confidence: float
+    min_cell: int
+    scale: str = "mean"
+    name: ClassVar[str] = "crosses"
+    many: ClassVar[bool] = True
+    result: ClassVar[type] = CrossTable
+
+    @classmethod
+    def plan(
+        cls,
+        spec: BriefSpec,
+        frame: AnalysisFrame,
+        skewed: frozenset[str] = frozenset(),
+        minimum: float | None = None,
+    ) -> tuple[CrossAnalysis, ...]:
+        """One table per pair in ``spec.cross_pairs``; ``skewed`` names groups found strongly skewed."""
+        return tuple(
+            cls(a, b, spec.confidence, spec.min_cell, scale_for(bool({a, b} & skewed), minimum))
+            for a, b in spec.cross_pairs
+        )
+
+    def __call__(self, frame: AnalysisFrame) -> CrossTable:
+        return cross_table(
+            frame.table,
+            frame.group_column(self.row),
+            frame.group_column(self.column),
+            self.row,
+            self.column,
+            self.confidence,
+            self.min_cell,
+            scale=self.scale,
+        )
