@@ -10,51 +10,28 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from briefgen.config import BriefSpec
-from briefgen.figures.cross import cross_chart
-from briefgen.figures.distribution import distribution_chart
-from briefgen.figures.histogram import histogram_chart
-from briefgen.figures.relationship import relationship_chart
-from briefgen.figures.shares import share_chart
-from briefgen.figures.theme import Chart
-from briefgen.figures.trend import trend_chart
-from briefgen.numbers import decimals_for, fmt_count, fmt_level
+from briefgen.numbers import fmt_count, fmt_level
 from briefgen.present.cautions import cautions
 from briefgen.present.family import Family, build_family, family_sentence
 from briefgen.present.finding import SETTLED, Finding
-from briefgen.present.sections.cross import cross_finding
-from briefgen.present.sections.fit import fit_finding
-from briefgen.present.sections.groups import group_finding
-from briefgen.present.sections.overall import kind_note, overall_finding
-from briefgen.present.sections.trend import trend_finding
-from briefgen.present.wording import Wording, wording_for
-from briefgen.stats import BriefStats, CrossTable, RegressionFit, Trend
+from briefgen.present.section import Section
+from briefgen.present.sections.cross import cross_section
+from briefgen.present.sections.fit import fit_section
+from briefgen.present.sections.groups import group_sections
+from briefgen.present.sections.overall import kind_note, overall_section
+from briefgen.present.sections.trend import trend_section
+from briefgen.present.wording import Wording, label_for, name_for, wording_for
+from briefgen.stats import BriefStats
 from briefgen.tables import (
     Table,
     accounting_table,
     cross_cells_table,
-    cross_table_view,
-    effects_table,
     fits_table,
-    group_table,
-    pairwise_table,
-    share_pairs_table,
     slopes_table,
     trend_table,
 )
 
 MAX_KEY_FINDINGS = 8
-MAX_MATRIX_COLUMNS = 7  # level columns that fit across A4 text width at 8.5 pt
-
-
-@dataclass(frozen=True, slots=True)
-class Section:
-    """One analysis as the reader meets it: a finding, its chart, its table."""
-
-    key: str
-    heading: str
-    finding: Finding | None
-    chart: Chart | None
-    table: Table | None
 
 
 @dataclass(frozen=True, slots=True)
@@ -86,19 +63,6 @@ class Document:
     def findings(self) -> tuple[Finding, ...]:
         """Every finding the brief shows, in page order (each section's, once)."""
         return tuple(s.finding for s in self.sections if s.finding is not None)
-
-
-def label_for(spec: BriefSpec, column: str) -> str:
-    """A column's name as a heading: the configured label, else the name tidied and capitalised."""
-    if column in spec.labels:
-        return spec.labels[column]
-    text = column.replace("_", " ").strip()
-    return text[:1].upper() + text[1:]
-
-
-def name_for(spec: BriefSpec, column: str) -> str:
-    """A column's name inside a sentence: the configured label, else the name tidied."""
-    return spec.labels.get(column, column.replace("_", " ").strip())
 
 
 def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
@@ -140,150 +104,13 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
     return tuple(notes)
 
 
-def _group_sections(
-    stats: BriefStats, spec: BriefSpec, words: Wording, family: Family
-) -> tuple[list[Section], list[Table]]:
-    """One section per group, and the pairwise tests of each compared group for the appendix."""
-    label, decimals, confidence = words.label, words.unit_decimals, stats.confidence
-    sections: list[Section] = []
-    pairwise: list[Table] = []
-    for group in stats.groups:
-        name = name_for(spec, group.variable)
-        comparison = stats.comparison(group.variable)
-        chart = (
-            distribution_chart(group, stats.overall, label, decimals, confidence, name)
-            if group.boxes
-            else None
-        )
-        if group.share_comparison is not None:
-            chart = share_chart(group, stats.overall_share, label, confidence, name)
-        finding = group_finding(
-            group,
-            comparison,
-            words,
-            name,
-            family,
-            _adjusted_for_others(stats, spec, group.variable),
-        )
-        sections.append(
-            Section(
-                f"group-{group.variable}",
-                f"{label} by {name}",
-                finding,
-                chart,
-                group_table(group, words, name),
-            )
-        )
-        if comparison is not None:
-            pairwise.append(pairwise_table(comparison, words, name))
-            pairwise.append(effects_table(comparison, words, name))
-        elif group.share_comparison is not None:
-            pairwise.append(share_pairs_table(group.share_comparison, words, name))
-    return sections, pairwise
-
-
-def _adjusted_for_others(stats: BriefStats, spec: BriefSpec, variable: str) -> list[tuple]:
-    """(other column, its name, test of ``variable`` given it) for each two-way table with it."""
-    found = []
-    for cross in stats.crosses:
-        if cross.row_variable == variable:
-            other, test = cross.column_variable, cross.interaction.row_given_column
-        elif cross.column_variable == variable:
-            other, test = cross.row_variable, cross.interaction.column_given_row
-        else:
-            continue
-        found.append((other, name_for(spec, other), test))
-    return found
-
-
-def _cross_section(cross: CrossTable, spec: BriefSpec, words: Wording, family: Family) -> Section:
-    """The two-way means of one pair of groups."""
-    label, decimals = words.label, words.unit_decimals
-    names = (name_for(spec, cross.row_variable), name_for(spec, cross.column_variable))
-    finding = cross_finding(cross, words, *names, family)
-    return Section(
-        f"cross-{cross.row_variable}-{cross.column_variable}",
-        f"{label} by {names[0]} and {names[1]}",
-        finding,
-        cross_chart(cross, label, decimals, names),
-        # A wide matrix would run off the page; the long form in the appendix has every cell.
-        cross_table_view(cross, words, names) if len(cross.columns) <= MAX_MATRIX_COLUMNS else None,
-    )
-
-
-def _trend_section(trend: Trend, words: Wording, confidence: float, family: Family) -> Section:
-    """The target over time; its period-by-period table goes to the appendix."""
-    return Section(
-        "trend",
-        f"{words.label} over time",
-        trend_finding(trend, words, family),
-        trend_chart(trend, words.label, words.unit_decimals, confidence),
-        None,
-    )
-
-
-def _fit_section(
-    stats: BriefStats,
-    fit: RegressionFit,
-    words: Wording,
-    x_label: str,
-    names: dict[str, str],
-    family: Family,
-) -> Section:
-    """The straight-line fit on one predictor, with its correlation and per-group slopes."""
-    label = words.label
-    slopes = [(names[s.group], s) for s in stats.slopes_by_group if s.predictor == fit.predictor]
-    finding = fit_finding(
-        fit,
-        stats.correlation(fit.predictor),
-        stats.log_fit(fit.predictor),
-        slopes,
-        words,
-        x_label,
-        family,
-    )
-    chart = relationship_chart(
-        fit,
-        stats.sample,
-        x_label,
-        label,
-        # The slope gets its own decimals: its scale is target units per predictor unit.
-        decimals_for(abs(fit.slope or 0) or None),
-        stats.confidence,
-        *_confounder(stats, fit, finding, names),
-    )
-    return Section(f"fit-{fit.predictor}", f"{label} and {x_label}", finding, chart, None)
-
-
-def _confounder(stats: BriefStats, fit: RegressionFit, finding, names: dict[str, str]) -> tuple:
-    """(per-level slopes, group name) when the finding names a confounding group, else ()."""
-    if finding is None or finding.test != "ols_common_slope_within_groups":
-        return ()
-    group = finding.variables[1]
-    slopes = next(
-        s for s in stats.slopes_by_group if s.predictor == fit.predictor and s.group == group
-    )
-    return slopes, names.get(group, group)
-
-
-def _overall_section(stats: BriefStats, words: Wording) -> Section:
-    """The target over all rows: the overall finding, and the histogram when there is one."""
-    chart = (
-        histogram_chart(stats.histogram, words.lower, words.unit_decimals)
-        if stats.histogram is not None
-        else None
-    )
-    finding = overall_finding(stats, words, figure="overall" if chart else None)
-    return Section("overall", f"{words.label} over all rows", finding, chart, None)
-
-
 def _sections(
     stats: BriefStats, spec: BriefSpec, words: Wording, family: Family
 ) -> tuple[list[Section], list[Table]]:
     """Every analysis as a section in reading order, and the detail tables for the appendix."""
-    sections, appendix = _group_sections(stats, spec, words, family)
-    sections.insert(0, _overall_section(stats, words))
-    sections += [_cross_section(cross, spec, words, family) for cross in stats.crosses]
+    sections, appendix = group_sections(stats, spec, words, family)
+    sections.insert(0, overall_section(stats, words))
+    sections += [cross_section(cross, spec, words, family) for cross in stats.crosses]
     appendix += [
         cross_cells_table(
             cross,
@@ -293,12 +120,12 @@ def _sections(
         for cross in stats.crosses
     ]
     if stats.trend is not None:
-        sections.append(_trend_section(stats.trend, words, stats.confidence, family))
+        sections.append(trend_section(stats.trend, words, stats.confidence, family))
         appendix.append(trend_table(stats.trend, words))
     labels = {p: label_for(spec, p) for p in spec.predictors}
     names = {g: name_for(spec, g) for g in spec.groups}
     sections += [
-        _fit_section(stats, fit, words, labels[fit.predictor], names, family) for fit in stats.fits
+        fit_section(stats, fit, words, labels[fit.predictor], names, family) for fit in stats.fits
     ]
     if stats.fits:
         appendix.append(fits_table(stats, labels, words))

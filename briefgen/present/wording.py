@@ -8,6 +8,8 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+# Every test as the brief names it to a reader: one table, used by sentences and tables alike.
+from briefgen.config import BriefSpec
 from briefgen.numbers import (
     decimals_for,
     fmt,
@@ -20,7 +22,6 @@ from briefgen.numbers import (
 from briefgen.present.family import Family
 from briefgen.stats import BriefStats
 
-# Every test as the brief names it to a reader: one table, used by sentences and tables alike.
 TEST_NAMES = {
     "welch_t": "Welch's t-test",
     "welch_anova": "Welch's ANOVA",
@@ -129,3 +130,16 @@ def chance_phrase(name: str, verdict: str) -> str:
         f"Gaps this size could easily arise by chance ({verdict}): the data do not show "
         f"that {name} matters, which is not the same as showing that it does not."
     )
+
+
+def label_for(spec: BriefSpec, column: str) -> str:
+    """A column's name as a heading: the configured label, else the name tidied and capitalised."""
+    if column in spec.labels:
+        return spec.labels[column]
+    text = column.replace("_", " ").strip()
+    return text[:1].upper() + text[1:]
+
+
+def name_for(spec: BriefSpec, column: str) -> str:
+    """A column's name inside a sentence: the configured label, else the name tidied."""
+    return spec.labels.get(column, column.replace("_", " ").strip())

@@ -2,15 +2,22 @@
 
 from __future__ import annotations
 
+from briefgen.config import BriefSpec
+from briefgen.figures.cross import cross_chart
 from briefgen.numbers import (
     fmt_count,
 )
 from briefgen.present.family import Family
 from briefgen.present.finding import Finding
+from briefgen.present.section import Section
 from briefgen.present.wording import (
     Wording,
+    name_for,
 )
 from briefgen.stats.twoway import CrossTable
+from briefgen.tables import (
+    cross_table_view,
+)
 
 
 def cross_finding(
@@ -91,4 +98,22 @@ def cross_finding(
         detail=detail,
         claim="none",
         **data,
+    )
+
+
+MAX_MATRIX_COLUMNS = 7  # level columns that fit across A4 text width at 8.5 pt
+
+
+def cross_section(cross: CrossTable, spec: BriefSpec, words: Wording, family: Family) -> Section:
+    """The two-way means of one pair of groups."""
+    label, decimals = words.label, words.unit_decimals
+    names = (name_for(spec, cross.row_variable), name_for(spec, cross.column_variable))
+    finding = cross_finding(cross, words, *names, family)
+    return Section(
+        f"cross-{cross.row_variable}-{cross.column_variable}",
+        f"{label} by {names[0]} and {names[1]}",
+        finding,
+        cross_chart(cross, label, decimals, names),
+        # A wide matrix would run off the page; the long form in the appendix has every cell.
+        cross_table_view(cross, words, names) if len(cross.columns) <= MAX_MATRIX_COLUMNS else None,
     )

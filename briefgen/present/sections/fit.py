@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+from briefgen.figures.relationship import relationship_chart
 from briefgen.numbers import (
     decimals_for,
     fmt,
@@ -14,11 +15,13 @@ from briefgen.numbers import (
 from briefgen.present.direction import confounding
 from briefgen.present.family import Family
 from briefgen.present.finding import Finding
+from briefgen.present.section import Section
 from briefgen.present.wording import (
     Wording,
     adjusted_phrase,
     in_sentence,
 )
+from briefgen.stats import BriefStats
 from briefgen.stats.correlation import Correlation
 from briefgen.stats.regression import RegressionFit
 from briefgen.stats.relationships import GroupSlopes, LogFit
@@ -203,3 +206,47 @@ def _confounded_finding(found, fit, words, x_lower, names, text, data, step, per
         claim="none",
         **data,
     )
+
+
+def fit_section(
+    stats: BriefStats,
+    fit: RegressionFit,
+    words: Wording,
+    x_label: str,
+    names: dict[str, str],
+    family: Family,
+) -> Section:
+    """The straight-line fit on one predictor, with its correlation and per-group slopes."""
+    label = words.label
+    slopes = [(names[s.group], s) for s in stats.slopes_by_group if s.predictor == fit.predictor]
+    finding = fit_finding(
+        fit,
+        stats.correlation(fit.predictor),
+        stats.log_fit(fit.predictor),
+        slopes,
+        words,
+        x_label,
+        family,
+    )
+    chart = relationship_chart(
+        fit,
+        stats.sample,
+        x_label,
+        label,
+        # The slope gets its own decimals: its scale is target units per predictor unit.
+        decimals_for(abs(fit.slope or 0) or None),
+        stats.confidence,
+        *_confounder(stats, fit, finding, names),
+    )
+    return Section(f"fit-{fit.predictor}", f"{label} and {x_label}", finding, chart, None)
+
+
+def _confounder(stats: BriefStats, fit: RegressionFit, finding, names: dict[str, str]) -> tuple:
+    """(per-level slopes, group name) when the finding names a confounding group, else ()."""
+    if finding is None or finding.test != "ols_common_slope_within_groups":
+        return ()
+    group = finding.variables[1]
+    slopes = next(
+        s for s in stats.slopes_by_group if s.predictor == fit.predictor and s.group == group
+    )
+    return slopes, names.get(group, group)

@@ -10,6 +10,9 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import replace
 
+from briefgen.config import BriefSpec
+from briefgen.figures.distribution import distribution_chart
+from briefgen.figures.shares import share_chart
 from briefgen.numbers import (
     fmt_percent,
     p_text,
@@ -18,21 +21,31 @@ from briefgen.present.direction import VANISHING
 from briefgen.present.family import Family, verdict_test
 from briefgen.present.finding import Finding
 from briefgen.present.order import Ordering, order_levels
+from briefgen.present.section import Section
 from briefgen.present.wording import (
     Wording,
     adjusted_phrase,
     chance_phrase,
     listed,
+    name_for,
     points_text,
     share_text,
     test_name,
     widened_level,
 )
+from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
 from briefgen.stats.core.summary import Summary
 from briefgen.stats.groups import GroupResult
 from briefgen.stats.interaction import AdjustedTest
 from briefgen.stats.proportions import newcombe_interval
+from briefgen.tables import (
+    Table,
+    effects_table,
+    group_table,
+    pairwise_table,
+    share_pairs_table,
+)
 
 
 def _test_phrase(comparison: GroupComparison) -> str:
@@ -414,3 +427,59 @@ def binary_group_finding(
         p_adjusted=p_adjusted,
         **data,
     )
+
+
+def group_sections(
+    stats: BriefStats, spec: BriefSpec, words: Wording, family: Family
+) -> tuple[list[Section], list[Table]]:
+    """One section per group, and the pairwise tests of each compared group for the appendix."""
+    label, decimals, confidence = words.label, words.unit_decimals, stats.confidence
+    sections: list[Section] = []
+    pairwise: list[Table] = []
+    for group in stats.groups:
+        name = name_for(spec, group.variable)
+        comparison = stats.comparison(group.variable)
+        chart = (
+            distribution_chart(group, stats.overall, label, decimals, confidence, name)
+            if group.boxes
+            else None
+        )
+        if group.share_comparison is not None:
+            chart = share_chart(group, stats.overall_share, label, confidence, name)
+        finding = group_finding(
+            group,
+            comparison,
+            words,
+            name,
+            family,
+            _adjusted_for_others(stats, spec, group.variable),
+        )
+        sections.append(
+            Section(
+                f"group-{group.variable}",
+                f"{label} by {name}",
+                finding,
+                chart,
+                group_table(group, words, name),
+            )
+        )
+        if comparison is not None:
+            pairwise.append(pairwise_table(comparison, words, name))
+            pairwise.append(effects_table(comparison, words, name))
+        elif group.share_comparison is not None:
+            pairwise.append(share_pairs_table(group.share_comparison, words, name))
+    return sections, pairwise
+
+
+def _adjusted_for_others(stats: BriefStats, spec: BriefSpec, variable: str) -> list[tuple]:
+    """(other column, its name, test of ``variable`` given it) for each two-way table with it."""
+    found = []
+    for cross in stats.crosses:
+        if cross.row_variable == variable:
+            other, test = cross.column_variable, cross.interaction.row_given_column
+        elif cross.column_variable == variable:
+            other, test = cross.row_variable, cross.interaction.column_given_row
+        else:
+            continue
+        found.append((other, name_for(spec, other), test))
+    return found

@@ -2,10 +2,12 @@
 
 from __future__ import annotations
 
+from briefgen.figures.histogram import histogram_chart
 from briefgen.numbers import (
     fmt_count,
 )
 from briefgen.present.finding import Finding
+from briefgen.present.section import Section
 from briefgen.present.wording import (
     Wording,
     share_text,
@@ -107,3 +109,14 @@ def kind_note(stats: BriefStats) -> str | None:
             "in its units and never as percentages of it."
         )
     return text.strip() or None
+
+
+def overall_section(stats: BriefStats, words: Wording) -> Section:
+    """The target over all rows: the overall finding, and the histogram when there is one."""
+    chart = (
+        histogram_chart(stats.histogram, words.lower, words.unit_decimals)
+        if stats.histogram is not None
+        else None
+    )
+    finding = overall_finding(stats, words, figure="overall" if chart else None)
+    return Section("overall", f"{words.label} over all rows", finding, chart, None)

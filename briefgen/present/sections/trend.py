@@ -2,11 +2,13 @@
 
 from __future__ import annotations
 
+from briefgen.figures.trend import trend_chart
 from briefgen.numbers import (
     fmt_interval,
 )
 from briefgen.present.family import Family
 from briefgen.present.finding import Finding
+from briefgen.present.section import Section
 from briefgen.present.wording import (
     Wording,
     points_text,
@@ -62,4 +64,15 @@ def trend_finding(trend: Trend, words: Wording, family: Family) -> Finding | Non
         test="ols_period_means",
         p_value=trend.fit.slope_p_value if trend.fit is not None else None,
         p_adjusted=family.adjusted(trend.key),
+    )
+
+
+def trend_section(trend: Trend, words: Wording, confidence: float, family: Family) -> Section:
+    """The target over time; its period-by-period table goes to the appendix."""
+    return Section(
+        "trend",
+        f"{words.label} over time",
+        trend_finding(trend, words, family),
+        trend_chart(trend, words.label, words.unit_decimals, confidence),
+        None,
     )
