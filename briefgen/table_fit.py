@@ -11,8 +11,9 @@ from __future__ import annotations
 
 from briefgen.tables import Table
 
-# 170 mm of A4 text width at 8.5 pt DejaVu Sans: digits are 0.636 em (5.4 pt) wide, so
-# about 89 digits fit; the budget keeps a margin for bold headers. US Letter is wider.
+# 170 mm of A4 text width at 8.5 pt DejaVu Sans: digits are 0.636 em (5.4 pt) wide (the font's
+# advance widths, from memory), so about 89 digits fit; the budget keeps a margin for bold headers.
+# A rule of thumb, no published source, held to by the PDF measurement in tests/test_layout.py.
 TEXT_WIDTH_CHARACTERS = 84
 CELL_PADDING_CHARACTERS = 2  # 2 mm each side of a cell ≈ 2 characters in all
 NAME_COLUMN_CHARACTERS = 16  # a name column narrower than this wraps every few letters
