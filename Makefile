@@ -9,12 +9,13 @@ TEST_STAMP := $(VENV)/.installed-test
 .PHONY: demo test lint bench example system-deps clean
 
 # WeasyPrint needs Pango, HarfBuzz's subsetter (repeatable font subsets) and a font; install them with apt when missing (CI and fresh machines run as root).
+# Chromium measures the HTML's width at phone and desktop sizes in tests/test_layout.py.
 system-deps:
 	@if ! ldconfig -p | grep -q libpango-1.0 || ! ldconfig -p | grep -q libharfbuzz-subset \
-		|| ! fc-list 2>/dev/null | grep -qi dejavu; then \
-		echo "installing Pango and DejaVu fonts with apt-get"; \
+		|| ! fc-list 2>/dev/null | grep -qi dejavu || ! command -v chromium >/dev/null; then \
+		echo "installing Pango, DejaVu fonts and Chromium with apt-get"; \
 		apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq \
-			libpango-1.0-0 libpangoft2-1.0-0 libharfbuzz-subset0 fonts-dejavu-core fontconfig >/dev/null; \
+			libpango-1.0-0 libpangoft2-1.0-0 libharfbuzz-subset0 fonts-dejavu-core fontconfig chromium >/dev/null; \
 	fi
 
 $(BIN)/python:

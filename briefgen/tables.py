@@ -172,7 +172,7 @@ def effects_table(comparison: GroupComparison, words: Wording, name: str) -> Tab
             "Level",
             "n",
             "Mean",
-            f"Difference from {comparison.reference_level}",
+            "Difference from reference",
             f"{words.level_name} interval",
             "Relative",
             "Against overall mean",
@@ -321,33 +321,35 @@ def cross_cells_table(cross: CrossTable, words: Wording, names: tuple[str, str])
     )
 
 
-def cross_table_view(cross: CrossTable, words: Wording, names: tuple[str, str]) -> Table:
-    """Mean (n) per cell, with row margins; small cells carry a mark and a note."""
-    header = (names[0], *cross.columns, "All")
+def cross_table_view(
+    cross: CrossTable, words: Wording, names: tuple[str, str], transpose: bool = False
+) -> Table:
+    """Mean (n) per cell, with margins; small cells carry a mark and a note.
+
+    ``transpose`` puts the first variable across instead of down, so the variable
+    with fewer levels can take the columns and the table stays inside the text block.
+    """
+    down, across = (cross.columns, cross.rows) if transpose else (cross.rows, cross.columns)
+    down_name, across_name = (names[1], names[0]) if transpose else names
+
+    def cell(row: str | None, column: str | None):
+        return cross.cell(column, row) if transpose else cross.cell(row, column)
+
+    def shown(c, mark: str = "") -> str:
+        return f"{words.value(c.mean)} ({fmt_count(c.n)}){mark}" if c else "–"
+
     rows = []
-    for row in cross.rows:
+    for row in down:
         cells = []
-        for column in cross.columns:
-            c = cross.cell(row, column)
-            if c is None:
-                cells.append("–")
-                continue
-            mark = SMALL_MARK if c.too_small else ""
-            cells.append(f"{words.value(c.mean)} ({fmt_count(c.n)}){mark}")
-        margin = cross.cell(row, None)
-        cells.append(f"{words.value(margin.mean)} ({fmt_count(margin.n)})" if margin else "–")
-        rows.append((row, *cells))
-    totals = [cross.cell(None, column) for column in cross.columns]
-    rows.append(
-        (
-            "All",
-            *[f"{words.value(t.mean)} ({fmt_count(t.n)})" if t else "–" for t in totals],
-            f"{words.value(cross.total.mean)} ({fmt_count(cross.total.n)})" if cross.total else "–",
-        )
-    )
-    notes = [f"Mean {words.lower} (n) per combination; rows: {names[0]}, columns: {names[1]}."]
+        for column in across:
+            c = cell(row, column)
+            cells.append(shown(c, SMALL_MARK if c is not None and c.too_small else ""))
+        rows.append((row, *cells, shown(cell(row, None))))
+    rows.append(("All", *[shown(cell(None, column)) for column in across], shown(cross.total)))
+    notes = [f"Mean {words.lower} (n) per combination; rows: {down_name}, columns: {across_name}."]
     if any(c.too_small for c in cross.cells):
         notes.append(f"{SMALL_MARK} fewer than {cross.min_cell} rows: too few to trust.")
+    header = (down_name, *across, "All")
     return Table(
         key=f"table-cross-{cross.row_variable}-{cross.column_variable}",
         caption=f"Mean {words.lower} by {names[0]} and {names[1]}",

@@ -7,7 +7,16 @@ and named in the caption.
 
 from __future__ import annotations
 
-from briefgen.figures.theme import OKABE_ITO, Chart, new_figure, themed, to_svg
+from briefgen.figures.theme import (
+    OKABE_ITO,
+    SHORTENED_NOTE,
+    Chart,
+    new_figure,
+    short_label,
+    shortened,
+    themed,
+    to_svg,
+)
 from briefgen.numbers import fmt, fmt_level
 from briefgen.stats.twoway import CrossCell, CrossTable
 
@@ -60,7 +69,7 @@ def _draw_series(
         SERIES_MARKERS[index],
         color=colour,
         markersize=5,
-        label=serie,
+        label=short_label(serie),
         # Alternate filled and hollow markers so neighbours differ even in grayscale.
         markerfacecolor=colour if index % 2 == 0 else "white",
         markeredgewidth=1.2,
@@ -77,6 +86,8 @@ def _caption(
     )
     if left_out:
         caption += f" Left out, fewer than {cross.min_cell} rows: {', '.join(left_out)}."
+    if shortened((*cross.rows, *cross.columns)):
+        caption += f" {SHORTENED_NOTE}"
     return caption
 
 
@@ -124,7 +135,7 @@ def cross_chart(
         for i, serie in enumerate(series):
             cells = [(positions[row] + offsets[i], row, cell(row, serie)) for row in ordered]
             _draw_series(axes, i, serie, _trusted_points(cells, serie, left_out))
-        axes.set_yticks([positions[r] for r in ordered], ordered)
+        axes.set_yticks([positions[r] for r in ordered], [short_label(r) for r in ordered])
         axes.grid(axis="y", visible=False)
         axes.set_xlabel(f"Mean {label[:1].lower() + label[1:]}")
         axes.legend(

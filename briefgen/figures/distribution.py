@@ -13,8 +13,11 @@ from briefgen.figures.theme import (
     INK,
     LINE,
     MUTED,
+    SHORTENED_NOTE,
     Chart,
     new_figure,
+    short_label,
+    shortened,
     themed,
     to_svg,
 )
@@ -95,7 +98,7 @@ def _draw_boxes(axes, boxes: list[BoxStats], positions: list[int], label: str) -
     )
     axes.set_xlim(lower, upper)
     beyond_edge = _mark_edges(axes, boxes, positions, lower, upper)
-    axes.set_yticks(positions, [b.level for b in boxes])
+    axes.set_yticks(positions, [short_label(b.level) for b in boxes])
     axes.set_xlabel(label)
     axes.set_title("Spread: box = middle half, line = median", fontsize=8.5, fontweight="normal")
     axes.grid(axis="y", visible=False)
@@ -177,6 +180,7 @@ def _caption(
         f"{label} by {name}. Left: Tukey box plots. Right: means with {fmt_level(confidence)} "
         f"Student t intervals; dashed line: overall mean. n per level: {counts}. "
         f"{_outlier_note(boxes, beyond_edge)}"
+        + (f" {SHORTENED_NOTE}" if shortened(b.level for b in boxes) else "")
     )
 
 

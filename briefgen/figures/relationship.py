@@ -9,7 +9,19 @@ from __future__ import annotations
 import numpy as np
 
 from briefgen.figures.cross import SERIES_COLOURS, SERIES_MARKERS
-from briefgen.figures.theme import BAND, LINE, MUTED, POINT, Chart, new_figure, themed, to_svg
+from briefgen.figures.theme import (
+    BAND,
+    LINE,
+    MUTED,
+    POINT,
+    SHORTENED_NOTE,
+    Chart,
+    new_figure,
+    short_label,
+    shortened,
+    themed,
+    to_svg,
+)
 from briefgen.numbers import fmt, fmt_count, fmt_level
 from briefgen.stats.regression import RegressionFit
 from briefgen.stats.relationships import GroupSlopes
@@ -116,7 +128,7 @@ def _by_group_chart(
                 level.intercept + level.slope * grid,
                 color=colour,
                 linewidth=2,
-                label=str(level.level),
+                label=short_label(level.level),
             )
         grid = np.array([fit.x_min, fit.x_max])
         axes.plot(
@@ -140,6 +152,7 @@ def _by_group_chart(
             if sample.size >= sample.rows_available
             else f"a seeded random sample of {fmt_count(sample.size)} of the {fmt_count(sample.rows_available)} rows."
         )
+        + (f" {SHORTENED_NOTE}" if shortened(level.level for level in drawn) else "")
     )
     alt = (
         f"Scatter plot of {y_label.lower()} against {x_label.lower()} coloured by {group_label}, "

@@ -7,7 +7,17 @@ is what the chart shows, against a dashed line at the share over all rows.
 
 from __future__ import annotations
 
-from briefgen.figures.theme import ACCENT, LINE, Chart, new_figure, themed, to_svg
+from briefgen.figures.theme import (
+    ACCENT,
+    LINE,
+    SHORTENED_NOTE,
+    Chart,
+    new_figure,
+    short_label,
+    shortened,
+    themed,
+    to_svg,
+)
 from briefgen.numbers import fmt_count, fmt_level, fmt_percent
 from briefgen.stats.groups import GroupResult
 from briefgen.stats.proportions import Share
@@ -41,7 +51,7 @@ def share_chart(
         )
         if overall is not None and overall.share is not None:
             axes.axvline(100 * overall.share, color=ACCENT, linestyle=(0, (4, 2)), linewidth=1.1)
-        axes.set_yticks(positions, [str(s.level) for s in shares])
+        axes.set_yticks(positions, [short_label(s.level) for s in shares])
         axes.set_xlim(0, 100)
         axes.set_xlabel(f"{label}: share of rows that are 1 (%)")
         axes.set_title(
@@ -65,5 +75,6 @@ def share_chart(
         caption=(
             f"{label} by {name}: share of rows that are 1, with {fmt_level(confidence)} Wilson "
             f"score intervals; dashed line: share over all rows. n per level: {counts}."
+            + (f" {SHORTENED_NOTE}" if shortened(s.level for s in shares) else "")
         ),
     )

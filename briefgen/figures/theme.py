@@ -11,6 +11,7 @@ from __future__ import annotations
 import base64
 import io
 import re
+import textwrap
 import warnings
 from contextlib import contextmanager
 from dataclasses import dataclass
@@ -83,6 +84,32 @@ class Chart:
     def data_uri(self) -> str:
         encoded = base64.b64encode(self.svg.encode("utf-8")).decode("ascii")
         return f"data:image/svg+xml;base64,{encoded}"
+
+
+LABEL_LINE_CHARACTERS = 26  # a level name on an axis or in a legend: two lines at most
+LABEL_LINES = 2
+
+
+def short_label(text: str) -> str:
+    """A level name as a chart label: wrapped to two short lines, cut with "…" beyond.
+
+    A 60-character name drawn whole squeezes the panels off the figure; the caption or
+    the table beside the chart gives the name in full.
+    """
+    text = str(text)
+    lines = textwrap.wrap(text, LABEL_LINE_CHARACTERS, break_long_words=True) or [text]
+    if len(lines) > LABEL_LINES:
+        lines = lines[:LABEL_LINES]
+        lines[-1] = lines[-1][: LABEL_LINE_CHARACTERS - 1].rstrip() + "…"
+    return "\n".join(lines)
+
+
+def shortened(texts) -> bool:
+    """Whether any of ``texts`` loses characters as a chart label (for the caption)."""
+    return any(short_label(t).endswith("…") for t in texts)
+
+
+SHORTENED_NOTE = "Long names are shortened in the chart; the table gives them in full."
 
 
 @contextmanager

@@ -15,7 +15,9 @@ from briefgen.present.wording import (
     name_for,
 )
 from briefgen.stats.twoway import CrossTable
+from briefgen.table_fit import fits_across
 from briefgen.tables import (
+    Table,
     cross_table_view,
 )
 
@@ -114,6 +116,16 @@ def cross_section(cross: CrossTable, spec: BriefSpec, words: Wording, family: Fa
         f"{label} by {names[0]} and {names[1]}",
         finding,
         cross_chart(cross, label, decimals, names),
-        # A wide matrix would run off the page; the long form in the appendix has every cell.
-        cross_table_view(cross, words, names) if len(cross.columns) <= MAX_MATRIX_COLUMNS else None,
+        _cross_matrix(cross, words, names),
     )
+
+
+def _cross_matrix(cross: CrossTable, words: Wording, names: tuple[str, str]) -> Table | None:
+    """The two-way matrix with the variable of fewer levels across, if it fits the text block.
+
+    A matrix that would run off the page is left out; the long form in the appendix has every cell.
+    """
+    transpose = len(cross.rows) < len(cross.columns)
+    across = cross.rows if transpose else cross.columns
+    table = cross_table_view(cross, words, names, transpose=transpose)
+    return table if len(across) <= MAX_MATRIX_COLUMNS and fits_across(table) else None
