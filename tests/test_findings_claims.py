@@ -202,3 +202,22 @@ def test_differences_another_group_explains_are_not_claimed(tmp_path):
     assert found["group-farm"].claim == "none"
     assert found["group-farm"].headline == "By farm: differences explained by breed"
     assert found["group-breed"].claim == "difference"
+
+
+def test_differences_mostly_from_another_group_say_so_on_page_one(tmp_path):
+    # Farms differ a little of their own (+1.5 kg on the hill) and a lot through their
+    # breed mix: the claim stands, and its certainty says most of it goes with breed.
+    rng = np.random.default_rng(32)
+    rows = []
+    for farm, mix in {"hill": (0.8, 0.2), "vale": (0.5, 0.5), "moor": (0.2, 0.8)}.items():
+        own = 1.5 if farm == "hill" else 0.0
+        for breed in rng.choice(["heavy", "light"], 400, p=mix):
+            base = {"heavy": 60.0, "light": 40.0}[breed]
+            rows.append((farm, breed, base + own + rng.normal(0, 4)))
+    frame = pd.DataFrame(rows, columns=["farm", "breed", "weight"])
+    stats, doc = brief_for(frame, tmp_path, target="weight", groups=["farm", "breed"])
+    given = stats.crosses[0].interaction.row_given_column
+    assert given.p_value < 0.05 and given.kept < 0.5
+    finding = findings_by_key(doc)["group-farm"]
+    assert finding.claim == "difference"
+    assert "Most of this goes with breed" in finding.certainty

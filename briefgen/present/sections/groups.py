@@ -144,10 +144,11 @@ def _with_confounders(
     if partial:
         other, test = partial[0]
         note = (
-            f"Part of this goes with {other}: allowing for it, {fmt_percent(test.kept)} of the "
-            f"differences by {name} remain ({p_text(test.p_value)})."
+            f"Most of this goes with {other}: allowing for it, only {fmt_percent(test.kept)} of "
+            f"the differences by {name} remain ({p_text(test.p_value)})."
         )
-        return replace(finding, detail=f"{finding.detail} {note}".strip())
+        # On page 1 too: a reader acting on the order should know the other group drives it.
+        return replace(finding, certainty=f"{finding.certainty} {note}")
     return finding
 
 
