@@ -19,6 +19,7 @@ import ibis.expr.types as ir
 from ibis.backends import BaseBackend
 
 from briefgen.config import BriefSpec, EngineSpec
+from briefgen.datatext import engine_clean, excerpt
 from briefgen.errors import ConfigError, DataError
 
 log = logging.getLogger(__name__)
@@ -54,7 +55,12 @@ def open_source(spec: BriefSpec) -> Source:
     if not path.exists():
         raise DataError(f"{label}: data file not found (looked in {path}); check data.path.")
     check_readable_file(path, label, spec.data.format)
-    table = read_table(path, spec.data_format, label, connect(spec.engine))
+    if spec.data_format == "csv":
+        _check_not_other_format(path, label)
+    con = connect(spec.engine)
+    table = read_table(path, spec.data_format, label, con)
+    if spec.data_format == "csv":
+        table = _numbers_as_text(path, table, spec, label, con)
     check_columns(table, spec, label)
     log.info("opened %s with %d columns", label, len(table.columns))
     return Source(table=table, label=label)
@@ -65,8 +71,6 @@ _OTHER_FORMATS = {
     "xlsx": "an Excel workbook",
     "xls": "an Excel workbook",
     "ods": "a spreadsheet",
-    "json": "JSON",
-    "jsonl": "JSON lines",
 }
 
 
@@ -89,27 +93,85 @@ def check_readable_file(path: Path, label: str, declared: str | None) -> None:
     if kind and declared is None:
         raise DataError(
             f"{label}: looks like {kind}, which briefgen does not read; export it as CSV "
-            "(.csv) or Parquet (.parquet), the formats that work."
+            "(.csv), Parquet (.parquet) or JSON (.json, .jsonl), the formats that work."
         )
 
 
+def _check_not_other_format(path: Path, label: str) -> None:
+    """Refuse a file read as CSV whose first bytes say it is something else.
+
+    Read as CSV, a workbook or a Parquet file gives a message about a bad header, and
+    JSON one about a repeated column name; the file's signature says what it is.
+    """
+    try:
+        with open(path, "rb") as stream:
+            head = stream.read(64)
+    except OSError:
+        return
+    start = head.lstrip(b"\xef\xbb\xbf \t\r\n")
+    if head.startswith(b"PK\x03\x04") or head.startswith(b"\xd0\xcf\x11\xe0"):
+        found = "an Excel workbook (or another zip file)"
+        advice = "export it as CSV (.csv) or Parquet (.parquet), the formats that work"
+    elif head.startswith(b"PAR1"):
+        found, advice = "a Parquet file", "set data.format: parquet or name it .parquet"
+    elif start.startswith((b'{"', b"[{", b"[]")) or start.strip() == b"[":
+        found, advice = "JSON", "set data.format: json or name it .json or .jsonl"
+    else:
+        return
+    raise DataError(f"{label}: is read as CSV but looks like {found}; {advice}.")
+
+
 def read_table(
-    path: Path, data_format: str, label: str, con: BaseBackend | None = None
+    path: Path,
+    data_format: str,
+    label: str,
+    con: BaseBackend | None = None,
+    text_columns: tuple[str, ...] = (),
 ) -> ir.Table:
-    """Open a CSV or Parquet file as a lazy engine table; only the schema is read."""
+    """Open a CSV, Parquet or JSON file as a lazy engine table; only the schema is read.
+
+    ``text_columns`` are read from a CSV as text, whatever the sniffer would pick.
+    JSON is an array of objects or one object per line (JSON Lines), as DuckDB's
+    ``read_json`` detects.
+    """
     con = con if con is not None else connect(EngineSpec())
     try:
-        table = con.read_parquet(path) if data_format == "parquet" else con.read_csv(path)
+        if data_format == "parquet":
+            table = con.read_parquet(path)
+        elif data_format == "json":
+            table = con.read_json(path)
+        elif text_columns:
+            table = con.read_csv(path, types=dict.fromkeys(text_columns, "VARCHAR"))
+        else:
+            table = con.read_csv(path)
         table.schema()
     except Exception as exc:  # the engine's own exception types vary by backend
         first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
         raise DataError(
-            f"{label}: cannot be read as {data_format.upper()} ({first}); "
-            "check the file or set data.format."
+            f"{label}: cannot be read as {data_format.upper()} ({excerpt(first, 160)}); "
+            "check the file, or set data.format to csv, parquet or json."
         ) from None
     if data_format == "csv":
         _check_header_names(path, list(table.columns), label)
     return table
+
+
+def _numbers_as_text(
+    path: Path, table: ir.Table, spec: BriefSpec, label: str, con: BaseBackend
+) -> ir.Table:
+    """The CSV again, with the columns named as numbers read as text and parsed by ``numeric``.
+
+    DuckDB's sniffer types a column from its first 20,480 rows: a column of whole
+    numbers with "inf", "NaN" or "NA" further down is typed BIGINT and the first
+    query fails on that row; a column with "NA" in the sample is typed text and
+    refused. Read as text, every such value becomes missing and is counted.
+    """
+    named = [spec.target, *spec.predictors]
+    as_labels = set(spec.groups) | {name for pair in spec.cross or [] for name in pair}
+    if spec.time is not None:
+        as_labels.add(spec.time.column)
+    text = tuple(n for n in dict.fromkeys(named) if n in table.columns and n not in as_labels)
+    return read_table(path, "csv", label, con, text) if text else table
 
 
 def _check_header_names(path: Path, columns: list[str], label: str) -> None:
@@ -167,11 +229,9 @@ def check_columns(table: ir.Table, spec: BriefSpec, label: str) -> None:
             raise DataError(
                 f"{label}: column '{name}' named by '{key}' is empty in every row; check the export."
             )
-        if not schema[name].is_numeric() and table[name].count().to_pyarrow().as_py() == 0:
-            raise DataError(
-                f"{label}: column '{name}' named by '{key}' is empty in every row; check the export."
-            )
-        if not schema[name].is_numeric():
+        if schema[name].is_string():
+            _check_numbers_in_text(table, name, key, label)
+        elif not schema[name].is_numeric():
             raise DataError(
                 f"{label}: column '{name}' named by '{key}' holds {schema[name]}, not numbers; "
                 "name a numeric column."
@@ -181,6 +241,29 @@ def check_columns(table: ir.Table, spec: BriefSpec, label: str) -> None:
     if spec.target in spec.groups or spec.target in spec.predictors:
         raise DataError(
             f"{label}: the target '{spec.target}' is also listed as a group or predictor; remove it there."
+        )
+
+
+def _check_numbers_in_text(table: ir.Table, name: str, key: str, label: str) -> None:
+    """A text column named as numbers: every value a number, inf, NaN or a missing marker."""
+    column = table[name]
+    given = ~is_missing(table, name)
+    not_number = given & column.strip().try_cast(dt.float64).isnull()
+    found = table.aggregate(
+        given=given.sum(),
+        not_number=not_number.sum(),
+        example=ibis.ifelse(not_number, column, ibis.null(dt.string)).min(),
+    )
+    row = found.to_pyarrow().to_pylist()[0]
+    if int(row["given"] or 0) == 0:
+        raise DataError(
+            f"{label}: column '{name}' named by '{key}' is empty in every row; check the export."
+        )
+    if int(row["not_number"] or 0):
+        raise DataError(
+            f"{label}: column '{name}' named by '{key}' holds text, not numbers (one value is "
+            f"'{excerpt(row['example'], 30)}'); name a numeric column, or write missing values "
+            "as empty cells or NA."
         )
 
 
@@ -245,10 +328,47 @@ def check_time_column(table: ir.Table, name: str, label: str) -> None:
         )
 
 
+# Text that means "no value" in a numeric column: pandas' default na_values (the
+# read_csv documentation), compared in lower case, without "nan" and "-nan": those
+# parse as NaN and are counted, like "inf", as values that are not finite.
+MISSING_MARKERS = (
+    "",
+    "#n/a",
+    "#n/a n/a",
+    "#na",
+    "-1.#ind",
+    "-1.#qnan",
+    "1.#ind",
+    "1.#qnan",
+    "<na>",
+    "n/a",
+    "na",
+    "none",
+    "null",
+)
+
+
 def numeric(table: ir.Table, name: str) -> ir.FloatingColumn:
-    """A numeric column as float64, with NaN and infinities treated as missing."""
-    column = table[name].cast(dt.float64)
+    """A numeric column as float64, with NaN and infinities treated as missing.
+
+    A text column (how CSV columns named as numbers are read, see ``open_source``)
+    is parsed here: "inf", "-inf", "NaN" become infinities and NaN, and so missing;
+    missing markers such as "NA" and anything else that is no number become missing.
+    """
+    column = table[name]
+    if column.type().is_string():
+        column = column.strip().try_cast(dt.float64)
+    else:
+        column = column.cast(dt.float64)
     return ibis.ifelse(column.isnan() | column.isinf(), ibis.null(dt.float64), column)
+
+
+def is_missing(table: ir.Table, name: str) -> ir.BooleanColumn:
+    """True where a cell holds no value: empty, or a text missing marker such as "NA"."""
+    column = table[name]
+    if column.type().is_string():
+        return column.isnull() | column.strip().lower().isin(list(MISSING_MARKERS))
+    return column.isnull()
 
 
 def category(table: ir.Table, name: str) -> ir.StringColumn:
@@ -256,8 +376,12 @@ def category(table: ir.Table, name: str) -> ir.StringColumn:
 
     Whole numbers stored as floats (a CSV column of codes with one gap reads as
     float) print as "5", not "5.0": a code's label should look like the code.
+    Text loses its control and bidirectional characters (``datatext.engine_clean``).
     """
     column = table[name]
+    if column.type().is_string():
+        # Control and bidi characters would break the SVG and reorder the finding's numbers.
+        return engine_clean(column)
     if column.type().is_floating():
         whole = column.notnull() & (column == column.round(0)) & (column.abs() < 1e15)
         return ibis.ifelse(whole, column.cast(dt.int64).cast(dt.string), column.cast(dt.string))
