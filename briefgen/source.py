@@ -9,16 +9,20 @@ from __future__ import annotations
 import csv
 import difflib
 import logging
-import os
+import re
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 
+import duckdb
 import ibis
 import ibis.expr.datatypes as dt
 import ibis.expr.types as ir
 from ibis.backends import BaseBackend
 
 from briefgen.config import BriefSpec, EngineSpec
+from briefgen.datafile import check_not_other_format, check_readable_file
 from briefgen.datatext import engine_clean, excerpt
 from briefgen.errors import ConfigError, DataError
 
@@ -56,69 +60,15 @@ def open_source(spec: BriefSpec) -> Source:
         raise DataError(f"{label}: data file not found (looked in {path}); check data.path.")
     check_readable_file(path, label, spec.data.format)
     if spec.data_format == "csv":
-        _check_not_other_format(path, label)
+        check_not_other_format(path, label)
     con = connect(spec.engine)
     table = read_table(path, spec.data_format, label, con)
     if spec.data_format == "csv":
-        table = _numbers_as_text(path, table, spec, label, con)
-    check_columns(table, spec, label)
+        table = _whole_numbers_as_double(path, table, spec, label, con)
+    with reading(label):
+        check_columns(table, spec, label)
     log.info("opened %s with %d columns", label, len(table.columns))
     return Source(table=table, label=label)
-
-
-# Extensions of formats people export and briefgen does not read, with what to do instead.
-_OTHER_FORMATS = {
-    "xlsx": "an Excel workbook",
-    "xls": "an Excel workbook",
-    "ods": "a spreadsheet",
-}
-
-
-def check_readable_file(path: Path, label: str, declared: str | None) -> None:
-    """Only a regular file, inside BRIEFGEN_DATA_ROOTS when set, in a format briefgen reads."""
-    # A device or FIFO would be read until memory runs out, a folder fails obscurely.
-    if not path.is_file():
-        raise DataError(
-            f"{label}: is not a regular file (a folder, device or pipe); point data.path at a "
-            "CSV or Parquet file."
-        )
-    roots = [r for r in os.environ.get("BRIEFGEN_DATA_ROOTS", "").split(os.pathsep) if r]
-    real = path.resolve()
-    if roots and not any(real.is_relative_to(Path(root).resolve()) for root in roots):
-        raise DataError(
-            f"{label}: is outside the data folders BRIEFGEN_DATA_ROOTS allows; move the file "
-            "there or ask whoever set that variable."
-        )
-    kind = _OTHER_FORMATS.get(path.suffix.lower().lstrip("."))
-    if kind and declared is None:
-        raise DataError(
-            f"{label}: looks like {kind}, which briefgen does not read; export it as CSV "
-            "(.csv), Parquet (.parquet) or JSON (.json, .jsonl), the formats that work."
-        )
-
-
-def _check_not_other_format(path: Path, label: str) -> None:
-    """Refuse a file read as CSV whose first bytes say it is something else.
-
-    Read as CSV, a workbook or a Parquet file gives a message about a bad header, and
-    JSON one about a repeated column name; the file's signature says what it is.
-    """
-    try:
-        with open(path, "rb") as stream:
-            head = stream.read(64)
-    except OSError:
-        return
-    start = head.lstrip(b"\xef\xbb\xbf \t\r\n")
-    if head.startswith(b"PK\x03\x04") or head.startswith(b"\xd0\xcf\x11\xe0"):
-        found = "an Excel workbook (or another zip file)"
-        advice = "export it as CSV (.csv) or Parquet (.parquet), the formats that work"
-    elif head.startswith(b"PAR1"):
-        found, advice = "a Parquet file", "set data.format: parquet or name it .parquet"
-    elif start.startswith((b'{"', b"[{", b"[]")) or start.strip() == b"[":
-        found, advice = "JSON", "set data.format: json or name it .json or .jsonl"
-    else:
-        return
-    raise DataError(f"{label}: is read as CSV but looks like {found}; {advice}.")
 
 
 def read_table(
@@ -126,11 +76,9 @@ def read_table(
     data_format: str,
     label: str,
     con: BaseBackend | None = None,
-    text_columns: tuple[str, ...] = (),
 ) -> ir.Table:
     """Open a CSV, Parquet or JSON file as a lazy engine table; only the schema is read.
 
-    ``text_columns`` are read from a CSV as text, whatever the sniffer would pick.
     JSON is an array of objects or one object per line (JSON Lines), as DuckDB's
     ``read_json`` detects.
     """
@@ -140,8 +88,6 @@ def read_table(
             table = con.read_parquet(path)
         elif data_format == "json":
             table = con.read_json(path)
-        elif text_columns:
-            table = con.read_csv(path, types=dict.fromkeys(text_columns, "VARCHAR"))
         else:
             table = con.read_csv(path)
         table.schema()
@@ -156,22 +102,55 @@ def read_table(
     return table
 
 
-def _numbers_as_text(
+def _whole_numbers_as_double(
     path: Path, table: ir.Table, spec: BriefSpec, label: str, con: BaseBackend
 ) -> ir.Table:
-    """The CSV again, with the columns named as numbers read as text and parsed by ``numeric``.
+    """The CSV again, with the whole-number columns named as numbers read as DOUBLE.
 
     DuckDB's sniffer types a column from its first 20,480 rows: a column of whole
-    numbers with "inf", "NaN" or "NA" further down is typed BIGINT and the first
-    query fails on that row; a column with "NA" in the sample is typed text and
-    refused. Read as text, every such value becomes missing and is counted.
+    numbers with "inf" or "NaN" further down is typed BIGINT and the first query
+    fails on that row. Read as DOUBLE, those values parse (and ``numeric`` makes them
+    missing) at no cost; columns typed DOUBLE already parse them, and text columns
+    are parsed by ``numeric``.
     """
     named = [spec.target, *spec.predictors]
     as_labels = set(spec.groups) | {name for pair in spec.cross or [] for name in pair}
     if spec.time is not None:
         as_labels.add(spec.time.column)
-    text = tuple(n for n in dict.fromkeys(named) if n in table.columns and n not in as_labels)
-    return read_table(path, "csv", label, con, text) if text else table
+    schema = table.schema()
+    whole = {
+        name: "DOUBLE"
+        for name in dict.fromkeys(named)
+        if name in schema and name not in as_labels and schema[name].is_integer()
+    }
+    if not whole:
+        return table
+    return con.read_csv(path, types=whole)
+
+
+# DuckDB's message for a value further down a CSV that does not fit the sniffed type.
+_CONVERSION = re.compile(
+    r"CSV Error on Line: (\d+).*?converting column \"(.*?)\"\. "
+    r"Could not convert string \"(.*?)\" to '(\w+)'",
+    re.DOTALL,
+)
+
+
+@contextmanager
+def reading(label: str) -> Iterator[None]:
+    """Turn the engine's error for a value that does not fit its column into a sentence."""
+    try:
+        yield
+    except duckdb.ConversionException as exc:
+        found = _CONVERSION.search(str(exc))
+        if not found:
+            raise
+        line, column, value, kind = found.groups()
+        raise DataError(
+            f"{label}: line {line} holds '{excerpt(value, 30)}' in column '{excerpt(column)}', "
+            f"but the rows before it read as {kind}; write missing values as empty cells, "
+            "or fix that value."
+        ) from None
 
 
 def _check_header_names(path: Path, columns: list[str], label: str) -> None:
@@ -222,6 +201,7 @@ def check_columns(table: ir.Table, spec: BriefSpec, label: str) -> None:
     for key, name in wanted:
         if name not in schema:
             raise _missing_column(name, key, columns, label)
+    text = []
     for key, name in [("target", spec.target)] + [
         (f"predictors[{i}]", p) for i, p in enumerate(spec.predictors)
     ]:
@@ -230,12 +210,14 @@ def check_columns(table: ir.Table, spec: BriefSpec, label: str) -> None:
                 f"{label}: column '{name}' named by '{key}' is empty in every row; check the export."
             )
         if schema[name].is_string():
-            _check_numbers_in_text(table, name, key, label)
+            text.append((key, name))
         elif not schema[name].is_numeric():
             raise DataError(
                 f"{label}: column '{name}' named by '{key}' holds {schema[name]}, not numbers; "
                 "name a numeric column."
             )
+    if text:
+        _check_numbers_in_text(table, text, label)
     if spec.time is not None:
         check_time_column(table, spec.time.column, label)
     if spec.target in spec.groups or spec.target in spec.predictors:
@@ -244,27 +226,31 @@ def check_columns(table: ir.Table, spec: BriefSpec, label: str) -> None:
         )
 
 
-def _check_numbers_in_text(table: ir.Table, name: str, key: str, label: str) -> None:
-    """A text column named as numbers: every value a number, inf, NaN or a missing marker."""
-    column = table[name]
-    given = ~is_missing(table, name)
-    not_number = given & column.strip().try_cast(dt.float64).isnull()
-    found = table.aggregate(
-        given=given.sum(),
-        not_number=not_number.sum(),
-        example=ibis.ifelse(not_number, column, ibis.null(dt.string)).min(),
-    )
-    row = found.to_pyarrow().to_pylist()[0]
-    if int(row["given"] or 0) == 0:
-        raise DataError(
-            f"{label}: column '{name}' named by '{key}' is empty in every row; check the export."
-        )
-    if int(row["not_number"] or 0):
-        raise DataError(
-            f"{label}: column '{name}' named by '{key}' holds text, not numbers (one value is "
-            f"'{excerpt(row['example'], 30)}'); name a numeric column, or write missing values "
-            "as empty cells or NA."
-        )
+def _check_numbers_in_text(table: ir.Table, named: list[tuple[str, str]], label: str) -> None:
+    """Text columns named as numbers: every value a number, inf, NaN or a missing marker.
+
+    ``named`` holds (key, column) pairs; one scan checks them all.
+    """
+    counts = {}
+    for i, (_, name) in enumerate(named):
+        column = table[name]
+        given = ~is_missing(table, name)
+        not_number = given & column.strip().try_cast(dt.float64).isnull()
+        counts[f"given{i}"] = given.sum()
+        counts[f"not_number{i}"] = not_number.sum()
+        counts[f"example{i}"] = ibis.ifelse(not_number, column, ibis.null(dt.string)).min()
+    row = table.aggregate(**counts).to_pyarrow().to_pylist()[0]
+    for i, (key, name) in enumerate(named):
+        if int(row[f"given{i}"] or 0) == 0:
+            raise DataError(
+                f"{label}: column '{name}' named by '{key}' is empty in every row; check the export."
+            )
+        if int(row[f"not_number{i}"] or 0):
+            raise DataError(
+                f"{label}: column '{name}' named by '{key}' holds text, not numbers (one value is "
+                f"'{excerpt(row[f'example{i}'], 30)}'); name a numeric column, or write missing "
+                "values as empty cells or NA."
+            )
 
 
 # Whole numbers in this range in a time column are read as years (1 January of that year).
@@ -351,7 +337,7 @@ MISSING_MARKERS = (
 def numeric(table: ir.Table, name: str) -> ir.FloatingColumn:
     """A numeric column as float64, with NaN and infinities treated as missing.
 
-    A text column (how CSV columns named as numbers are read, see ``open_source``)
+    A text column (a CSV column with "NA" among its first rows reads as text)
     is parsed here: "inf", "-inf", "NaN" become infinities and NaN, and so missing;
     missing markers such as "NA" and anything else that is no number become missing.
     """

@@ -147,27 +147,47 @@ def _accounting(folder: Path) -> dict:
     return json.loads((folder / "out" / "stats.json").read_text())["stats"]["accounting"]
 
 
-@pytest.mark.parametrize("rows", [ROWS, 25_000])  # 25,000: past DuckDB's 20,480-row sniff
-def test_inf_and_nan_as_text_count_as_missing(tmp_path, capsys, rows):
+# 25,000 rows: past the 20,480 rows DuckDB's sniffer reads to type a column. With "NA"
+# among those rows the column reads as text; without, as whole numbers (BIGINT).
+@pytest.mark.parametrize(("rows", "with_na"), [(ROWS, True), (25_000, False), (25_000, True)])
+def test_inf_and_nan_as_text_count_as_missing(tmp_path, capsys, rows, with_na):
     frame = _frame(rows)
-    frame["minutes"] = frame["minutes"].astype(int).astype(object)  # whole numbers: BIGINT
+    frame["minutes"] = frame["minutes"].astype(int).astype(object)  # whole numbers
     late = rows - 10
-    markers = {late - 4: "inf", late - 3: "-inf", late - 2: "NaN", late - 1: "nan", late: "NA"}
+    markers = {late - 3: "inf", late - 2: "-inf", late - 1: "NaN", late: "nan"}
+    if with_na:
+        markers[3] = "NA"
     for row, text in markers.items():
         frame.loc[row, "minutes"] = text
     frame.loc[late, "distance"] = np.inf  # pandas writes it as "inf"
     frame.to_csv(tmp_path / "data.csv", index=False)
-    assert "inf" in (tmp_path / "data.csv").read_text()
     assert main(["--quiet", "build", str(_config(tmp_path))]) == 0
     # Reference: pandas' own reading of the same file (default na_values; "inf" as infinity).
     read = pd.read_csv(tmp_path / "data.csv")["minutes"].astype(float)
     finite = read[np.isfinite(read)]
     counts = _accounting(tmp_path)
-    assert counts["used"]["target"] == len(finite) == rows - 5
-    assert counts["target_not_finite"] == 4 and counts["target_missing"] == 1
-    assert counts["used"]["fit:distance"] == rows - 5  # the same row lacks both
+    assert counts["used"]["target"] == len(finite) == rows - len(markers)
+    assert counts["target_not_finite"] == 4 and counts["target_missing"] == int(with_na)
+    assert counts["used"]["fit:distance"] == rows - len(markers)  # row `late` lacks both
     summary = json.loads((tmp_path / "out" / "stats.json").read_text())["stats"]["overall"]
     assert summary["mean"] == pytest.approx(float(np.mean(finite)), rel=1e-12)  # numpy
+
+
+@pytest.mark.parametrize(("column", "value"), [("minutes", "NA"), ("site", "A")])
+def test_a_late_value_that_breaks_the_column_type_names_line_and_column(
+    published, capsys, column, value
+):
+    """After 20,480 clean rows DuckDB has typed the column; a misfit there is one sentence."""
+    folder, before = published
+    frame = _frame(25_000)
+    frame["minutes"] = frame["minutes"].astype(int)  # DOUBLE once read: "NA" cannot parse
+    frame["site"] = np.arange(25_000) % 3  # codes typed BIGINT
+    frame[column] = frame[column].astype(object)
+    frame.loc[24_000, column] = value
+    frame.to_csv(folder / "late.csv", index=False)
+    _config(folder, "late.csv")
+    line = _refused(capsys, folder, before, 3)
+    assert f"late.csv: line 24002 holds '{value}' in column '{column}'" in line
 
 
 def _svgs(html: str) -> list[str]:
