@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import re
 
+import ibis
 import ibis.expr.types as ir
 
 # C0 controls, DEL and the C1 controls (which no text editor shows either).
@@ -39,7 +40,9 @@ def engine_clean(column: ir.StringColumn) -> ir.StringColumn:
     """
     without_bidi = column.re_replace(f"[{_BIDI}]", "")
     trimmed = without_bidi.re_replace(f"^[{_CONTROL}]+|[{_CONTROL}]+$", "")
-    return trimmed.re_replace(f"[{_CONTROL}]+", " ")
+    cleaned = trimmed.re_replace(f"[{_CONTROL}]+", " ")
+    # One search per row; the three replacements only where there is something to clean.
+    return ibis.ifelse(column.re_search(f"[{_CONTROL}{_BIDI}]"), cleaned, column)
 
 
 def excerpt(text: object, limit: int = 40) -> str:
