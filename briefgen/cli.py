@@ -22,6 +22,7 @@ from rich.text import Text
 
 from briefgen import __version__
 from briefgen.config import load_spec
+from briefgen.datatext import clean
 from briefgen.errors import BriefError, DeliveryError
 
 # sysexits.h: EX_USAGE for a malformed command line, EX_SOFTWARE for an internal error.
@@ -131,7 +132,7 @@ class _StageLines(logging.Handler):
         self.started = time.monotonic()
 
     def emit(self, record: logging.LogRecord) -> None:
-        message = record.getMessage()
+        message = clean(record.getMessage())
         if self.console.is_terminal:
             seconds = time.monotonic() - self.started
             self.console.print(Text(f"{seconds:6.1f} s  {message}", style="dim"), soft_wrap=True)
@@ -142,8 +143,22 @@ class _StageLines(logging.Handler):
 
 
 def _say(console: Console, *parts: str | tuple[str, str]) -> None:
-    """Print plain text; ("text", "style") pieces are styled, never parsed as markup."""
-    console.print(Text.assemble(*parts), soft_wrap=True)
+    """Print plain text; ("text", "style") pieces are styled, never parsed as markup.
+
+    Messages quote data text (column names, levels, paths), so control characters are
+    removed too: an escape sequence in a header must not drive the terminal.
+    """
+    cleaned = [
+        (clean(part[0]), part[1]) if isinstance(part, tuple) else clean(part) for part in parts
+    ]
+    console.print(Text.assemble(*cleaned), soft_wrap=True)
+
+
+class _CleanFormatter(logging.Formatter):
+    """Log lines without the control characters data text may carry."""
+
+    def format(self, record: logging.LogRecord) -> str:
+        return clean(super().format(record))
 
 
 def _build(
@@ -214,6 +229,9 @@ def _configure_logging(args: argparse.Namespace, errors: Console) -> None:
     logging.basicConfig(
         level=logging.INFO if verbose else logging.WARNING, format="%(name)s: %(message)s"
     )
+    for handler in logging.getLogger().handlers:
+        if type(handler) is logging.StreamHandler:  # basicConfig's own, not a test's capture
+            handler.setFormatter(_CleanFormatter("%(name)s: %(message)s"))
     stages = logging.getLogger("briefgen.stage")
     stages.propagate = False
     stages.handlers = [] if getattr(args, "quiet", False) else [_StageLines(errors)]

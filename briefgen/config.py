@@ -52,11 +52,41 @@ class _Strict(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True)
 
 
+# A scheme followed by "//": a database or network address, not a file name.
+_URL = re.compile(r"^([A-Za-z][A-Za-z0-9+.-]*)://")
+_DATABASE_SCHEMES = ("postgres", "mysql", "mariadb", "sqlite", "duckdb", "mssql", "oracle")
+
+
+def refuse_url(path: str) -> str:
+    """Refuse a database URL or network address in ``data.path``, echoing only its scheme.
+
+    The rest of a URL may carry a user name and password, so it is never quoted.
+    """
+    found = _URL.match(path.strip())
+    if not found:
+        return path
+    scheme = found.group(1).lower()
+    if scheme.startswith(_DATABASE_SCHEMES) or "+" in scheme:
+        raise ValueError(
+            f"it is a {scheme}:// database URL, and database sources are not supported yet; "
+            "export the table to a CSV, Parquet or JSON file and name that file here"
+        )
+    raise ValueError(
+        f"it is a {scheme}:// address, and briefgen reads local files only; "
+        "copy the data to a CSV, Parquet or JSON file and name that file here"
+    )
+
+
 class DataSpec(_Strict):
     """Where the data lives. ``format`` defaults to the file's extension."""
 
     path: str
-    format: Literal["csv", "parquet"] | None = None
+    format: Literal["csv", "parquet", "json"] | None = None
+
+    @field_validator("path")
+    @classmethod
+    def _a_file(cls, value: str) -> str:
+        return refuse_url(value)
 
 
 class EngineSpec(_Strict):
@@ -255,6 +285,8 @@ class BriefSpec(_Strict):
         if self.data.format:
             return self.data.format
         suffix = self.data_path.suffix.lower().lstrip(".")
+        if suffix in {"json", "jsonl", "ndjson"}:
+            return "json"
         return "parquet" if suffix in {"parquet", "pq"} else "csv"
 
     @property

@@ -17,7 +17,7 @@ from briefgen.deliver import write_outputs
 from briefgen.document import build_document
 from briefgen.errors import ConfigError
 from briefgen.render import render_html, render_json, render_pdf
-from briefgen.source import open_source
+from briefgen.source import open_source, reading
 from briefgen.stats import BriefStats, compute
 
 log = logging.getLogger(__name__)
@@ -56,7 +56,8 @@ def build_brief(
     stage.info("reading %s", spec.data.path)
     source = open_source(spec)
     stage.info("computing statistics")
-    stats = compute(source, spec)
+    with reading(source.label):
+        stats = compute(source, spec)
     stage.info("rendering %s", ", ".join(spec.output.formats))
     files: dict[str, bytes] = {}
     formats = spec.output.formats

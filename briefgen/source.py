@@ -9,16 +9,21 @@ from __future__ import annotations
 import csv
 import difflib
 import logging
-import os
+import re
+from collections.abc import Iterator
+from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
 
+import duckdb
 import ibis
 import ibis.expr.datatypes as dt
 import ibis.expr.types as ir
 from ibis.backends import BaseBackend
 
 from briefgen.config import BriefSpec, EngineSpec
+from briefgen.datafile import check_not_other_format, check_readable_file
+from briefgen.datatext import engine_clean, excerpt
 from briefgen.errors import ConfigError, DataError
 
 log = logging.getLogger(__name__)
@@ -54,62 +59,98 @@ def open_source(spec: BriefSpec) -> Source:
     if not path.exists():
         raise DataError(f"{label}: data file not found (looked in {path}); check data.path.")
     check_readable_file(path, label, spec.data.format)
-    table = read_table(path, spec.data_format, label, connect(spec.engine))
-    check_columns(table, spec, label)
+    if spec.data_format == "csv":
+        check_not_other_format(path, label)
+    con = connect(spec.engine)
+    table = read_table(path, spec.data_format, label, con)
+    if spec.data_format == "csv":
+        table = _whole_numbers_as_double(path, table, spec, label, con)
+    with reading(label):
+        check_columns(table, spec, label)
     log.info("opened %s with %d columns", label, len(table.columns))
     return Source(table=table, label=label)
 
 
-# Extensions of formats people export and briefgen does not read, with what to do instead.
-_OTHER_FORMATS = {
-    "xlsx": "an Excel workbook",
-    "xls": "an Excel workbook",
-    "ods": "a spreadsheet",
-    "json": "JSON",
-    "jsonl": "JSON lines",
-}
-
-
-def check_readable_file(path: Path, label: str, declared: str | None) -> None:
-    """Only a regular file, inside BRIEFGEN_DATA_ROOTS when set, in a format briefgen reads."""
-    # A device or FIFO would be read until memory runs out, a folder fails obscurely.
-    if not path.is_file():
-        raise DataError(
-            f"{label}: is not a regular file (a folder, device or pipe); point data.path at a "
-            "CSV or Parquet file."
-        )
-    roots = [r for r in os.environ.get("BRIEFGEN_DATA_ROOTS", "").split(os.pathsep) if r]
-    real = path.resolve()
-    if roots and not any(real.is_relative_to(Path(root).resolve()) for root in roots):
-        raise DataError(
-            f"{label}: is outside the data folders BRIEFGEN_DATA_ROOTS allows; move the file "
-            "there or ask whoever set that variable."
-        )
-    kind = _OTHER_FORMATS.get(path.suffix.lower().lstrip("."))
-    if kind and declared is None:
-        raise DataError(
-            f"{label}: looks like {kind}, which briefgen does not read; export it as CSV "
-            "(.csv) or Parquet (.parquet), the formats that work."
-        )
-
-
 def read_table(
-    path: Path, data_format: str, label: str, con: BaseBackend | None = None
+    path: Path,
+    data_format: str,
+    label: str,
+    con: BaseBackend | None = None,
 ) -> ir.Table:
-    """Open a CSV or Parquet file as a lazy engine table; only the schema is read."""
+    """Open a CSV, Parquet or JSON file as a lazy engine table; only the schema is read.
+
+    JSON is an array of objects or one object per line (JSON Lines), as DuckDB's
+    ``read_json`` detects.
+    """
     con = con if con is not None else connect(EngineSpec())
     try:
-        table = con.read_parquet(path) if data_format == "parquet" else con.read_csv(path)
+        if data_format == "parquet":
+            table = con.read_parquet(path)
+        elif data_format == "json":
+            table = con.read_json(path)
+        else:
+            table = con.read_csv(path)
         table.schema()
     except Exception as exc:  # the engine's own exception types vary by backend
         first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
         raise DataError(
-            f"{label}: cannot be read as {data_format.upper()} ({first}); "
-            "check the file or set data.format."
+            f"{label}: cannot be read as {data_format.upper()} ({excerpt(first, 160)}); "
+            "check the file, or set data.format to csv, parquet or json."
         ) from None
     if data_format == "csv":
         _check_header_names(path, list(table.columns), label)
     return table
+
+
+def _whole_numbers_as_double(
+    path: Path, table: ir.Table, spec: BriefSpec, label: str, con: BaseBackend
+) -> ir.Table:
+    """The CSV again, with the whole-number columns named as numbers read as DOUBLE.
+
+    DuckDB's sniffer types a column from its first 20,480 rows: a column of whole
+    numbers with "inf" or "NaN" further down is typed BIGINT and the first query
+    fails on that row. Read as DOUBLE, those values parse (and ``numeric`` makes them
+    missing) at no cost; columns typed DOUBLE already parse them, and text columns
+    are parsed by ``numeric``.
+    """
+    named = [spec.target, *spec.predictors]
+    as_labels = set(spec.groups) | {name for pair in spec.cross or [] for name in pair}
+    if spec.time is not None:
+        as_labels.add(spec.time.column)
+    schema = table.schema()
+    whole = {
+        name: "DOUBLE"
+        for name in dict.fromkeys(named)
+        if name in schema and name not in as_labels and schema[name].is_integer()
+    }
+    if not whole:
+        return table
+    return con.read_csv(path, types=whole)
+
+
+# DuckDB's message for a value further down a CSV that does not fit the sniffed type.
+_CONVERSION = re.compile(
+    r"CSV Error on Line: (\d+).*?converting column \"(.*?)\"\. "
+    r"Could not convert string \"(.*?)\" to '(\w+)'",
+    re.DOTALL,
+)
+
+
+@contextmanager
+def reading(label: str) -> Iterator[None]:
+    """Turn the engine's error for a value that does not fit its column into a sentence."""
+    try:
+        yield
+    except duckdb.ConversionException as exc:
+        found = _CONVERSION.search(str(exc))
+        if not found:
+            raise
+        line, column, value, kind = found.groups()
+        raise DataError(
+            f"{label}: line {line} holds '{excerpt(value, 30)}' in column '{excerpt(column)}', "
+            f"but the rows before it read as {kind}; write missing values as empty cells, "
+            "or fix that value."
+        ) from None
 
 
 def _check_header_names(path: Path, columns: list[str], label: str) -> None:
@@ -160,6 +201,7 @@ def check_columns(table: ir.Table, spec: BriefSpec, label: str) -> None:
     for key, name in wanted:
         if name not in schema:
             raise _missing_column(name, key, columns, label)
+    text = []
     for key, name in [("target", spec.target)] + [
         (f"predictors[{i}]", p) for i, p in enumerate(spec.predictors)
     ]:
@@ -167,21 +209,48 @@ def check_columns(table: ir.Table, spec: BriefSpec, label: str) -> None:
             raise DataError(
                 f"{label}: column '{name}' named by '{key}' is empty in every row; check the export."
             )
-        if not schema[name].is_numeric() and table[name].count().to_pyarrow().as_py() == 0:
-            raise DataError(
-                f"{label}: column '{name}' named by '{key}' is empty in every row; check the export."
-            )
-        if not schema[name].is_numeric():
+        if schema[name].is_string():
+            text.append((key, name))
+        elif not schema[name].is_numeric():
             raise DataError(
                 f"{label}: column '{name}' named by '{key}' holds {schema[name]}, not numbers; "
                 "name a numeric column."
             )
+    if text:
+        _check_numbers_in_text(table, text, label)
     if spec.time is not None:
         check_time_column(table, spec.time.column, label)
     if spec.target in spec.groups or spec.target in spec.predictors:
         raise DataError(
             f"{label}: the target '{spec.target}' is also listed as a group or predictor; remove it there."
         )
+
+
+def _check_numbers_in_text(table: ir.Table, named: list[tuple[str, str]], label: str) -> None:
+    """Text columns named as numbers: every value a number, inf, NaN or a missing marker.
+
+    ``named`` holds (key, column) pairs; one scan checks them all.
+    """
+    counts = {}
+    for i, (_, name) in enumerate(named):
+        column = table[name]
+        given = ~is_missing(table, name)
+        not_number = given & column.strip().try_cast(dt.float64).isnull()
+        counts[f"given{i}"] = given.sum()
+        counts[f"not_number{i}"] = not_number.sum()
+        counts[f"example{i}"] = ibis.ifelse(not_number, column, ibis.null(dt.string)).min()
+    row = table.aggregate(**counts).to_pyarrow().to_pylist()[0]
+    for i, (key, name) in enumerate(named):
+        if int(row[f"given{i}"] or 0) == 0:
+            raise DataError(
+                f"{label}: column '{name}' named by '{key}' is empty in every row; check the export."
+            )
+        if int(row[f"not_number{i}"] or 0):
+            raise DataError(
+                f"{label}: column '{name}' named by '{key}' holds text, not numbers (one value is "
+                f"'{excerpt(row[f'example{i}'], 30)}'); name a numeric column, or write missing "
+                "values as empty cells or NA."
+            )
 
 
 # Whole numbers in this range in a time column are read as years (1 January of that year).
@@ -245,10 +314,47 @@ def check_time_column(table: ir.Table, name: str, label: str) -> None:
         )
 
 
+# Text that means "no value" in a numeric column: pandas' default na_values (the
+# read_csv documentation), compared in lower case, without "nan" and "-nan": those
+# parse as NaN and are counted, like "inf", as values that are not finite.
+MISSING_MARKERS = (
+    "",
+    "#n/a",
+    "#n/a n/a",
+    "#na",
+    "-1.#ind",
+    "-1.#qnan",
+    "1.#ind",
+    "1.#qnan",
+    "<na>",
+    "n/a",
+    "na",
+    "none",
+    "null",
+)
+
+
 def numeric(table: ir.Table, name: str) -> ir.FloatingColumn:
-    """A numeric column as float64, with NaN and infinities treated as missing."""
-    column = table[name].cast(dt.float64)
+    """A numeric column as float64, with NaN and infinities treated as missing.
+
+    A text column (a CSV column with "NA" among its first rows reads as text)
+    is parsed here: "inf", "-inf", "NaN" become infinities and NaN, and so missing;
+    missing markers such as "NA" and anything else that is no number become missing.
+    """
+    column = table[name]
+    if column.type().is_string():
+        column = column.strip().try_cast(dt.float64)
+    else:
+        column = column.cast(dt.float64)
     return ibis.ifelse(column.isnan() | column.isinf(), ibis.null(dt.float64), column)
+
+
+def is_missing(table: ir.Table, name: str) -> ir.BooleanColumn:
+    """True where a cell holds no value: empty, or a text missing marker such as "NA"."""
+    column = table[name]
+    if column.type().is_string():
+        return column.isnull() | column.strip().lower().isin(list(MISSING_MARKERS))
+    return column.isnull()
 
 
 def category(table: ir.Table, name: str) -> ir.StringColumn:
@@ -256,8 +362,12 @@ def category(table: ir.Table, name: str) -> ir.StringColumn:
 
     Whole numbers stored as floats (a CSV column of codes with one gap reads as
     float) print as "5", not "5.0": a code's label should look like the code.
+    Text loses its control and bidirectional characters (``datatext.engine_clean``).
     """
     column = table[name]
+    if column.type().is_string():
+        # Control and bidi characters would break the SVG and reorder the finding's numbers.
+        return engine_clean(column)
     if column.type().is_floating():
         whole = column.notnull() & (column == column.round(0)) & (column.abs() < 1e15)
         return ibis.ifelse(whole, column.cast(dt.int64).cast(dt.string), column.cast(dt.string))

@@ -20,6 +20,8 @@ MAX_PREDICTORS = 3
 
 
 def _data_format(path: Path) -> str:
+    if path.suffix.lower() in {".json", ".jsonl", ".ndjson"}:
+        return "json"
     return "parquet" if path.suffix.lower() in {".parquet", ".pq"} else "csv"
 
 

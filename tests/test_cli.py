@@ -65,7 +65,11 @@ def test_build_writes_the_brief(tmp_path, capsys):
             "column 'minuts' named by 'target' is not in the data; did you mean 'minutes'?",
             3,
         ),
-        ({"target": "label"}, "column 'label' named by 'target' holds string, not numbers", 3),
+        (
+            {"target": "label"},
+            "column 'label' named by 'target' holds text, not numbers (one value is 'x')",
+            3,
+        ),
         ({"groups": "[sitee]"}, "named by 'groups[0]' is not in the data; did you mean 'site'?", 3),
         ({"path": "missing.csv"}, "missing.csv: data file not found", 3),
         ({"formats": "[html, docx]"}, "key 'output.formats.1' is invalid", 2),
@@ -239,12 +243,12 @@ def test_output_dir_takes_date_tokens(tmp_path, monkeypatch):
         ("/dev/zero", "is not a regular file"),
         (".", "is not a regular file"),
         ("book.xlsx", "looks like an Excel workbook"),
-        ("rows.json", "looks like JSON"),
+        ("rows.txt", "is read as CSV but looks like JSON"),
     ],
 )
 def test_only_regular_files_in_known_formats_are_read(tmp_path, capsys, path, expected):
     (tmp_path / "book.xlsx").write_bytes(b"PK\x03\x04")
-    (tmp_path / "rows.json").write_text('{"a": 1}\n')
+    (tmp_path / "rows.txt").write_text('{"a": 1}\n')
     config = _write_case(tmp_path, path=path)
     assert main(["build", str(config)]) == 3
     err = " ".join(capsys.readouterr().err.split())

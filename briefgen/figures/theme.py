@@ -66,6 +66,8 @@ RC = {
     "legend.frameon": False,
     "svg.fonttype": "none",  # keep text as text: searchable and read aloud in the PDF
     "svg.hashsalt": "briefgen",  # stable element ids, so builds are byte-identical
+    # Level names and labels are data text: "$5 to $10" is a price range, not math markup.
+    "text.parse_math": False,
     "figure.dpi": 100,
 }
 
@@ -133,7 +135,12 @@ def to_svg(figure: Figure) -> str:
         warnings.filterwarnings("ignore", message="Glyph .* missing from font")
         figure.savefig(buffer, format="svg", metadata={"Date": None}, dpi=200)
     plt.close(figure)
-    return _stable_ids(buffer.getvalue())
+    return _stable_ids(_XML_INVALID.sub("", buffer.getvalue()))
+
+
+# Characters XML 1.0 forbids; one in a label (a column name typed with an escape in the
+# YAML) would make the SVG unreadable and the figure vanish from the PDF.
+_XML_INVALID = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ufffe\uffff]")
 
 
 _CLIP_ID = re.compile(r'id="(p[0-9a-f]{10})"')

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import ibis.expr.types as ir
 
 from briefgen.config import BriefSpec
+from briefgen.source import is_missing
 from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.frame import AnalysisFrame
 from briefgen.stats.core.usage import Dropped, RowUsage, usage
@@ -59,7 +60,8 @@ def count_rows(
     references: dict,
 ) -> Accounting:
     """One aggregate query over the raw table; the rest from the results' usages."""
-    raw_counts = {"rows": raw.count(), "target_null": raw[spec.target].isnull().sum()}
+    # A missing marker ("NA") in a target read as text is a missing value, like an empty cell.
+    raw_counts = {"rows": raw.count(), "target_null": is_missing(raw, spec.target).sum()}
     raw_counts |= {f"missing_{i}": raw[name].isnull().sum() for i, name in enumerate(raw.columns)}
     raw_row = one_row(raw, raw_counts)
     rows_read = int(raw_row["rows"])
