@@ -221,3 +221,19 @@ def test_differences_mostly_from_another_group_say_so_on_page_one(tmp_path):
     finding = findings_by_key(doc)["group-farm"]
     assert finding.claim == "difference"
     assert "Most of this goes with breed" in finding.certainty
+
+
+def test_a_trend_through_seasons_is_flagged(tmp_path):
+    # Four years of daily values with a yearly swing of ±8 around a slow rise: the
+    # straight line through quarterly means cannot tell the rise from the seasons.
+    rng = np.random.default_rng(40)
+    days = pd.date_range("2020-01-01", "2023-12-31", freq="D")
+    t = np.arange(len(days))
+    frame = pd.DataFrame(
+        {
+            "day": days,
+            "temp": 8 * np.sin(2 * np.pi * t / 365.25) + 0.001 * t + rng.normal(0, 2, len(t)),
+        }
+    )
+    _, doc = brief_for(frame, tmp_path, target="temp", time="day")
+    assert any("runs through seasons" in note for note in doc.cautions)

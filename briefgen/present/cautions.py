@@ -11,6 +11,9 @@ from briefgen.present.wording import (
 )
 from briefgen.stats import BriefStats
 
+# Periods shorter than a year: a series of them over years carries the seasons with it.
+SUB_YEAR = ("day", "week", "month", "quarter")
+
 SMALL_GROUP = (
     30  # common practice, no published source: below ~30 a mean's interval is wide and fragile
 )
@@ -64,6 +67,14 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
     if stats.trend is not None and any(p.partial for p in stats.trend.periods):
         notes.append(
             "The first or last period of the trend is only partly covered by the data; read its value with care."
+        )
+    trend = stats.trend
+    if trend is not None and trend.period in SUB_YEAR and trend.span_days >= 2 * 365:
+        notes.append(
+            f"The trend spans {trend.span_days / 365.25:.0f} years in {trend.period}ly values, so it "
+            "runs through seasons: the straight line does not remove seasonal swings, which widen "
+            "its interval and can hide a steady change. Compare the same "
+            f"{trend.period} across years before concluding there is no trend."
         )
     return notes
 
