@@ -7,9 +7,11 @@ formats or computes a number. Reading order: key findings and cautions first
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 from briefgen.config import BriefSpec
+from briefgen.figures.theme import Chart
 from briefgen.numbers import fmt_count, fmt_level
 from briefgen.present.cautions import cautions
 from briefgen.present.family import Family, build_family, family_sentence
@@ -32,6 +34,19 @@ from briefgen.tables import (
 )
 
 MAX_KEY_FINDINGS = 8
+# A chart this tall still fits under page 1's findings on A4 and Letter (measured on the demo:
+# about 80 mm are left below eight findings and the family sentence).
+LEAD_HEIGHT_IN = 2.4
+_SVG_HEIGHT = re.compile(r'<svg[^>]*\sheight="([0-9.]+)pt"')
+
+
+@dataclass(frozen=True, slots=True)
+class LeadFigure:
+    """The one chart page 1 carries, and why it was picked."""
+
+    key: str
+    chart: Chart
+    caption: str
 
 
 @dataclass(frozen=True, slots=True)
@@ -43,6 +58,7 @@ class Document:
     paper: str
     key_findings: tuple[Finding, ...]
     family_note: str
+    lead: LeadFigure | None
     cautions: tuple[str, ...]
     sections: tuple[Section, ...]
     appendix: tuple[Table, ...]
@@ -141,6 +157,47 @@ def _why_empty(key: str) -> str:
     return "the predictor takes a single value in the rows used (or too few rows have it), so no line can be fitted"
 
 
+def _height_in(chart: Chart) -> float:
+    found = _SVG_HEIGHT.search(chart.svg)
+    return float(found.group(1)) / 72 if found else float("inf")
+
+
+def _short_enough(section: Section) -> Chart | None:
+    """The section's chart if it fits page 1, else its short drawing, else None."""
+    if section.chart is not None and _height_in(section.chart) <= LEAD_HEIGHT_IN:
+        return section.chart
+    return section.short_chart
+
+
+def lead_figure(sections: list[Section]) -> LeadFigure | None:
+    """Page 1's chart, by rule: the surest claim's chart, else the target's histogram.
+
+    The surest claim is the difference, rise or fall with the smallest family-adjusted
+    p-value (earlier on the page wins a tie) whose chart fits under the findings at
+    print size; with no such claim, the distribution of the target over all rows.
+    """
+    claims = [
+        s
+        for s in sections
+        if s.finding is not None
+        and s.finding.claim in SETTLED[1:]
+        and s.finding.p_adjusted is not None
+        and _short_enough(s) is not None
+    ]
+    if claims:
+        chosen = min(claims, key=lambda s: s.finding.p_adjusted)
+        why = (
+            f"The surest claim on this page: {chosen.finding.headline}. Its section has the detail."
+        )
+        return LeadFigure(chosen.key, _short_enough(chosen), why)
+    overall = next((s for s in sections if s.key == "overall" and s.chart is not None), None)
+    if overall is None or _height_in(overall.chart) > LEAD_HEIGHT_IN:
+        return None
+    return LeadFigure(
+        "overall", overall.chart, "No effect is claimed; this is how the target is spread."
+    )
+
+
 def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label: str) -> Document:
     """Assemble findings, charts and tables into the page model."""
     words = wording_for(stats, label_for(spec, spec.target))
@@ -165,6 +222,7 @@ def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label
         paper=spec.output.paper,
         key_findings=tuple(key),
         family_note=family_sentence(family),
+        lead=lead_figure(sections),
         cautions=tuple(not_shown + cautions(stats, words, names)),
         sections=tuple(sections),
         appendix=tuple(appendix),

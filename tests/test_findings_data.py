@@ -66,3 +66,14 @@ def test_page_one_puts_settled_claims_first(demo):
     ]
     assert all(p >= 0 for p in settled + unsettled)
     assert max(settled) < min(unsettled)
+
+
+def test_page_one_carries_the_chart_of_its_surest_claim(demo, tmp_path):
+    # The rule (document.lead_figure): the settled claim with the smallest adjusted p whose
+    # chart fits under the findings; here the distance slope (p adjusted 0).
+    payload, html = demo
+    claims = [f for f in payload["findings"] if f["claim"] in ("difference", "rise", "fall")]
+    surest = min(claims, key=lambda f: f["p_adjusted"])
+    page_one = html.split('id="key-heading"', 1)[1].split("</section>", 1)[0]
+    assert '<figure class="lead">' in page_one
+    assert f'href="#{surest["key"]}"' in page_one.split('<figure class="lead">', 1)[1]

@@ -37,6 +37,7 @@ def relationship_chart(
     confidence: float,
     by_group: GroupSlopes | None = None,
     group_label: str | None = None,
+    height: float = 3.1,
 ) -> Chart | None:
     """Scatter of the sample with the least-squares line and its confidence band.
 
@@ -46,7 +47,7 @@ def relationship_chart(
     """
     if by_group is not None and by_group.group in sample.groups:
         return _by_group_chart(
-            fit, sample, x_label, y_label, by_group, group_label or by_group.group
+            fit, sample, x_label, y_label, by_group, group_label or by_group.group, height + 0.2
         )
     if fit.slope is None or fit.residual_sd is None:
         return None
@@ -56,7 +57,7 @@ def relationship_chart(
     grid = np.linspace(fit.x_min, fit.x_max, 120)
     bands = np.array([fit.band(x, confidence) for x in grid])
     with themed():
-        figure = new_figure(3.1)
+        figure = new_figure(height)
         axes = figure.subplots()
         axes.scatter(
             xs[keep], ys[keep], s=5, color=POINT, alpha=0.35, linewidths=0, rasterized=True
@@ -98,6 +99,7 @@ def _by_group_chart(
     y_label: str,
     slopes: GroupSlopes,
     group_label: str,
+    height: float = 3.3,
 ) -> Chart | None:
     """Points and a line per level of the confounding group; colour and marker both differ."""
     if fit.slope is None:
@@ -107,7 +109,7 @@ def _by_group_chart(
     levels = np.array(sample.groups[slopes.group], dtype=object)
     drawn = [s for s in slopes.levels if s.slope is not None][: len(SERIES_MARKERS)]
     with themed():
-        figure = new_figure(3.3)
+        figure = new_figure(height)
         axes = figure.subplots()
         for index, level in enumerate(drawn):
             colour, marker = SERIES_COLOURS[index], SERIES_MARKERS[index]

@@ -132,12 +132,14 @@ def _named(start: dt.date, period: str) -> str:
     return f"{start:%d %b %Y}" if period in ("day", "week") else period_label(start, period)
 
 
-def trend_chart(trend: Trend, label: str, decimals: int, confidence: float) -> Chart | None:
+def trend_chart(
+    trend: Trend, label: str, decimals: int, confidence: float, height: float = 2.9
+) -> Chart | None:
     """Means per period with intervals, and the fitted straight-line trend."""
     if len(trend.periods) < 2:
         return None
     with themed():
-        figure = new_figure(2.9)
+        figure = new_figure(height)
         axes = figure.subplots()
         draw_trend(axes, trend)
         locator = mdates.AutoDateLocator(minticks=4, maxticks=9)

@@ -18,3 +18,9 @@ class Section:
     finding: Finding | None
     chart: Chart | None
     table: Table | None
+    # The same chart drawn short enough for page 1, where the section's own is too tall.
+    short_chart: Chart | None = None
+
+
+# Height of a chart drawn for page 1: text stays at print size, the plot is shorter.
+SHORT_HEIGHT_IN = 2.3

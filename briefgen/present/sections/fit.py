@@ -15,7 +15,7 @@ from briefgen.numbers import (
 from briefgen.present.direction import confounding
 from briefgen.present.family import Family
 from briefgen.present.finding import Finding
-from briefgen.present.section import Section
+from briefgen.present.section import SHORT_HEIGHT_IN, Section
 from briefgen.present.wording import (
     Wording,
     adjusted_phrase,
@@ -228,7 +228,8 @@ def fit_section(
         x_label,
         family,
     )
-    chart = relationship_chart(
+    by_group, group_label = _confounder(stats, fit, finding, names) or (None, None)
+    common = (
         fit,
         stats.sample,
         x_label,
@@ -236,9 +237,19 @@ def fit_section(
         # The slope gets its own decimals: its scale is target units per predictor unit.
         decimals_for(abs(fit.slope or 0) or None),
         stats.confidence,
-        *_confounder(stats, fit, finding, names),
+        by_group,
+        group_label,
     )
-    return Section(f"fit-{fit.predictor}", f"{label} and {x_label}", finding, chart, None)
+    claimed = finding is not None and finding.claim in ("rise", "fall")
+    short = relationship_chart(*common, height=SHORT_HEIGHT_IN) if claimed else None
+    return Section(
+        f"fit-{fit.predictor}",
+        f"{label} and {x_label}",
+        finding,
+        relationship_chart(*common),
+        None,
+        short,
+    )
 
 
 def _confounder(stats: BriefStats, fit: RegressionFit, finding, names: dict[str, str]) -> tuple:

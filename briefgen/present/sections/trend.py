@@ -8,7 +8,7 @@ from briefgen.numbers import (
 )
 from briefgen.present.family import Family
 from briefgen.present.finding import Finding
-from briefgen.present.section import Section
+from briefgen.present.section import SHORT_HEIGHT_IN, Section
 from briefgen.present.wording import (
     Wording,
     points_text,
@@ -69,10 +69,15 @@ def trend_finding(trend: Trend, words: Wording, family: Family) -> Finding | Non
 
 def trend_section(trend: Trend, words: Wording, confidence: float, family: Family) -> Section:
     """The target over time; its period-by-period table goes to the appendix."""
+    finding = trend_finding(trend, words, family)
+    short = None
+    if finding is not None and finding.claim in ("rise", "fall"):
+        short = trend_chart(trend, words.label, words.unit_decimals, confidence, SHORT_HEIGHT_IN)
     return Section(
         "trend",
         f"{words.label} over time",
-        trend_finding(trend, words, family),
+        finding,
         trend_chart(trend, words.label, words.unit_decimals, confidence),
         None,
+        short,
     )
