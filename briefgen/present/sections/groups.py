@@ -61,7 +61,7 @@ def group_finding(
     words: Wording,
     name: str,
     family: Family,
-    others: Sequence[tuple[str, str, AdjustedTest]] = (),
+    others: Sequence[tuple[str, str, AdjustedTest, AdjustedTest]] = (),
 ) -> Finding | None:
     """Which levels are highest and lowest, as far as the adjusted tests separate them.
 
@@ -117,12 +117,16 @@ def _with_confounders(
     finding: Finding,
     name: str,
     words: Wording,
-    others: Sequence[tuple[str, str, AdjustedTest]],
+    others: Sequence[tuple[str, str, AdjustedTest, AdjustedTest]],
     alpha: float,
 ) -> Finding:
-    """Say when another configured group explains this one's differences, wholly or in part."""
-    defined = [(c, n, t) for c, n, t in others if t.p_value is not None and t.kept is not None]
-    for column, other, test in defined:
+    """Say when another configured group explains this one's differences, wholly or in part.
+
+    "In part" is said only when the other group's own differences are not in turn mostly
+    this one's: of two tangled groups, the one that keeps its differences is the driver.
+    """
+    defined = [o for o in others if o[2].p_value is not None and o[2].kept is not None]
+    for column, other, test, _ in defined:
         if test.p_value >= alpha and test.kept < VANISHING:
             text = (
                 f"{finding.text} Once {other} is allowed for, the differences by {name} shrink to "
@@ -140,7 +144,11 @@ def _with_confounders(
                 ci_low=None,
                 ci_high=None,
             )
-    partial = [(n, t) for _, n, t in defined if t.kept < VANISHING]
+    partial = [
+        (n, t)
+        for _, n, t, back in defined
+        if t.kept < VANISHING and (back.kept is None or back.kept >= VANISHING)
+    ]
     if partial:
         other, test = partial[0]
         note = (
@@ -473,14 +481,19 @@ def group_sections(
 
 
 def _adjusted_for_others(stats: BriefStats, spec: BriefSpec, variable: str) -> list[tuple]:
-    """(other column, its name, test of ``variable`` given it) for each two-way table with it."""
+    """(other column, its name, ``variable`` given it, it given ``variable``) per two-way table."""
     found = []
     for cross in stats.crosses:
+        tests = cross.interaction
         if cross.row_variable == variable:
-            other, test = cross.column_variable, cross.interaction.row_given_column
+            other, test, back = (
+                cross.column_variable,
+                tests.row_given_column,
+                tests.column_given_row,
+            )
         elif cross.column_variable == variable:
-            other, test = cross.row_variable, cross.interaction.column_given_row
+            other, test, back = cross.row_variable, tests.column_given_row, tests.row_given_column
         else:
             continue
-        found.append((other, name_for(spec, other), test))
+        found.append((other, name_for(spec, other), test, back))
     return found
