@@ -27,6 +27,16 @@ from briefgen.stats.regression import RegressionFit
 from briefgen.stats.relationships import GroupSlopes
 from briefgen.stats.sample import Sample
 
+# Solid, dashed, dotted, dash-dot and two longer patterns: one per level, beside its colour.
+LEVEL_LINESTYLES = (
+    "-",
+    (0, (5, 2)),
+    (0, (1, 1.5)),
+    (0, (5, 2, 1, 2)),
+    (0, (8, 3)),
+    (0, (3, 1, 1, 1)),
+)
+
 
 def relationship_chart(
     fit: RegressionFit,
@@ -125,11 +135,17 @@ def _by_group_chart(
                 rasterized=True,
             )
             grid = np.array([level.x_min, level.x_max])
+            # A line style and the level's marker at each end as well as a colour, so the
+            # levels stay apart in grayscale and for colour-blind readers.
             axes.plot(
                 grid,
                 level.intercept + level.slope * grid,
                 color=colour,
                 linewidth=2,
+                linestyle=LEVEL_LINESTYLES[index % len(LEVEL_LINESTYLES)],
+                marker=marker,
+                markersize=5,
+                markerfacecolor=colour if index % 2 == 0 else "white",
                 label=short_label(level.level),
             )
         grid = np.array([fit.x_min, fit.x_max])
@@ -138,7 +154,7 @@ def _by_group_chart(
             fit.intercept + fit.slope * grid,
             color=MUTED,
             linewidth=1.2,
-            linestyle=(0, (4, 3)),
+            linestyle=(0, (2, 4)),
             label="all rows",
         )
         axes.set_xlabel(x_label)
@@ -147,7 +163,7 @@ def _by_group_chart(
         svg = to_svg(figure)
     caption = (
         f"{y_label} against {x_label.lower()}, points and lines by {group_label} (colour and "
-        f"marker). Solid lines: least-squares fit within each level; dashed: one line through all "
+        f"marker). Lines: least-squares fit within each level (a style and marker per level); finely dashed: one line through all "
         f"rows, which mixes the levels. Points: "
         + (
             f"all {fmt_count(sample.size)} rows."
