@@ -160,3 +160,17 @@ def test_binary_slopes_and_trends_speak_in_percentage_points(tmp_path):
     finding = next(f for f in payload["findings"] if f["key"] == "fit-x")
     assert finding["estimate"] == pytest.approx(smf.ols("y ~ x", frame).fit().params["x"])
     assert "percentage points" in finding["text"] and "points per unit" in finding["headline"]
+
+
+def test_binary_two_way_departures_are_in_percentage_points(tmp_path):
+    rng = np.random.default_rng(78)
+    g = rng.choice(["a", "b"], N)
+    h = rng.choice(["p", "q"], N)
+    y = (rng.random(N) < 0.3).astype(int)
+    frame = pd.DataFrame({"y": y, "g": g, "h": h})
+    from constructed import brief_for
+
+    _, doc = brief_for(frame, tmp_path, target="y", groups=["g", "h"])
+    finding = next(f for f in doc.findings if f.kind == "cross")
+    assert "points" in finding.text
+    assert not re.search(r"is [+−]0\.\d{3} \(", finding.text)  # never a bare share difference

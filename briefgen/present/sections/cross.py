@@ -13,6 +13,8 @@ from briefgen.present.section import Section
 from briefgen.present.wording import (
     Wording,
     name_for,
+    points_text,
+    share_text,
 )
 from briefgen.stats.twoway import CrossTable
 from briefgen.table_fit import fits_across
@@ -50,12 +52,25 @@ def cross_finding(
         "p_adjusted": family.adjusted(cross.key),
     }
     pair = f"{standout.row} with {standout.column}"
+    # A 0/1 target's cells are shares of 1s: their gaps are percentage points.
+    binary = words.kind == "binary"
+    if binary:
+        excess = f"{points_text(standout.excess)} points"
+
+        def interval_of(low, high):
+            return f"{points_text(low)} to {points_text(high)} points"
+
+        def value_of(v):
+            return share_text(v)
+    else:
+        excess = words.value(standout.excess)
+        excess = excess if excess.startswith("−") else f"+{excess}"
+        interval_of, value_of = words.interval, words.value
     interval = (
-        f"{words.interval(standout.excess_ci_low, standout.excess_ci_high)}, adjusted for the "
+        f"{interval_of(standout.excess_ci_low, standout.excess_ci_high)}, adjusted for the "
         f"{standout.cells_compared} combinations compared"
     )
-    excess = words.value(standout.excess)
-    excess = excess if excess.startswith("−") else f"+{excess}"
+
     small = sum(
         1 for c in cross.cells if c.row is not None and c.column is not None and c.too_small
     )
@@ -70,8 +85,8 @@ def cross_finding(
     }.get(cross.interaction.scale, "")
     if standout.stands_out and family.passes(cross.key):
         text = (
-            f"{pair[:1].upper() + pair[1:]} averages {words.value(standout.mean)} (n = {fmt_count(standout.n)}), {excess} against "
-            f"the {words.value(standout.expected)} that its {row_name} and its {column_name} predict "
+            f"{pair[:1].upper() + pair[1:]} averages {value_of(standout.mean)} (n = {fmt_count(standout.n)}), {excess} against "
+            f"the {value_of(standout.expected)} that its {row_name} and its {column_name} predict "
             f"added together ({words.level_name} interval of the difference {interval})."
         )
         return Finding(
