@@ -53,8 +53,10 @@ class RegressionFit:
     @property
     def slope_p_value(self) -> float | None:
         """Two-sided p of the t test that the slope is 0 (n − 2 df); None without an error."""
-        if self.slope is None or not self.slope_se or self.n < 3:
-            return None if self.slope_se is None else (0.0 if self.slope else 1.0)
+        if self.slope is None or self.slope_se is None:
+            return None
+        if self.slope_se == 0:  # an exact line: any slope but 0 is certain
+            return 0.0 if self.slope else 1.0
         return float(2 * scipy_stats.t.sf(abs(self.slope / self.slope_se), self.n - 2))
 
     def band(self, x: float, confidence: float) -> tuple[float, float]:

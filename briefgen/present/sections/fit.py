@@ -154,12 +154,15 @@ def _rank_clear(correlation: Correlation, family: Family) -> bool:
     return p is not None and p < family.alpha
 
 
-def _confounded_finding(found, fit, words, x_lower, names, text, data, step, per) -> Finding:
-    """The within-group relation, with the group named as the likely confounder."""
+def _confounded_finding(found, fit, words, x_lower, names, text, data, scale, per) -> Finding:
+    """The within-group relation, with the group named as the likely confounder.
+
+    ``scale`` turns a slope per unit into the printed one (the step, times 100 for points).
+    """
     within = found.slopes
     group = names.get(found.group, found.group)
-    slope = within.common_slope * step
-    low, high = within.common_ci_low * step, within.common_ci_high * step
+    slope = within.common_slope * scale
+    low, high = within.common_ci_low * scale, within.common_ci_high * scale
     d = decimals_for(abs(slope))
     overall = "rises" if fit.slope > 0 else "falls"
     within_text = (

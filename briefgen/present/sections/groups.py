@@ -192,52 +192,7 @@ def _order_finding(
     # "Highest" and "lowest" in the sentence only where the tests support them; otherwise
     # the range is stated, which is true whatever the order.
     ordered = clear and ordering.single_top and ordering.single_bottom
-    if rank and ordered:
-        text = (
-            f"By {name}, values tend to be highest for {high.level} (median {value(high)}) and "
-            f"lowest for {low.level} (median {value(low)}); their means are "
-            f"{words.value(high.mean)} and {words.value(low.mean)}."
-        )
-    elif rank:
-        medians = [s.median for s in usable if s.level in ordering.values]
-        text = (
-            f"By {name}, medians of {words.lower} range from {words.value(min(medians))} to "
-            f"{words.value(max(medians))}; by where their values fall, {high.level} sits highest "
-            f"and {low.level} lowest (means {words.value(high.mean)} and {words.value(low.mean)})."
-        )
-    if rank:
-        if high.median == low.median:
-            text += (
-                " The medians are equal; the rank test compares where all values lie, "
-                "not only the middle one."
-            )
-    else:
-        text = (
-            f"By {name}, {high.level} has the highest mean {words.lower}, {value(high)}, and "
-            f"{low.level} the lowest, {value(low)}: a gap of {words.value(ordering.gap)}"
-            if ordered
-            else f"By {name}, the mean {words.lower} runs from {value(low)} ({low.level}) to "
-            f"{value(high)} ({high.level}): a gap of {words.value(ordering.gap)}"
-        )
-        if clear and ordering.ends_apart and ordering.gap_ci_low is not None:
-            text += (
-                f" ({widened_level(ordering.pair_confidence)} interval "
-                f"{words.interval(ordering.gap_ci_low, ordering.gap_ci_high)}"
-                + (
-                    f", widened because this pair was picked as the most different of {ordering.pairs}"
-                    if ordering.pairs > 1
-                    else ""
-                )
-                + ")"
-            )
-        if (
-            words.scale == "ratio"
-            and low.mean
-            and low.mean > 0
-            and abs(ordering.gap / low.mean) >= 0.005
-        ):
-            text += f", or {fmt_percent(ordering.gap / low.mean)} more"
-        text += "."
+    text = (_rank_text if rank else _mean_text)(ordering, usable, high, low, words, name, ordered)
     estimate = (high.median - low.median) if rank else ordering.gap
     base = {"text": text, "certainty": "", "levels": (high.level, low.level)}
     if not clear:
@@ -263,6 +218,61 @@ def _order_finding(
         estimate=estimate,
         **interval,
     )
+
+
+def _rank_text(ordering, usable, high, low, words: Wording, name: str, ordered: bool) -> str:
+    """The sentence on the rank path: medians quoted, levels placed by mean rank."""
+    if ordered:
+        text = (
+            f"By {name}, values tend to be highest for {high.level} (median "
+            f"{words.value(high.median)}) and lowest for {low.level} (median "
+            f"{words.value(low.median)}); their means are {words.value(high.mean)} and "
+            f"{words.value(low.mean)}."
+        )
+    else:
+        medians = [s.median for s in usable if s.level in ordering.values]
+        text = (
+            f"By {name}, medians of {words.lower} range from {words.value(min(medians))} to "
+            f"{words.value(max(medians))}; by where their values fall, {high.level} sits highest "
+            f"and {low.level} lowest (means {words.value(high.mean)} and {words.value(low.mean)})."
+        )
+    if high.median == low.median:
+        text += (
+            " The medians are equal; the rank test compares where all values lie, "
+            "not only the middle one."
+        )
+    return text
+
+
+def _mean_text(ordering, usable, high, low, words: Wording, name: str, ordered: bool) -> str:
+    """The sentence on the means path: the gap, its widened interval when the ends are apart."""
+    gap = words.value(ordering.gap)
+    if ordered:
+        text = (
+            f"By {name}, {high.level} has the highest mean {words.lower}, "
+            f"{words.value(high.mean)}, and {low.level} the lowest, {words.value(low.mean)}: "
+            f"a gap of {gap}"
+        )
+    else:
+        text = (
+            f"By {name}, the mean {words.lower} runs from {words.value(low.mean)} ({low.level}) "
+            f"to {words.value(high.mean)} ({high.level}): a gap of {gap}"
+        )
+    # ends_apart already requires the overall test to pass.
+    if ordering.ends_apart and ordering.gap_ci_low is not None:
+        widened = (
+            f", widened because this pair was picked as the most different of {ordering.pairs}"
+            if ordering.pairs > 1
+            else ""
+        )
+        text += (
+            f" ({widened_level(ordering.pair_confidence)} interval "
+            f"{words.interval(ordering.gap_ci_low, ordering.gap_ci_high)}{widened})"
+        )
+    relative = ordering.gap / low.mean if low.mean and low.mean > 0 else 0.0
+    if words.scale == "ratio" and abs(relative) >= 0.005:
+        text += f", or {fmt_percent(relative)} more"
+    return text + "."
 
 
 def _order_headline(ordering, by_level, value, name, rank) -> tuple[str, str]:
