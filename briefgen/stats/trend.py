@@ -25,6 +25,7 @@ from __future__ import annotations
 import dataclasses
 import datetime as dt
 import logging
+import math
 from typing import TYPE_CHECKING, ClassVar
 
 import ibis.expr.types as ir
@@ -230,6 +231,11 @@ def _midpoint_days(p: PeriodStats, first_time: dt.datetime) -> float:
     return (middle - first_time.replace(tzinfo=None)).total_seconds() / 86_400
 
 
+def _dot(a: np.ndarray, b: np.ndarray) -> float:
+    """Σ a·b correctly rounded, the same on every CPU."""
+    return math.fsum((a * b).tolist())
+
+
 def _period_line(
     days: np.ndarray, offset: float, deviations: np.ndarray, confidence: float
 ) -> RegressionFit:
@@ -239,15 +245,17 @@ def _period_line(
     with a large offset keep their digits; sums are centred (never Σx² − n·x̄²).
     """
     n = len(days)
-    x_mean, deviation_mean = float(np.mean(days)), float(np.mean(deviations))
+    x_mean, deviation_mean = math.fsum(days.tolist()) / n, math.fsum(deviations.tolist()) / n
     dx, dy = days - x_mean, deviations - deviation_mean
-    sxx, sxy, syy = float(dx @ dx), float(dx @ dy), float(dy @ dy)
+    # math.fsum, not a BLAS dot product: BLAS kernels differ by CPU (OPENBLAS_CORETYPE) and
+    # change the last digits, so the same data gave different bytes on different machines.
+    sxx, sxy, syy = _dot(dx, dx), _dot(dx, dy), _dot(dy, dy)
     if n < 2 or sxx <= 0:
         sse = None
     else:
         # Residuals summed directly rather than Syy − slope·Sxy, for accuracy.
         residuals = dy - (sxy / sxx) * dx
-        sse = float(residuals @ residuals)
+        sse = _dot(residuals, residuals)
     return fit_from_sums(
         "days",
         n=n,
