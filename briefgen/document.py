@@ -11,7 +11,7 @@ import re
 from dataclasses import dataclass
 
 from briefgen.config import BriefSpec
-from briefgen.figures.theme import Chart
+from briefgen.figures.theme import LEAD_HEIGHT_IN, Chart
 from briefgen.numbers import fmt_count, fmt_level
 from briefgen.present.cautions import cautions
 from briefgen.present.family import Family, build_family, family_sentence
@@ -34,9 +34,6 @@ from briefgen.tables import (
 )
 
 MAX_KEY_FINDINGS = 8
-# A chart this tall still fits under page 1's findings on A4 and Letter (measured on the demo:
-# about 80 mm are left below eight findings and the family sentence).
-LEAD_HEIGHT_IN = 2.4
 _SVG_HEIGHT = re.compile(r'<svg[^>]*\sheight="([0-9.]+)pt"')
 
 
@@ -159,7 +156,8 @@ def _why_empty(key: str) -> str:
 
 def _height_in(chart: Chart) -> float:
     found = _SVG_HEIGHT.search(chart.svg)
-    return float(found.group(1)) / 72 if found else float("inf")
+    # Rounded: 172.8 pt / 72 is 2.4000000000000004 in floating point, not 2.4.
+    return round(float(found.group(1)) / 72, 6) if found else float("inf")
 
 
 def _short_enough(section: Section) -> Chart | None:
@@ -182,10 +180,10 @@ def lead_figure(sections: list[Section]) -> LeadFigure | None:
         if s.finding is not None
         and s.finding.claim in SETTLED[1:]
         and s.finding.p_adjusted is not None
-        and _short_enough(s) is not None
     ]
-    if claims:
-        chosen = min(claims, key=lambda s: s.finding.p_adjusted)
+    fitting = [s for s in claims if _short_enough(s) is not None]
+    if fitting:
+        chosen = min(fitting, key=lambda s: s.finding.p_adjusted)
         why = (
             f"The surest claim on this page: {chosen.finding.headline}. Its section has the detail."
         )
@@ -193,9 +191,12 @@ def lead_figure(sections: list[Section]) -> LeadFigure | None:
     overall = next((s for s in sections if s.key == "overall" and s.chart is not None), None)
     if overall is None or _height_in(overall.chart) > LEAD_HEIGHT_IN:
         return None
-    return LeadFigure(
-        "overall", overall.chart, "No effect is claimed; this is how the target is spread."
+    why = (
+        "How the target is spread; the charts behind the claims are in their sections."
+        if claims
+        else "No effect is claimed; this is how the target is spread."
     )
+    return LeadFigure("overall", overall.chart, why)
 
 
 def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label: str) -> Document:

@@ -7,7 +7,10 @@ The demo's generator builds in effects by vehicle and district and none by time 
 from __future__ import annotations
 
 import json
+import re
 
+import numpy as np
+import pandas as pd
 import pytest
 
 from briefgen.cli import demo_config_path
@@ -77,3 +80,26 @@ def test_page_one_carries_the_chart_of_its_surest_claim(demo, tmp_path):
     page_one = html.split('id="key-heading"', 1)[1].split("</section>", 1)[0]
     assert '<figure class="lead">' in page_one
     assert f'href="#{surest["key"]}"' in page_one.split('<figure class="lead">', 1)[1]
+
+
+@pytest.mark.parametrize("levels", [5, 10])
+def test_a_group_claim_with_many_levels_still_leads_page_one(tmp_path, levels):
+    # Constructed case: one group whose levels differ by 1 sd steps, nothing else; its chart is
+    # too tall for page 1 at 0.34 in a row, so page 1 carries the same chart with rows closed up.
+    from constructed import brief_for
+
+    from briefgen.document import lead_figure
+    from briefgen.figures.theme import COMPACT_ROW_MIN_IN, LEAD_HEIGHT_IN
+
+    rng = np.random.default_rng(7)
+    names = [f"site {chr(65 + i)}" for i in range(levels)]
+    frame = pd.DataFrame({"site": np.repeat(names, 40)})
+    frame["minutes"] = rng.normal(0, 1, len(frame)) + frame["site"].map(names.index)
+    _, doc = brief_for(frame, tmp_path, target="minutes", groups=["site"], predictors=[])
+    lead = lead_figure(list(doc.sections))
+    assert lead is not None and lead.key == "group-site"
+    height = float(re.search(r'<svg[^>]*\sheight="([0-9.]+)pt"', lead.chart.svg).group(1)) / 72
+    assert height <= LEAD_HEIGHT_IN + 1e-9
+    # Every level is still drawn, on rows no closer than the stated minimum.
+    assert all(f">{name}<" in lead.chart.svg for name in names)
+    assert (LEAD_HEIGHT_IN - 0.9) / levels >= COMPACT_ROW_MIN_IN

@@ -13,9 +13,11 @@ from briefgen.figures.theme import (
     INK,
     LINE,
     MUTED,
+    ROW_IN,
     SHORTENED_NOTE,
     Chart,
     new_figure,
+    rows_height,
     short_label,
     shortened,
     themed,
@@ -196,16 +198,25 @@ def _alt(boxes: list[BoxStats], label: str, decimals: int, name: str) -> str:
 
 
 def distribution_chart(
-    group: GroupResult, overall: Summary, label: str, decimals: int, confidence: float, name: str
+    group: GroupResult,
+    overall: Summary,
+    label: str,
+    decimals: int,
+    confidence: float,
+    name: str,
+    row_in: float = ROW_IN,
 ) -> Chart:
-    """Boxes (left) and means with intervals (right) for every level of one group."""
+    """Boxes (left) and means with intervals (right) for every level of one group.
+
+    ``row_in`` closes the rows up for page 1 (see ``theme.compact_row_in``).
+    """
     boxes = list(group.boxes)
     summaries = {s.level: s for s in group.summaries}
     level_summaries = [summaries[b.level] for b in boxes]
     # First level at the top: matplotlib counts positions upwards from the bottom.
     positions = list(range(len(boxes), 0, -1))
     with themed():
-        figure = new_figure(0.9 + 0.34 * max(len(boxes), 2))
+        figure = new_figure(rows_height(len(boxes), row_in))
         left, right = figure.subplots(1, 2, sharey=True, width_ratios=(1.35, 1))
         beyond_edge = _draw_boxes(left, boxes, positions, label)
         _draw_means(right, level_summaries, positions, overall, label, decimals, confidence)

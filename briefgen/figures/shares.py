@@ -10,9 +10,11 @@ from __future__ import annotations
 from briefgen.figures.theme import (
     ACCENT,
     LINE,
+    ROW_IN,
     SHORTENED_NOTE,
     Chart,
     new_figure,
+    rows_height,
     short_label,
     shortened,
     themed,
@@ -24,14 +26,22 @@ from briefgen.stats.proportions import Share
 
 
 def share_chart(
-    group: GroupResult, overall: Share | None, label: str, confidence: float, name: str
+    group: GroupResult,
+    overall: Share | None,
+    label: str,
+    confidence: float,
+    name: str,
+    row_in: float = ROW_IN,
 ) -> Chart:
-    """Dots at each level's share (percent), bars for its Wilson interval."""
+    """Dots at each level's share (percent), bars for its Wilson interval.
+
+    ``row_in`` closes the rows up for page 1 (see ``theme.compact_row_in``).
+    """
     shares = [s for s in group.shares if s.share is not None]
     # First level at the top: matplotlib counts positions upwards from the bottom.
     positions = list(range(len(shares), 0, -1))
     with themed():
-        figure = new_figure(0.9 + 0.34 * max(len(shares), 2))
+        figure = new_figure(rows_height(len(shares), row_in))
         axes = figure.subplots()
         axes.hlines(
             positions,

@@ -9,17 +9,19 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import replace
+from functools import partial
 
 from briefgen.config import BriefSpec
 from briefgen.figures.distribution import distribution_chart
 from briefgen.figures.shares import share_chart
+from briefgen.figures.theme import ROW_IN, Chart, compact_row_in
 from briefgen.numbers import (
     fmt_percent,
     p_text,
 )
 from briefgen.present.direction import VANISHING
 from briefgen.present.family import Family, verdict_test
-from briefgen.present.finding import Finding
+from briefgen.present.finding import SETTLED, Finding
 from briefgen.present.order import Ordering, order_levels
 from briefgen.present.section import Section
 from briefgen.present.wording import (
@@ -458,13 +460,6 @@ def group_sections(
     for group in stats.groups:
         name = name_for(spec, group.variable)
         comparison = stats.comparison(group.variable)
-        chart = (
-            distribution_chart(group, stats.overall, label, decimals, confidence, name)
-            if group.boxes
-            else None
-        )
-        if group.share_comparison is not None:
-            chart = share_chart(group, stats.overall_share, label, confidence, name)
         finding = group_finding(
             group,
             comparison,
@@ -473,6 +468,15 @@ def group_sections(
             family,
             _adjusted_for_others(stats, spec, group.variable),
         )
+        draw = partial(_group_chart, group, stats, label, decimals, confidence, name)
+        chart = draw(ROW_IN)
+        # A claim may lead page 1; a chart too tall for it is drawn again with rows closed up.
+        short = None
+        if chart is not None and finding is not None and finding.claim in SETTLED[1:]:
+            rows = len(group.shares) if group.share_comparison is not None else len(group.boxes)
+            row_in = compact_row_in(rows)
+            if row_in is not None and row_in < ROW_IN:
+                short = draw(row_in)
         sections.append(
             Section(
                 f"group-{group.variable}",
@@ -480,6 +484,7 @@ def group_sections(
                 finding,
                 chart,
                 group_table(group, words, name),
+                short_chart=short,
             )
         )
         if comparison is not None:
@@ -488,6 +493,23 @@ def group_sections(
         elif group.share_comparison is not None:
             pairwise.append(share_pairs_table(group.share_comparison, words, name))
     return sections, pairwise
+
+
+def _group_chart(
+    group: GroupResult,
+    stats: BriefStats,
+    label: str,
+    decimals: int,
+    confidence: float,
+    name: str,
+    row_in: float,
+) -> Chart | None:
+    """Shares for a 0/1 target, else boxes beside means; None when no level has a value."""
+    if group.share_comparison is not None:
+        return share_chart(group, stats.overall_share, label, confidence, name, row_in)
+    if group.boxes:
+        return distribution_chart(group, stats.overall, label, decimals, confidence, name, row_in)
+    return None
 
 
 def _adjusted_for_others(stats: BriefStats, spec: BriefSpec, variable: str) -> list[tuple]:
