@@ -90,9 +90,14 @@ class DataSpec(_Strict):
 
 
 class EngineSpec(_Strict):
-    """Which engine runs the statistics. Only ``source`` reads this."""
+    """Which engine runs the statistics. Only ``source`` reads this.
+
+    ``threads``: engine threads; None (default) uses every core. The statistics give the
+    same bytes on any number (exact sums, ``briefgen.stats.core.exact``).
+    """
 
     backend: Literal["duckdb"] = "duckdb"
+    threads: int | None = Field(default=None, ge=1)
 
 
 class TimeSpec(_Strict):

@@ -256,7 +256,11 @@ def compare_groups(
     welch, undefined_reason, (test, statistic, df1, df2, p_value) = _overall_welch(
         tested, pairwise, notes
     )
-    skewness = within_level_skewness(levels_table, {s.level: s.mean for s in tested})
+    skewness = within_level_skewness(
+        levels_table,
+        {s.level: s.mean for s in tested},
+        {s.level: (s.min, s.max, s.n) for s in tested},
+    )
     strongly_skewed = skewness is not None and abs(skewness) > STRONG_SKEW
     # Ranks are defined with ties, so the rank test stands in when Welch's cannot run.
     needs_ranks = strongly_skewed or undefined_reason is not None

@@ -3,7 +3,8 @@
 Two engine queries cover every predictor. Pass 1 counts the rows with both
 values and takes the medians of x and y over them. Pass 2 sums deviations from
 those medians (exact on data with a large offset) and, for Spearman's rho, from
-the mean average rank.
+the mean average rank, as exact fixed-point integers (``briefgen.stats.core.exact``),
+so the engine's thread order cannot change a digit; Python centres them exactly.
 
 Spearman's rho is Pearson's r on average ranks. The engine ranks the rows with
 window functions, one window per variable, partitioned by "both values present"
@@ -15,11 +16,13 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from fractions import Fraction
 
 import ibis
 import ibis.expr.types as ir
 from scipy import stats as scipy_stats
 
+from briefgen.stats.core.exact import FixedPoint, exact_sum, value_of
 from briefgen.stats.core.references import median_references
 
 
@@ -121,54 +124,87 @@ def _average_rank(column: ir.NumericColumn, both: ir.BooleanColumn) -> ir.Numeri
     return lowest + (ties - 1) / 2
 
 
+def _value_spread(references: dict, i: int, axis: str) -> float:
+    """Largest |value − median| of predictor i's rows on ``axis`` ("x" or "y"), exactly.
+
+    Float subtraction is monotone, so the extremes are at the min and the max.
+    """
+    reference = references[f"{axis}_ref{i}"]
+    low, high = references[f"{axis}_min{i}"], references[f"{axis}_max{i}"]
+    return max(high - reference, reference - low)
+
+
 def _centred_sums(
     frame: ir.Table, predictors: list[str], references: dict[str, float | int | None]
-) -> dict[str, float]:
+) -> dict[str, Fraction]:
     """Pass 2: centred sums of values and of average ranks for every predictor, in one query.
 
     Values are shifted by the pass-1 medians, which is exact (Sterbenz) and leaves
     the shifted mean within one sd of zero (Mallows 1991); the small remaining
     shift is taken out in :func:`_correlation`. Centring on a mean stored as an
     absolute value would not do: near 1e12 its rounding alone biases r by ~1e-7.
+    The sums are exact (fixed point); deviations of average ranks are multiples of
+    1/2, which the scale keeps exactly.
     """
     y = frame.y
-    columns = {}
+    columns, scales = {}, {}
     for i, column in enumerate(predictors):
         if not references[f"n{i}"]:
             continue
+        n = int(references[f"n{i}"])
         x = frame[column]
         both = x.notnull() & y.notnull()
         # Mean of average ranks over the n used rows is exactly (n + 1)/2.
         rank_centre = (y.count().over(group_by=both) + 1) / 2
+        rank_scale = FixedPoint.fit(n / 2, n)  # |average rank − (n + 1)/2| ≤ (n − 1)/2
+        scales[i] = {
+            "value": (
+                FixedPoint.fit(_value_spread(references, i, "x"), n),
+                FixedPoint.fit(_value_spread(references, i, "y"), n),
+            ),
+            "rank": (rank_scale, rank_scale),
+        }
+        (value_x, value_y), (rank_x, rank_y) = scales[i]["value"], scales[i]["rank"]
         columns |= {
-            f"both{i}": both,
-            f"value_x{i}": x - references[f"x_ref{i}"],
-            f"value_y{i}": y - references[f"y_ref{i}"],
-            f"rank_x{i}": _average_rank(x, both) - rank_centre,
-            f"rank_y{i}": _average_rank(y, both) - rank_centre,
+            f"value_x{i}": value_x.quantise(x - references[f"x_ref{i}"], both),
+            f"value_y{i}": value_y.quantise(y - references[f"y_ref{i}"], both),
+            f"rank_x{i}": rank_x.quantise(_average_rank(x, both) - rank_centre, both),
+            f"rank_y{i}": rank_y.quantise(_average_rank(y, both) - rank_centre, both),
         }
     if not columns:
         return {}
     shifted = frame.select(**columns)
     sums = {}
-    for i in range(len(predictors)):
-        if f"both{i}" not in columns:
-            continue
-        both = shifted[f"both{i}"]
+    for i in scales:
         for kind in ("value", "rank"):
+            # Null outside the rows with both values, so the sums need no mask.
             dx, dy = shifted[f"{kind}_x{i}"], shifted[f"{kind}_y{i}"]
             sums |= {
-                f"{kind}_sx{i}": dx.sum(where=both),
-                f"{kind}_sy{i}": dy.sum(where=both),
-                f"{kind}_sxx{i}": (dx * dx).sum(where=both),
-                f"{kind}_sxy{i}": (dx * dy).sum(where=both),
-                f"{kind}_syy{i}": (dy * dy).sum(where=both),
+                f"{kind}_sx{i}": exact_sum(dx),
+                f"{kind}_sy{i}": exact_sum(dy),
+                f"{kind}_sxx{i}": exact_sum(dx * dx),
+                f"{kind}_sxy{i}": exact_sum(dx * dy),
+                f"{kind}_syy{i}": exact_sum(dy * dy),
             }
-    return shifted.aggregate(**sums).to_pyarrow().to_pylist()[0]
+    totals = shifted.aggregate(**sums).to_pyarrow().to_pylist()[0]
+    exact = {}
+    for i, kinds in scales.items():
+        for kind, (scale_x, scale_y) in kinds.items():
+            exact |= {
+                f"{kind}_sx{i}": value_of(totals[f"{kind}_sx{i}"], scale_x),
+                f"{kind}_sy{i}": value_of(totals[f"{kind}_sy{i}"], scale_y),
+                f"{kind}_sxx{i}": value_of(totals[f"{kind}_sxx{i}"], scale_x, scale_x),
+                f"{kind}_sxy{i}": value_of(totals[f"{kind}_sxy{i}"], scale_x, scale_y),
+                f"{kind}_syy{i}": value_of(totals[f"{kind}_syy{i}"], scale_y, scale_y),
+            }
+    return exact
 
 
-def _correlation(sums: dict[str, float], kind: str, i: int, n: int) -> float | None:
-    """r from shifted sums: S = Σd² − (Σd)²/n removes what is left of the shift."""
+def _correlation(sums: dict[str, Fraction], kind: str, i: int, n: int) -> float | None:
+    """r from exact shifted sums: S = Σd² − (Σd)²/n removes what is left of the shift.
+
+    The centring and r² = Sxy²/(Sxx·Syy) are exact; r rounds once, at the square root.
+    """
     if n < 3:
         return None
     sx, sy = sums[f"{kind}_sx{i}"], sums[f"{kind}_sy{i}"]
@@ -177,5 +213,6 @@ def _correlation(sums: dict[str, float], kind: str, i: int, n: int) -> float | N
     sxy = sums[f"{kind}_sxy{i}"] - sx * sy / n
     if sxx <= 0 or syy <= 0:
         return None
-    # Rounding can push a near-perfect r a hair past ±1.
-    return max(-1.0, min(1.0, sxy / math.sqrt(sxx * syy)))
+    r = math.copysign(math.sqrt(sxy * sxy / (sxx * syy)), sxy)
+    # Only a perfect line reaches ±1 (Cauchy–Schwarz); the square root cannot pass it.
+    return max(-1.0, min(1.0, r))

@@ -26,6 +26,7 @@ import ibis.expr.datatypes as dt
 import ibis.expr.types as ir
 from scipy import stats as scipy_stats
 
+from briefgen.stats.core.exact import DECIMAL, FixedPoint, as_integer, exact_sum, value_of
 from briefgen.stats.welch import holm
 
 logger = logging.getLogger(__name__)
@@ -112,9 +113,10 @@ def rank_sums(levels_table: ir.Table, levels: Sequence[str]) -> RankSums | None:
     )
     doubled = (2 * ranked.lowest + 1 + ranked.ties).cast(dt.int64)
     per_level = ranked.group_by("level").aggregate(n=ranked.count(), doubled=doubled.sum())
-    tie_groups = rows.group_by("y").aggregate(size=rows.count().cast(dt.float64))
-    # float: t³ overflows int64 once a tie group exceeds ~2 million rows.
-    tie_term = ((tie_groups.size**3) - tie_groups.size).sum()
+    tie_groups = rows.group_by("y").aggregate(size=rows.count().cast(DECIMAL))
+    # 38-digit integers: t³ overflows int64 once a tie group exceeds ~2 million rows, and a
+    # float sum of such terms would depend on the engine's thread order.
+    tie_term = exact_sum(tie_groups.size * tie_groups.size * tie_groups.size - tie_groups.size)
     found = {row["level"]: row for row in per_level.to_pyarrow().to_pylist()}
     present = [level for level in levels if level in found]
     if len(present) < 2:
@@ -123,7 +125,7 @@ def rank_sums(levels_table: ir.Table, levels: Sequence[str]) -> RankSums | None:
         levels=tuple(present),
         counts=tuple(int(found[level]["n"]) for level in present),
         doubled_rank_sums=tuple(int(found[level]["doubled"]) for level in present),
-        tie_term=float(tie_term.to_pyarrow().as_py() or 0.0),
+        tie_term=float(as_integer(tie_term.to_pyarrow().as_py())),
     )
 
 
@@ -226,27 +228,47 @@ def lean_on(skewness: float | None, ranks: RankTest | None, *, welch_runs: bool)
     return "rank", f"residuals strongly skewed (|skewness| {abs(skewness):.2f} > 1)"
 
 
-def within_level_skewness(levels_table: ir.Table, means: Mapping[str, float]) -> float | None:
+def within_level_skewness(
+    levels_table: ir.Table,
+    means: Mapping[str, float],
+    extents: Mapping[str, tuple[float, float, int]] | None = None,
+) -> float | None:
     """Sample skewness g1 of the residuals y − (mean of its level), from centred sums.
 
     The level means are joined back to the rows, so the engine only ever raises
-    residuals to powers, never raw values. None with fewer than three values or
-    no spread at all.
+    residuals to powers, never raw values; the powers are summed as exact fixed-point
+    integers (``briefgen.stats.core.exact``), scaled from each level's (min, max, n)
+    in ``extents`` (queried when not given). None with fewer than three values or no
+    spread at all.
     """
     if not means:
         return None
     table = usable_rows(levels_table, list(means))
+    if extents is None:
+        extents = _extents(table)
     level_means = ibis.memtable(
         {"level": list(means), "level_mean": [float(value) for value in means.values()]}
     )
     joined = table.inner_join(level_means, "level")
-    residual = joined.y - joined.level_mean
+    used = [level for level in means if level in extents and extents[level][2]]
+    # Float subtraction is monotone: no residual lies beyond its level's min's or max's.
+    bound = max(
+        (max(extents[k][1] - means[k], means[k] - extents[k][0]) for k in used), default=0.0
+    )
+    rows = sum(extents[k][2] for k in used)
+    # Σr³ as Σ(r²)·r with r² quantised on its own scale: a product of two fixed-point
+    # values keeps the bits of a square (56 at 6,000 rows) where a cube of one would
+    # keep a third of the budget each (37).
+    scale, square_scale = FixedPoint.fit(bound, rows), FixedPoint.fit(bound * bound, rows)
+    deviation = joined.y - joined.level_mean
+    residual = scale.quantise(deviation)
+    square = square_scale.quantise(deviation * deviation)
     sums = (
         joined.aggregate(
             n=joined.count(),
-            s1=residual.sum(),
-            s2=(residual * residual).sum(),
-            s3=(residual * residual * residual).sum(),
+            s1=exact_sum(residual),
+            s2=exact_sum(residual * residual),
+            s3=exact_sum(square * residual),
         )
         .to_pyarrow()
         .to_pylist()[0]
@@ -255,11 +277,18 @@ def within_level_skewness(levels_table: ir.Table, means: Mapping[str, float]) ->
     if n < 3:
         return None
     # The joined means are rounded, so the residuals' own mean d is tiny but not 0;
-    # moments about d from moments about 0: m2 = S2/n − d², m3 = S3/n − 3d·S2/n + 2d³.
-    d = float(sums["s1"]) / n
-    s2, s3 = float(sums["s2"]) / n, float(sums["s3"]) / n
+    # moments about d from moments about 0 (exact): m2 = S2/n − d², m3 = S3/n − 3d·S2/n + 2d³.
+    d = value_of(sums["s1"], scale) / n
+    s2 = value_of(sums["s2"], scale, scale) / n
+    s3 = value_of(sums["s3"], square_scale, scale) / n
     m2 = s2 - d * d
     m3 = s3 - 3 * d * s2 + 2 * d**3
     if m2 <= 0:
         return None
-    return m3 / m2**1.5
+    return float(m3) / float(m2) ** 1.5
+
+
+def _extents(table: ir.Table) -> dict[str, tuple[float, float, int]]:
+    """(min, max, n) of ``y`` per level, for callers without the level summaries."""
+    rows = table.group_by("level").aggregate(low=table.y.min(), high=table.y.max(), n=table.count())
+    return {r["level"]: (r["low"], r["high"], int(r["n"])) for r in rows.to_pyarrow().to_pylist()}

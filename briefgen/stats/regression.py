@@ -1,10 +1,12 @@
 """Ordinary least squares of the target on each predictor, from centred sums.
 
-Four aggregate passes, each one query for all predictors: reference medians (shared
-with the correlations, ``briefgen.stats.core.references``),
-exact means (median-shifted), centred cross-products, and the residual sum of
-squares around the fitted line. Never Σx² − n·x̄² on raw values: on data with a
-large offset that formula loses every significant digit.
+Three aggregate passes, each one query for all predictors: reference medians (shared
+with the correlations, ``briefgen.stats.core.references``), exact means
+(median-shifted), and centred cross-products. Never Σx² − n·x̄² on raw values: on
+data with a large offset that formula loses every significant digit. Every sum is an
+exact fixed-point integer sum (``briefgen.stats.core.exact``), scaled from the
+predictor's and the target's range, so the engine's thread order cannot change a
+digit, and the residual sum of squares Syy − Sxy²/Sxx follows from them exactly.
 """
 
 from __future__ import annotations
@@ -16,6 +18,7 @@ import ibis.expr.types as ir
 from scipy import stats as scipy_stats
 
 from briefgen.stats.core.analysis import one_row
+from briefgen.stats.core.exact import FixedPoint, exact_sum, value_of
 from briefgen.stats.core.references import median_references
 
 
@@ -83,17 +86,43 @@ def _deviations(frame: ir.Table, predictor: str, i: int, refs: dict, means: dict
     return dx, dy, both
 
 
+def _spread(low: float, high: float, reference: float, shift: float = 0.0) -> float:
+    """Largest |(value − reference) − shift| over values in [low, high].
+
+    Float subtraction is monotone, so the extremes are at ``low`` and ``high``, computed
+    exactly as the engine computes each row: an exact fixed-point bound.
+    """
+    return max(abs((high - reference) - shift), abs((low - reference) - shift))
+
+
+def _scales(refs: dict, i: int, means: dict | None = None) -> tuple[FixedPoint, FixedPoint]:
+    """Fixed-point scales of predictor i's x and y deviations (from the references, or centred)."""
+    n = int(refs[f"n{i}"])
+    shift_x = means[f"dx{i}"] if means is not None else 0.0
+    shift_y = means[f"dy{i}"] if means is not None else 0.0
+    x_bound = _spread(refs[f"x_min{i}"], refs[f"x_max{i}"], refs[f"x_ref{i}"], shift_x)
+    y_bound = _spread(refs[f"y_min{i}"], refs[f"y_max{i}"], refs[f"y_ref{i}"], shift_y)
+    return FixedPoint.fit(x_bound, n), FixedPoint.fit(y_bound, n)
+
+
 def _mean_pass(
     frame: ir.Table, predictors: list[str], refs: dict
 ) -> tuple[dict, dict[int, tuple[float, float]]]:
     """Pass 2: mean shifts from the references, and the exact (x̄, ȳ) of each fittable predictor."""
-    means_expr = {}
+    means_expr, scales = {}, {}
     for i, p in enumerate(predictors):
         x, y, both = _columns(frame, p)
         if refs[f"n{i}"]:
-            means_expr[f"dx{i}"] = (x - refs[f"x_ref{i}"]).mean(where=both)
-            means_expr[f"dy{i}"] = (y - refs[f"y_ref{i}"]).mean(where=both)
-    means = one_row(frame, means_expr)
+            scales[i] = scale_x, scale_y = _scales(refs, i)
+            # Null outside the rows with both values: the bounds hold only over those.
+            means_expr[f"dx{i}"] = exact_sum(scale_x.quantise(x - refs[f"x_ref{i}"], both))
+            means_expr[f"dy{i}"] = exact_sum(scale_y.quantise(y - refs[f"y_ref{i}"], both))
+    sums = one_row(frame, means_expr)
+    means = {}
+    for i, (scale_x, scale_y) in scales.items():
+        n = int(refs[f"n{i}"])
+        means[f"dx{i}"] = float(value_of(sums[f"dx{i}"], scale_x) / n)
+        means[f"dy{i}"] = float(value_of(sums[f"dy{i}"], scale_y) / n)
     centre = {
         i: (refs[f"x_ref{i}"] + means[f"dx{i}"], refs[f"y_ref{i}"] + means[f"dy{i}"])
         for i in range(len(predictors))
@@ -105,28 +134,36 @@ def _mean_pass(
 def _sums_pass(
     frame: ir.Table, predictors: list[str], refs: dict, means: dict, centre: dict
 ) -> dict:
-    """Pass 3: centred sums of squares and cross-products Sxx, Sxy, Syy."""
-    sums_expr = {}
+    """Pass 3: centred sums of squares and cross-products Sxx, Sxy, Syy, and the SSE.
+
+    The sums are exact, so Python removes what is left of the (rounded) mean shift and
+    forms the residual sum of squares SSE = Syy − Sxy²/Sxx without cancelling a digit:
+    one rounding each, where summing float residuals in a fourth pass rounded every row.
+    """
+    sums_expr, scales = {}, {}
     for i in centre:
         dx, dy, both = _deviations(frame, predictors[i], i, refs, means)
+        scales[i] = scale_x, scale_y = _scales(refs, i, means)
+        qx, qy = scale_x.quantise(dx, both), scale_y.quantise(dy, both)
         sums_expr |= {
-            f"sxx{i}": (dx * dx).sum(where=both),
-            f"sxy{i}": (dx * dy).sum(where=both),
-            f"syy{i}": (dy * dy).sum(where=both),
+            f"sx{i}": exact_sum(qx),
+            f"sy{i}": exact_sum(qy),
+            f"sxx{i}": exact_sum(qx * qx),
+            f"sxy{i}": exact_sum(qx * qy),
+            f"syy{i}": exact_sum(qy * qy),
         }
-    return one_row(frame, sums_expr)
-
-
-def _residual_pass(
-    frame: ir.Table, predictors: list[str], refs: dict, means: dict, slopes: dict[int, float]
-) -> dict:
-    """Pass 4: residual sum of squares around each fitted line, summed directly for accuracy."""
-    sse_expr = {}
-    for i, slope in slopes.items():
-        dx, dy, both = _deviations(frame, predictors[i], i, refs, means)
-        residual = dy - slope * dx
-        sse_expr[f"sse{i}"] = (residual * residual).sum(where=both)
-    return one_row(frame, sse_expr)
+    sums = one_row(frame, sums_expr)
+    result = {}
+    for i, (scale_x, scale_y) in scales.items():
+        n = int(refs[f"n{i}"])
+        sx, sy = value_of(sums[f"sx{i}"], scale_x), value_of(sums[f"sy{i}"], scale_y)
+        sxx = value_of(sums[f"sxx{i}"], scale_x, scale_x) - sx * sx / n
+        sxy = value_of(sums[f"sxy{i}"], scale_x, scale_y) - sx * sy / n
+        syy = value_of(sums[f"syy{i}"], scale_y, scale_y) - sy * sy / n
+        result |= {f"sxx{i}": float(sxx), f"sxy{i}": float(sxy), f"syy{i}": float(syy)}
+        if sxx > 0:
+            result[f"sse{i}"] = float(syy - sxy * sxy / sxx)
+    return result
 
 
 def fit_lines(
@@ -141,12 +178,6 @@ def fit_lines(
     refs = references if references is not None else median_references(frame, predictors)
     means, centre = _mean_pass(frame, predictors, refs)
     sums = _sums_pass(frame, predictors, refs, means, centre)
-    slopes = {
-        i: sums[f"sxy{i}"] / sums[f"sxx{i}"]
-        for i in centre
-        if refs[f"n{i}"] >= 2 and sums[f"sxx{i}"] and sums[f"sxx{i}"] > 0
-    }
-    sse = _residual_pass(frame, predictors, refs, means, slopes)
     distinct = _distinct_counts(frame, predictors, refs)
     fits = []
     for i, predictor in enumerate(predictors):
@@ -160,7 +191,7 @@ def fit_lines(
                 sxx=sums.get(f"sxx{i}"),
                 sxy=sums.get(f"sxy{i}"),
                 syy=sums.get(f"syy{i}"),
-                sse=sse.get(f"sse{i}"),
+                sse=sums.get(f"sse{i}"),
                 x_min=refs[f"x_min{i}"],
                 x_max=refs[f"x_max{i}"],
                 confidence=confidence,

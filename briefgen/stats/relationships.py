@@ -7,10 +7,11 @@
 * :func:`fit_log_target`: the fit of ln(target) on each predictor, reported in
   the target's own units as a percentage change per unit of the predictor.
 
-Per-level sums take two engine passes in one query: each level's medians, then
+Per-level sums take two engine passes: each level's medians and ranges, then
 sums of deviations from them joined back. Shifting by the median keeps the sums
-of squares exact on data with large offsets (|mean − median| ≤ sd, Mallows 1991);
-the shifted sums are then centred on the exact level means in Python.
+of squares exact on data with large offsets (|mean − median| ≤ sd, Mallows 1991).
+The sums are exact fixed-point integers (``briefgen.stats.core.exact``), scaled per
+level from its range, and are centred on the exact level means in Python.
 """
 
 from __future__ import annotations
@@ -20,9 +21,12 @@ import math
 from dataclasses import dataclass, replace
 from typing import TYPE_CHECKING, ClassVar
 
+import ibis
 import ibis.expr.types as ir
+import pyarrow as pa
 from scipy import stats as scipy_stats
 
+from briefgen.stats.core.exact import FixedPoint, exact_sum, quantise, value_of
 from briefgen.stats.core.references import median_references
 from briefgen.stats.correlation import Correlation, correlate
 from briefgen.stats.regression import RegressionFit, fit_from_sums, fit_lines
@@ -172,34 +176,61 @@ def _level_sums(frame: ir.Table, group_column: str, predictor_column: str) -> li
         y_ref=rows.y.quantile(0.5),
         x_min=rows.x.min(),
         x_max=rows.x.max(),
+        y_min=rows.y.min(),
+        y_max=rows.y.max(),
     )
-    joined = rows.inner_join(reference, "level")
-    dx, dy = joined.x - joined.x_ref, joined.y - joined.y_ref
+    # The medians and ranges come back first: they fix each level's fixed-point scales,
+    # and join back as a small literal table (no second sort per level).
+    references = reference.to_pyarrow()
+    scales = {str(row["level"]): _level_scales(row) for row in references.to_pylist()}
+    order = [scales[str(level)] for level in references["level"].to_pylist()]
+    for axis, name in enumerate(("x_scale", "y_scale")):
+        factors = pa.array([pair[axis].factor for pair in order], pa.float64())
+        references = references.append_column(name, factors)
+    joined = rows.inner_join(ibis.memtable(references), "level")
+    dx = quantise(joined.x - joined.x_ref, joined.x_scale)
+    dy = quantise(joined.y - joined.y_ref, joined.y_scale)
     shifted = joined.group_by(["level", "n", "x_ref", "y_ref", "x_min", "x_max"]).aggregate(
-        sum_dx=dx.sum(),
-        sum_dy=dy.sum(),
-        sum_dxx=(dx * dx).sum(),
-        sum_dxy=(dx * dy).sum(),
-        sum_dyy=(dy * dy).sum(),
+        sum_dx=exact_sum(dx),
+        sum_dy=exact_sum(dy),
+        sum_dxx=exact_sum(dx * dx),
+        sum_dxy=exact_sum(dx * dy),
+        sum_dyy=exact_sum(dy * dy),
     )
     result = []
     for row in sorted(shifted.to_pyarrow().to_pylist(), key=lambda r: str(r["level"])):
-        n, sum_dx, sum_dy = int(row["n"]), row["sum_dx"], row["sum_dy"]
-        # Shifted-data formulas: small corrections, since the median is within one sd of the mean.
+        level = str(row["level"])
+        scale_x, scale_y = scales[level]
+        n = int(row["n"])
+        sum_dx, sum_dy = value_of(row["sum_dx"], scale_x), value_of(row["sum_dy"], scale_y)
+        # Exact centring: the sums are exact, so nothing cancels; one rounding each.
         result.append(
             {
-                "level": str(row["level"]),
+                "level": level,
                 "n": n,
-                "x_mean": row["x_ref"] + sum_dx / n,
-                "y_mean": row["y_ref"] + sum_dy / n,
+                "x_mean": row["x_ref"] + float(sum_dx / n),
+                "y_mean": row["y_ref"] + float(sum_dy / n),
                 "x_min": row["x_min"],
                 "x_max": row["x_max"],
-                "sxx": max(row["sum_dxx"] - sum_dx * sum_dx / n, 0.0),
-                "sxy": row["sum_dxy"] - sum_dx * sum_dy / n,
-                "syy": max(row["sum_dyy"] - sum_dy * sum_dy / n, 0.0),
+                "sxx": float(value_of(row["sum_dxx"], scale_x, scale_x) - sum_dx * sum_dx / n),
+                "sxy": float(value_of(row["sum_dxy"], scale_x, scale_y) - sum_dx * sum_dy / n),
+                "syy": float(value_of(row["sum_dyy"], scale_y, scale_y) - sum_dy * sum_dy / n),
             }
         )
     return result
+
+
+def _level_scales(reference: dict) -> tuple[FixedPoint, FixedPoint]:
+    """Fixed-point scales of one level's x and y deviations from its medians.
+
+    Float subtraction is monotone, so no deviation lies farther out than the min's or
+    the max's: the bounds are exact.
+    """
+    n = int(reference["n"])
+    x_ref, y_ref = reference["x_ref"], reference["y_ref"]
+    x_bound = max(reference["x_max"] - x_ref, x_ref - reference["x_min"])
+    y_bound = max(reference["y_max"] - y_ref, y_ref - reference["y_min"])
+    return FixedPoint.fit(x_bound, n), FixedPoint.fit(y_bound, n)
 
 
 def _level_slope(sums: dict, confidence: float) -> LevelSlope:

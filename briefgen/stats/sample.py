@@ -54,8 +54,14 @@ def draw_sample(
     available = int(usable.count().to_pyarrow().as_py())
     values = ["y", *predictors]
     # Identical rows would share a hash and be taken all together or not at all; numbering
-    # the copies gives each its own key, still deterministic since copies are interchangeable.
-    numbered = usable.mutate(_copy=ibis.row_number().over(group_by=[usable[c] for c in values]))
+    # the copies gives each its own key. Copies are numbered in the order of their groups,
+    # so the numbering is the same on any number of engine threads (copies that also share
+    # their groups are interchangeable).
+    numbered = usable.mutate(
+        _copy=ibis.row_number().over(
+            group_by=[usable[c] for c in values], order_by=[usable[g] for g in groups]
+        )
+    )
     key = ibis.literal(str(seed))
     for name in values:
         key = key + "|" + numbered[name].cast("string").fill_null("")

@@ -22,6 +22,8 @@ import ibis.expr.types as ir
 
 from briefgen.config import BriefSpec
 from briefgen.source import category, numeric, time_values
+from briefgen.stats.core.analysis import one_row
+from briefgen.stats.core.exact import FixedPoint, as_integer, exact_sum, value_of
 
 if TYPE_CHECKING:
     from briefgen.stats.target_kind import TargetKind
@@ -132,18 +134,28 @@ def _distances_from_mean(present: ir.Table, column: str) -> dict[str, float]:
     """|level mean − overall mean| of the target per level with a target value.
 
     The values are shifted by the smallest target value (a data value) before
-    averaging, so means near an offset of 1e12 keep the digits that tell levels apart.
+    averaging, so means near an offset of 1e12 keep the digits that tell levels apart,
+    and summed as exact fixed-point integers (``exact``), so a tie stays a tie on any
+    number of engine threads.
     """
     with_value = present.filter(present.y.notnull())
-    reference = with_value.aggregate(low=with_value.y.min()).to_pyarrow().to_pylist()[0]["low"]
+    extent = one_row(
+        with_value, {"low": with_value.y.min(), "high": with_value.y.max(), "n": with_value.count()}
+    )
+    reference = extent["low"]
     if reference is None:
         return {}
-    shifted = with_value.mutate(d=with_value.y - ibis.literal(reference, dt.float64))
-    means = shifted.group_by(column).aggregate(n=shifted.count(), shift=shifted.d.mean())
-    rows = means.to_pyarrow().to_pylist()
+    scale = FixedPoint.fit(extent["high"] - reference, int(extent["n"]), degree=1)
+    shifted = with_value.mutate(
+        d=scale.quantise(with_value.y - ibis.literal(reference, dt.float64))
+    )
+    sums = shifted.group_by(column).aggregate(n=shifted.count(), total=exact_sum(shifted.d))
+    rows = sums.to_pyarrow().to_pylist()
     total = sum(int(r["n"]) for r in rows)
-    overall = sum(int(r["n"]) * r["shift"] for r in rows) / total
-    return {r[column]: abs(r["shift"] - overall) for r in rows}
+    overall = value_of(sum(as_integer(r["total"]) for r in rows), scale) / total
+    return {
+        r[column]: float(abs(value_of(r["total"], scale) / int(r["n"]) - overall)) for r in rows
+    }
 
 
 def _folded(table: ir.Table, shown: dict[str, ShownLevels], groups: dict[str, str]) -> ir.Table:

@@ -13,7 +13,8 @@ from briefgen.stats.core.analysis import one_row
 
 def median_references(table: ir.Table, predictors: list[str]) -> dict:
     """Per predictor i: rows with both values ``n{i}``, medians ``x_ref{i}``/``y_ref{i}``
-    over them, the range ``x_min{i}``/``x_max{i}``, ``approx_distinct{i}``, an estimate
+    over them, the ranges ``x_min{i}``/``x_max{i}`` and ``y_min{i}``/``y_max{i}`` (they
+    bound the deviations that the exact sums scale), ``approx_distinct{i}``, an estimate
     (HyperLogLog) of how many distinct predictor values those rows take, and
     ``lacking{i}``, rows with a target value but no predictor value.
 
@@ -31,6 +32,8 @@ def median_references(table: ir.Table, predictors: list[str]) -> dict:
             f"y_ref{i}": y.quantile(0.5, where=both),
             f"x_min{i}": x.min(where=both),
             f"x_max{i}": x.max(where=both),
+            f"y_min{i}": y.min(where=both),
+            f"y_max{i}": y.max(where=both),
             f"approx_distinct{i}": x.approx_nunique(where=both),
             f"lacking{i}": (y.notnull() & x.isnull()).sum(),
         }

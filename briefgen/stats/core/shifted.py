@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
+from fractions import Fraction
 from typing import Protocol
 
 from scipy import stats as scipy_stats
@@ -58,17 +59,20 @@ def pooled_mean(summaries: Sequence[Anchored]) -> float:
     return base + weighted / sum(s.n for s in used)
 
 
-def moments_from_shifted(n: int, sum_d: float, sum_d2: float) -> tuple[float, float | None]:
+def moments_from_shifted(
+    n: int, sum_d: Fraction | float, sum_d2: Fraction | float
+) -> tuple[float, float | None]:
     """(mean of the deviations, sd) from sums of deviations d from a data value.
 
-    Centring in Python: S = Σd² − (Σd)²/n, exact enough because the shift keeps Σd
-    small (|mean − median| ≤ sd, Mallows 1991).
+    Centring in Python: S = Σd² − (Σd)²/n. With the exact sums of
+    ``briefgen.stats.core.exact`` (Fractions) it cancels nothing and rounds once; the
+    shift keeps Σd small anyway (|mean − median| ≤ sd, Mallows 1991).
     """
     shift = sum_d / n
     if n < 2:
-        return shift, None
-    centred = max(sum_d2 - sum_d * sum_d / n, 0.0)
-    return shift, math.sqrt(centred / (n - 1))
+        return float(shift), None
+    centred = max(sum_d2 - sum_d * sum_d / n, 0)
+    return float(shift), math.sqrt(centred / (n - 1))
 
 
 def t_quantile(confidence: float, df: float) -> float:

@@ -4,8 +4,9 @@ Pass 1 gets the order statistics (type 7 quantiles, min, max) and counts per key
 Pass 2 joins each row to its key's median and quartiles and sums deviations from
 the median. Shifting by the median keeps the sums of squares exact on data with
 large offsets: because |mean − median| ≤ sd (Mallows 1991), the shifted sum of
-squares is at most twice the centred one, so at most one bit is lost to
-cancellation, however large the offset.
+squares is at most twice the centred one, however large the offset. The sums are
+exact fixed-point integers (``briefgen.stats.core.exact``), scaled per key from
+pass 1's min and max, so the engine's thread order cannot change a digit.
 
 Keys are real columns (a level, a date, or two levels for a two-way cell); a
 missing key value is a key of its own, joined back with IS NOT DISTINCT FROM, so
@@ -20,7 +21,9 @@ from dataclasses import dataclass
 
 import ibis
 import ibis.expr.types as ir
+import pyarrow as pa
 
+from briefgen.stats.core.exact import FixedPoint, exact_sum, quantise, value_of
 from briefgen.stats.core.shifted import moments_from_shifted, t_interval
 
 WHISKER_REACH = 1.5  # Tukey (1977): whiskers reach 1.5 IQR beyond the box.
@@ -136,14 +139,18 @@ def _joined(table: ir.Table, quartiles: ir.Table, keys: Sequence[str]) -> ir.Tab
 def shifted_moments(
     table: ir.Table, quartiles: ir.Table, keys: Sequence[str], axis: tuple[float, float]
 ) -> ir.Table:
-    """Pass 2: sums of deviations from the median, whiskers and outlier counts per key."""
+    """Pass 2: sums of deviations from the median, whiskers and outlier counts per key.
+
+    ``quartiles`` carries each key's fixed-point ``scale`` (2^k, see ``deviation_scale``);
+    ``sum_d`` and ``sum_d2`` are exact integer sums of the scaled deviations.
+    """
     joined = _joined(table, quartiles, keys)
-    deviation = joined.y - joined.median
+    deviation = quantise(joined.y - joined.median, joined.scale)
     reach = WHISKER_REACH * (joined.q3 - joined.q1)
     low_fence, high_fence = joined.q1 - reach, joined.q3 + reach
     return joined.group_by(list(keys)).aggregate(
-        sum_d=deviation.sum(),
-        sum_d2=(deviation * deviation).sum(),
+        sum_d=exact_sum(deviation),
+        sum_d2=exact_sum(deviation * deviation),
         whisker_low=joined.y.min(where=joined.y >= low_fence),
         whisker_high=joined.y.max(where=joined.y <= high_fence),
         outlier_count=(
@@ -152,6 +159,18 @@ def shifted_moments(
         beyond_axis_low=(joined.y < axis[0]).sum(),
         beyond_axis_high=(joined.y > axis[1]).sum(),
     )
+
+
+def deviation_scale(first: dict) -> FixedPoint:
+    """Fixed-point scale of one key's deviations from its median, from pass 1's range.
+
+    Float subtraction is monotone, so no y − median lies farther out than the min's or
+    the max's: the bound is exact and the squares' sum fits 38 digits (``exact``).
+    """
+    if not first["n"] or first["median"] is None:
+        return FixedPoint.fit(0.0, 0)
+    median = first["median"]
+    return FixedPoint.fit(max(first["max"] - median, median - first["min"]), int(first["n"]))
 
 
 def extreme_outliers(
@@ -203,7 +222,15 @@ def summarise(
     pass1 = pass1_arrow.to_pylist()
     # Later passes join this small result back as a literal table, so the engine does not
     # recompute the quantiles (a sort per key) inside every later query.
-    quartiles = ibis.memtable(pass1_arrow.select([*keys, "q1", "median", "q3"]))
+    scales = [deviation_scale(row) for row in pass1]
+    quartiles = ibis.memtable(
+        pass1_arrow.select([*keys, "q1", "median", "q3"]).append_column(
+            "scale", pa.array([scale.factor for scale in scales], pa.float64())
+        )
+    )
+    scale_of = {
+        tuple(row[k] for k in keys): scale for row, scale in zip(pass1, scales, strict=True)
+    }
     axis = axis_range(pass1)
     pass2 = {
         tuple(row[k] for k in keys): row
@@ -215,7 +242,7 @@ def summarise(
         key = tuple(first[k] for k in keys)
         label = key[0] if len(key) == 1 else key
         summary, box = _assemble(
-            label, first, pass2.get(key, {}), extremes.get(key, []), confidence, axis
+            label, first, pass2.get(key, {}), extremes.get(key, []), confidence, axis, scale_of[key]
         )
         summaries[key] = summary
         if box is not None:
@@ -242,13 +269,20 @@ def summarise_levels(
 
 
 def _assemble(
-    level: object, first: dict, second: dict, outliers: list[float], confidence: float, axis
+    level: object,
+    first: dict,
+    second: dict,
+    outliers: list[float],
+    confidence: float,
+    axis,
+    scale: FixedPoint,
 ) -> tuple[Summary, BoxStats | None]:
     rows, n = int(first["rows"]), int(first["n"])
     median = _float(first["median"])
     mean = mean_shift = sd = None
     if n >= 1 and median is not None:
-        mean_shift, sd = moments_from_shifted(n, float(second["sum_d"]), float(second["sum_d2"]))
+        sum_d = value_of(second["sum_d"], scale)
+        mean_shift, sd = moments_from_shifted(n, sum_d, value_of(second["sum_d2"], scale, scale))
         mean = median + mean_shift
     ci_low, ci_high = t_interval(mean, sd, n, confidence)
     summary = Summary(
