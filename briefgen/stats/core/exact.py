@@ -74,7 +74,9 @@ class FixedPoint:
         bits = bits_for(rows, degree)
         if bound == 0:  # every value is 0: any scale is exact
             return cls(bits)
-        _, top = math.frexp(abs(bound))  # |bound| < 2^top
+        mantissa, top = math.frexp(abs(bound))  # |bound| < 2^top
+        if mantissa == 0.5:  # a power of two: |bound| = 2^(top − 1) may scale to 2^bits
+            top -= 1
         return cls(max(LOWEST_EXPONENT, min(HIGHEST_EXPONENT, bits - top)))
 
     @property
@@ -96,7 +98,11 @@ class FixedPoint:
 def quantise(
     value: ir.NumericValue, factor: ir.NumericValue, where: ir.BooleanValue | None = None
 ) -> ir.DecimalValue:
-    """round(value · factor) as a 38-digit integer; ``factor`` may be a per-key column."""
+    """round(value · factor) as a 38-digit integer; ``factor`` may be a per-key column.
+
+    SQL ROUND takes ties away from zero (DuckDB and Spark alike): deterministic on any
+    number of threads, and symmetric, so it adds no bias to a sum of symmetric values.
+    """
     if where is not None:
         value = ibis.ifelse(where, value, ibis.null(value.type()))
     return (value * factor).round().cast(DECIMAL)
