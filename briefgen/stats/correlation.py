@@ -124,16 +124,6 @@ def _average_rank(column: ir.NumericColumn, both: ir.BooleanColumn) -> ir.Numeri
     return lowest + (ties - 1) / 2
 
 
-def _value_spread(references: dict, i: int, axis: str) -> float:
-    """Largest |value − median| of predictor i's rows on ``axis`` ("x" or "y"), exactly.
-
-    Float subtraction is monotone, so the extremes are at the min and the max.
-    """
-    reference = references[f"{axis}_ref{i}"]
-    low, high = references[f"{axis}_min{i}"], references[f"{axis}_max{i}"]
-    return max(high - reference, reference - low)
-
-
 def _centred_sums(
     frame: ir.Table, predictors: list[str], references: dict[str, float | int | None]
 ) -> dict[str, Fraction]:
@@ -158,9 +148,14 @@ def _centred_sums(
         rank_centre = (y.count().over(group_by=both) + 1) / 2
         rank_scale = FixedPoint.fit(n / 2, n)  # |average rank − (n + 1)/2| ≤ (n − 1)/2
         scales[i] = {
-            "value": (
-                FixedPoint.fit(_value_spread(references, i, "x"), n),
-                FixedPoint.fit(_value_spread(references, i, "y"), n),
+            "value": tuple(
+                FixedPoint.around(
+                    references[f"{axis}_ref{i}"],
+                    references[f"{axis}_min{i}"],
+                    references[f"{axis}_max{i}"],
+                    n,
+                )
+                for axis in ("x", "y")
             ),
             "rank": (rank_scale, rank_scale),
         }

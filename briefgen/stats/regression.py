@@ -86,23 +86,15 @@ def _deviations(frame: ir.Table, predictor: str, i: int, refs: dict, means: dict
     return dx, dy, both
 
 
-def _spread(low: float, high: float, reference: float, shift: float = 0.0) -> float:
-    """Largest |(value − reference) − shift| over values in [low, high].
-
-    Float subtraction is monotone, so the extremes are at ``low`` and ``high``, computed
-    exactly as the engine computes each row: an exact fixed-point bound.
-    """
-    return max(abs((high - reference) - shift), abs((low - reference) - shift))
-
-
 def _scales(refs: dict, i: int, means: dict | None = None) -> tuple[FixedPoint, FixedPoint]:
     """Fixed-point scales of predictor i's x and y deviations (from the references, or centred)."""
     n = int(refs[f"n{i}"])
     shift_x = means[f"dx{i}"] if means is not None else 0.0
     shift_y = means[f"dy{i}"] if means is not None else 0.0
-    x_bound = _spread(refs[f"x_min{i}"], refs[f"x_max{i}"], refs[f"x_ref{i}"], shift_x)
-    y_bound = _spread(refs[f"y_min{i}"], refs[f"y_max{i}"], refs[f"y_ref{i}"], shift_y)
-    return FixedPoint.fit(x_bound, n), FixedPoint.fit(y_bound, n)
+    return (
+        FixedPoint.around(refs[f"x_ref{i}"], refs[f"x_min{i}"], refs[f"x_max{i}"], n, shift_x),
+        FixedPoint.around(refs[f"y_ref{i}"], refs[f"y_min{i}"], refs[f"y_max{i}"], n, shift_y),
+    )
 
 
 def _mean_pass(

@@ -182,7 +182,13 @@ def _level_sums(frame: ir.Table, group_column: str, predictor_column: str) -> li
     # The medians and ranges come back first: they fix each level's fixed-point scales,
     # and join back as a small literal table (no second sort per level).
     references = reference.to_pyarrow()
-    scales = {str(row["level"]): _level_scales(row) for row in references.to_pylist()}
+    scales = {
+        str(row["level"]): tuple(
+            FixedPoint.around(row[f"{v}_ref"], row[f"{v}_min"], row[f"{v}_max"], int(row["n"]))
+            for v in ("x", "y")
+        )
+        for row in references.to_pylist()
+    }
     order = [scales[str(level)] for level in references["level"].to_pylist()]
     for axis, name in enumerate(("x_scale", "y_scale")):
         factors = pa.array([pair[axis].factor for pair in order], pa.float64())
@@ -218,19 +224,6 @@ def _level_sums(frame: ir.Table, group_column: str, predictor_column: str) -> li
             }
         )
     return result
-
-
-def _level_scales(reference: dict) -> tuple[FixedPoint, FixedPoint]:
-    """Fixed-point scales of one level's x and y deviations from its medians.
-
-    Float subtraction is monotone, so no deviation lies farther out than the min's or
-    the max's: the bounds are exact.
-    """
-    n = int(reference["n"])
-    x_ref, y_ref = reference["x_ref"], reference["y_ref"]
-    x_bound = max(reference["x_max"] - x_ref, x_ref - reference["x_min"])
-    y_bound = max(reference["y_max"] - y_ref, y_ref - reference["y_min"])
-    return FixedPoint.fit(x_bound, n), FixedPoint.fit(y_bound, n)
 
 
 def _level_slope(sums: dict, confidence: float) -> LevelSlope:

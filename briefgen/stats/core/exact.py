@@ -79,6 +79,18 @@ class FixedPoint:
             top -= 1
         return cls(max(LOWEST_EXPONENT, min(HIGHEST_EXPONENT, bits - top)))
 
+    @classmethod
+    def around(
+        cls, reference: float, low: float, high: float, rows: int, shift: float = 0.0
+    ) -> FixedPoint:
+        """The scale for (value − reference) − shift over ``rows`` values in [low, high].
+
+        Float subtraction is monotone, so no row's deviation, computed by the engine as
+        written, lies beyond those of ``low`` and ``high``: the bound is exact.
+        """
+        bound = max(abs((high - reference) - shift), abs((low - reference) - shift))
+        return cls.fit(bound, rows)
+
     @property
     def factor(self) -> float:
         """2^exponent as a float64 (exact)."""

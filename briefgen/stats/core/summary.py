@@ -162,15 +162,10 @@ def shifted_moments(
 
 
 def deviation_scale(first: dict) -> FixedPoint:
-    """Fixed-point scale of one key's deviations from its median, from pass 1's range.
-
-    Float subtraction is monotone, so no y − median lies farther out than the min's or
-    the max's: the bound is exact and the squares' sum fits 38 digits (``exact``).
-    """
+    """Fixed-point scale of one key's deviations from its median, from pass 1's range."""
     if not first["n"] or first["median"] is None:
         return FixedPoint.fit(0.0, 0)
-    median = first["median"]
-    return FixedPoint.fit(max(first["max"] - median, median - first["min"]), int(first["n"]))
+    return FixedPoint.around(first["median"], first["min"], first["max"], int(first["n"]))
 
 
 def extreme_outliers(
