@@ -270,6 +270,15 @@ class BriefSpec(_Strict):
             raise ValueError("email sends brief.pdf; add pdf to output.formats")
         return value
 
+    @field_validator("compare_with", "checks")
+    @classmethod
+    def _history_needs_stats_json(cls, value, info):
+        # Both read the last run's stats.json; without it every later run would find none.
+        output = info.data.get("output")
+        if value is not None and output is not None and "json" not in output.formats:
+            raise ValueError("it reads the last run's stats.json; add json to output.formats")
+        return value
+
     @field_validator("cross")
     @classmethod
     def _cross_names_groups(cls, value, info):

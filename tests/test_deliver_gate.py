@@ -183,3 +183,30 @@ def test_the_target_missing_limit_is_inclusive():
     at = run_checks(limits, _Stats(100, {"y": 10}, target_missing=10), _previous(1, {}))
     over = run_checks(limits, _Stats(100, {"y": 11}, target_missing=11), _previous(1, {}))
     assert at.passed and not over.passed
+
+
+@pytest.mark.parametrize(
+    ("extra", "formats", "message"),
+    [
+        (
+            "checks:\n  min_rows_ratio: 0.9\n  max_rows_ratio: 0.5\n",
+            "[html, json]",
+            "key 'checks.max_rows_ratio' is invalid: it is below min_rows_ratio (0.9)",
+        ),
+        (
+            "checks:\n  min_rows_ratio: 0.9\n",
+            "[html]",
+            "key 'checks' is invalid: it reads the last run's stats.json; add json",
+        ),
+        ("compare_with: previous\n", "[pdf]", "key 'compare_with' is invalid"),
+        (
+            "delivery:\n  alert: [ops@example.org]\n",
+            "[pdf, json]",
+            "alerts are sent through delivery.email's server; add delivery.email",
+        ),
+    ],
+)
+def test_gate_and_comparison_settings_are_checked_by_key(tmp_path, capsys, extra, formats, message):
+    config = _write_case(tmp_path, extra, formats=formats)
+    assert main(["check", str(config)]) == 2
+    assert message in " ".join(capsys.readouterr().err.split())

@@ -309,3 +309,19 @@ def test_the_method_line_names_the_family_or_a_single_interval(tmp_path):
         in " ".join(three.lines)
     )
     assert "wider than they need be" in " ".join(three.lines)
+
+
+def test_a_zero_one_target_compares_each_level_by_its_share(tmp_path):
+    then = pd.DataFrame({"site": ["north", "south"] * 100, "y": [1, 0] * 50 + [0, 0] * 50})
+    now = then.assign(y=[1, 0] * 50 + [1, 0] * 50)  # north's share goes from 50% to 100%
+    since, text, _, _ = _compare(tmp_path, then, now, groups=["site"])
+    north = next(c for c in since.changes if c.level == "north")
+    south = next(c for c in since.changes if c.level == "south")
+    assert (north.value_then, north.value_now, north.measure) == (0.5, 1.0, "share")
+    assert north.beyond is True and south.beyond is False
+    # Newcombe (1998) at the Bonferroni level over the three shares compared.
+    from briefgen.stats.proportions import newcombe_interval
+
+    expected = newcombe_interval(100, 100, 50, 100, 1 - 0.05 / 3)[1:]
+    assert (north.ci_low, north.ci_high) == pytest.approx(expected)
+    assert "Beyond normal variation: north (site, +50.0 percentage points, interval +" in text
