@@ -325,3 +325,16 @@ def test_a_zero_one_target_compares_each_level_by_its_share(tmp_path):
     expected = newcombe_interval(100, 100, 50, 100, 1 - 0.05 / 3)[1:]
     assert (north.ci_low, north.ci_high) == pytest.approx(expected)
     assert "Beyond normal variation: north (site, +50.0 percentage points, interval +" in text
+
+
+def test_a_stats_json_of_another_shape_is_one_line_not_an_error(tmp_path):
+    frame = pd.DataFrame({"site": ["north", "south"] * 20, "y": _normal(19, 40, 1.0)})
+    *_, stored = _run(tmp_path, frame, "then", groups=["site"])
+    stored["stats"]["groups"] = [{"variable": "site", "summaries": 5}]
+    stored["made_from"]["schema"] = "columns"
+    spec, stats, record, _ = _run(tmp_path, frame, "now", groups=["site"])
+    since = compare_runs(stats, record, PreviousRun("p", stored, None))
+    text = " ".join(since_section(since, wording_for(stats, "Y"), spec, None).lines)
+    assert (
+        text == "No comparison with an earlier brief: p holds values briefgen does not write there."
+    )

@@ -12,7 +12,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from briefgen.config import ChecksSpec
-from briefgen.history.previous import PreviousRun
+from briefgen.history.previous import PreviousRun, value_at
 from briefgen.numbers import fmt, fmt_count, fmt_percent
 from briefgen.stats import BriefStats
 
@@ -53,7 +53,7 @@ def _ratio_checks(spec: ChecksSpec, rows: int, previous: PreviousRun) -> list[Ch
     limits = [item for item in limits if item[1] is not None]
     if not limits:
         return []
-    stored = (previous.stats or {}).get("stats", {}).get("accounting", {}).get("rows_read")
+    stored = value_at(previous.stats, "stats", "accounting", "rows_read")
     if not isinstance(stored, int) or isinstance(stored, bool) or stored <= 0:
         why = previous.reason or "the last run recorded no row count"
         return [
@@ -80,8 +80,8 @@ def _ratio_checks(spec: ChecksSpec, rows: int, previous: PreviousRun) -> list[Ch
 
 def lost_columns(stats: BriefStats, previous: PreviousRun) -> list[str] | None:
     """Columns the last run had with values that are now gone or empty in every row."""
-    old = (previous.stats or {}).get("stats", {}).get("accounting", {})
-    then_missing, then_rows = old.get("missing_by_column"), old.get("rows_read")
+    then_missing = value_at(previous.stats, "stats", "accounting", "missing_by_column")
+    then_rows = value_at(previous.stats, "stats", "accounting", "rows_read")
     if not isinstance(then_missing, dict) or not isinstance(then_rows, int):
         return None
     now = stats.accounting

@@ -27,7 +27,7 @@ import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
-from briefgen.history.previous import PreviousRun
+from briefgen.history.previous import PreviousRun, value_at
 from briefgen.history.record import RunRecord
 from briefgen.stats import BriefStats
 from briefgen.stats.core.summary import Summary
@@ -106,18 +106,6 @@ class SinceLastTime:
         return tuple(c for c in self.changes if c.beyond is not None)
 
 
-def _get(value: object, *path: str | int) -> object:
-    """A nested value of the previous stats.json, or None where the path does not exist."""
-    for step in path:
-        if isinstance(step, int):
-            if not isinstance(value, list) or not -len(value) <= step < len(value):
-                return None
-        elif not isinstance(value, dict):
-            return None
-        value = value[step] if isinstance(step, int) else value.get(step)
-    return value
-
-
 def _number(value: object) -> float | None:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         return None
@@ -147,10 +135,10 @@ class _Point:
 
 
 def _stored_point(item: object, binary: bool) -> _Point | None:
-    n, mean = _count(_get(item, "n")), _number(_get(item, "mean"))
+    n, mean = _count(value_at(item, "n")), _number(value_at(item, "mean"))
     if binary:
-        events = _count(_get(item, "events"))
-        share = _number(_get(item, "share"))
+        events = _count(value_at(item, "events"))
+        share = _number(value_at(item, "share"))
         if events is None and n is not None and mean is not None:
             events = round(mean * n)  # a trend period stores the share as its mean
         if n is None or n == 0 or events is None or events > n:
@@ -161,9 +149,9 @@ def _stored_point(item: object, binary: bool) -> _Point | None:
     return _Point(
         n,
         mean,
-        _number(_get(item, "sd")),
-        _number(_get(item, "median")),
-        _number(_get(item, "mean_shift")),
+        _number(value_at(item, "sd")),
+        _number(value_at(item, "median")),
+        _number(value_at(item, "mean_shift")),
     )
 
 
@@ -200,27 +188,27 @@ def _overall_pair(stats: BriefStats, old: dict, binary: bool) -> list[_Pair]:
     if binary and stats.overall_share is not None:
         share = stats.overall_share
         now = _point(share.n, share.share, events=share.events)
-        then = _stored_point(_get(old, "stats", "overall_share"), True)
+        then = _stored_point(value_at(old, "stats", "overall_share"), True)
     else:
         o = stats.overall
         now = _point(o.n, o.mean, o.sd, o.median, o.mean_shift)
-        then = _stored_point(_get(old, "stats", "overall"), False)
+        then = _stored_point(value_at(old, "stats", "overall"), False)
     return [_Pair("overall", None, None, None, None, then, now)] if now and then else []
 
 
 def _level_pairs(stats: BriefStats, old: dict, binary: bool) -> list[_Pair]:
     pairs = []
     stored = {
-        g.get("variable"): g for g in _get(old, "stats", "groups") or [] if isinstance(g, dict)
+        g.get("variable"): g for g in value_at(old, "stats", "groups") or [] if isinstance(g, dict)
     }
     for group in stats.groups:
         before = stored.get(group.variable)
         if before is None:
             continue
         field = "shares" if binary else "summaries"
-        then_items = {_get(i, "level"): i for i in _get(before, field) or []}
+        then_items = {value_at(i, "level"): i for i in value_at(before, field) or []}
         # The fold holds different levels from run to run; it is never compared.
-        folds = {group.shown.other_label, _get(before, "shown", "other_label")} - {None}
+        folds = {group.shown.other_label, value_at(before, "shown", "other_label")} - {None}
         if binary:
             nows = [(s.level, _point(s.n, s.share, events=s.events)) for s in group.shares]
         else:
@@ -239,39 +227,43 @@ def _level_pairs(stats: BriefStats, old: dict, binary: bool) -> list[_Pair]:
 
 def _trend_pair(stats: BriefStats, old: dict, binary: bool) -> list[_Pair]:
     trend = stats.trend
-    if trend is None or not trend.periods or _get(old, "stats", "trend", "period") != trend.period:
+    if (
+        trend is None
+        or not trend.periods
+        or value_at(old, "stats", "trend", "period") != trend.period
+    ):
         return []
     last = trend.periods[-1]
-    before = _get(old, "stats", "trend", "periods", -1)
+    before = value_at(old, "stats", "trend", "periods", -1)
     events = round(last.mean * last.n) if binary and last.mean is not None else None
     now = _point(last.n, last.mean, last.sd, last.median, last.mean_shift, events)
     then = _stored_point(before, binary)
-    start = _get(before, "start")
+    start = value_at(before, "start")
     if not (now and then and isinstance(start, str)):
         return []
     return [_Pair("trend", None, None, start, last.start.isoformat(), then, now)]
 
 
 def _column_changes(record: RunRecord, old: dict) -> tuple[bool, tuple[ColumnChange, ...]]:
-    stored = _get(old, "made_from", "schema")
+    stored = value_at(old, "made_from", "schema")
     if not isinstance(stored, list):
         return False, ()
-    then = {c["name"]: c for c in stored if isinstance(_get(c, "name"), str)}
+    then = {c["name"]: c for c in stored if isinstance(value_at(c, "name"), str)}
     now = {c.name: c for c in record.schema}
     changes = [ColumnChange(n, "added", None, now[n].kind) for n in now if n not in then]
     changes += [
-        ColumnChange(n, "dropped", _get(then[n], "kind"), None) for n in then if n not in now
+        ColumnChange(n, "dropped", value_at(then[n], "kind"), None) for n in then if n not in now
     ]
     changes += [
-        ColumnChange(n, "retyped", _get(then[n], "kind"), now[n].kind)
+        ColumnChange(n, "retyped", value_at(then[n], "kind"), now[n].kind)
         for n in now
-        if n in then and _get(then[n], "kind") != now[n].kind
+        if n in then and value_at(then[n], "kind") != now[n].kind
     ]
     return True, tuple(changes)
 
 
 def _config_changes(record: RunRecord, old: dict) -> tuple[str, ...]:
-    stored = _get(old, "made_from", "config")
+    stored = value_at(old, "made_from", "config")
     if not isinstance(stored, dict):
         return ()
     return tuple(k for k in NUMBER_KEYS if k in stored and stored[k] != record.config.get(k))
@@ -288,7 +280,7 @@ def _unmatched(stats: BriefStats, old: dict) -> str | None:
     """Why the previous run's numbers cannot be set beside these, or None."""
     if old["target"] != stats.target:
         return f"the last brief was about {old['target']}, this one is about {stats.target}"
-    kind_then = _get(old, "stats", "target_kind", "kind") or "continuous"
+    kind_then = value_at(old, "stats", "target_kind", "kind") or "continuous"
     kind_now = stats.target_kind.kind if stats.target_kind else "continuous"
     if kind_then != kind_now:
         return f"the last brief read the target as {kind_then}, this one as {kind_now}"
@@ -296,12 +288,23 @@ def _unmatched(stats: BriefStats, old: dict) -> str | None:
 
 
 def compare_runs(stats: BriefStats, record: RunRecord, previous: PreviousRun) -> SinceLastTime:
-    """The key numbers of this run beside the previous run's, with Bonferroni-adjusted intervals."""
+    """The key numbers of this run beside the previous run's, with Bonferroni-adjusted intervals.
+
+    A stats.json edited into a shape briefgen never writes is a reason, like a missing one.
+    """
+    try:
+        return _compare(stats, record, previous)
+    except (TypeError, ValueError, AttributeError, KeyError):
+        reason = f"{previous.source} holds values briefgen does not write there"
+        return _unavailable(previous, reason, stats.confidence)
+
+
+def _compare(stats: BriefStats, record: RunRecord, previous: PreviousRun) -> SinceLastTime:
     confidence = stats.confidence
     old = previous.stats
     if old is None:
         return _unavailable(previous, previous.reason or "no earlier brief", confidence)
-    built_on = _get(old, "built_on") if isinstance(_get(old, "built_on"), str) else None
+    built_on = value_at(old, "built_on") if isinstance(value_at(old, "built_on"), str) else None
     reason = _unmatched(stats, old)
     if reason is not None:
         return _unavailable(previous, reason, confidence, built_on)
@@ -311,7 +314,7 @@ def compare_runs(stats: BriefStats, record: RunRecord, previous: PreviousRun) ->
     testable = [p for p in pairs if _interval(p.now, p.then, confidence)[1] is not None]
     adjusted = 1 - (1 - confidence) / max(len(testable), 1)
     changes = tuple(_change(p, adjusted, binary) for p in pairs)
-    rows_then = _count(_get(old, "stats", "accounting", "rows_read"))
+    rows_then = _count(value_at(old, "stats", "accounting", "rows_read"))
     rows = None
     if rows_then is not None:
         rows_now = stats.accounting.rows_read
@@ -319,7 +322,7 @@ def compare_runs(stats: BriefStats, record: RunRecord, previous: PreviousRun) ->
             "rows", "rows", None, None, None, None, rows_then, rows_then, rows_now, rows_now,
             rows_now - rows_then, None, None, None,
         )  # fmt: skip
-    sha_then = _get(old, "made_from", "data", "sha256")
+    sha_then = value_at(old, "made_from", "data", "sha256")
     same = None if not isinstance(sha_then, str) else sha_then == record.data.sha256
     recorded, columns = _column_changes(record, old)
     return SinceLastTime(

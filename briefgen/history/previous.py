@@ -34,6 +34,18 @@ class PreviousRun:
     reason: str | None
 
 
+def value_at(value: object, *path: str | int) -> object:
+    """A nested value of a parsed stats.json, or None where the path does not exist."""
+    for step in path:
+        if isinstance(step, int):
+            if not isinstance(value, list) or not -len(value) <= step < len(value):
+                return None
+        elif not isinstance(value, dict):
+            return None
+        value = value[step] if isinstance(step, int) else value.get(step)
+    return value
+
+
 def _candidate_folders(spec: BriefSpec, folder: Path) -> list[Path]:
     """``folder``, and when it is one of output.dir's dated folders, every other one."""
     folders = [folder]
