@@ -105,7 +105,7 @@ def test_a_passing_gate_publishes_and_mails_the_readers_only(tmp_path, smtp_serv
 
 def test_a_held_brief_says_so_on_page_one(tmp_path, smtp_server):
     controller, _ = smtp_server
-    config = _write_case(tmp_path, _gate_config(controller.port), formats="[html, pdf]")
+    config = _write_case(tmp_path, _gate_config(controller.port), formats="[html, pdf, json]")
     frame = pd.read_csv(tmp_path / "data.csv")
     frame.loc[:9, "minutes"] = None  # 25% of the target missing, over the 10% limit
     frame.to_csv(tmp_path / "data.csv", index=False)

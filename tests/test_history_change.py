@@ -338,3 +338,29 @@ def test_a_stats_json_of_another_shape_is_one_line_not_an_error(tmp_path):
     assert (
         text == "No comparison with an earlier brief: p holds values briefgen does not write there."
     )
+
+
+def test_the_opening_and_method_sentences_name_the_baseline_and_the_interval(tmp_path):
+    frame = pd.DataFrame({"y": _normal(20, 40, 1.0)})
+    _, text, _, _ = _compare(tmp_path, frame, frame)
+    assert text.startswith("Compared with the brief built on 2026-12-01 (then/stats.json).")
+    assert "Welch's interval from each run's n, mean and spread" in text
+    assert "Newcombe" not in text and "did not record its columns" not in text
+    *_, stored = _run(tmp_path, frame, "undated")
+    del stored["built_on"]
+    spec, stats, record, _ = _run(tmp_path, frame, "now")
+    since = compare_runs(stats, record, PreviousRun("old.json", stored, None))
+    section = since_section(since, wording_for(stats, "Y"), spec, None)
+    assert section.lines[0] == "Compared with the brief (old.json)."
+    assert section.table.notes == ("Rows read is a count, stated and not tested.",)
+
+
+def test_the_table_names_the_latest_period_and_says_how_it_was_chosen(tmp_path):
+    then = _trend_frame("2026-01-05", 56, 21)
+    since, _, stats, spec = _compare(tmp_path, then, then, time={"column": "t", "period": "week"})
+    table = since_section(since, wording_for(stats, "Y"), spec, "week").table
+    assert tuple(r[0] for r in table.rows if "week" in r[0]) == ("Latest week (2026-02-23)",)
+    assert "Latest period: this run's last period against the last run's last period." in (
+        table.notes
+    )
+    assert table.header[4] == "97.5% interval"  # two numbers with intervals: 1 − 0.05/2
