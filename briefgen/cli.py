@@ -23,7 +23,7 @@ from rich.text import Text
 from briefgen import __version__
 from briefgen.config import load_spec
 from briefgen.datatext import clean
-from briefgen.errors import BriefError, DeliveryError
+from briefgen.errors import BriefError, DeliveryError, HeldError
 
 # sysexits.h: EX_USAGE for a malformed command line, EX_SOFTWARE for an internal error.
 EXIT_USAGE = 64
@@ -77,6 +77,12 @@ def _parser() -> argparse.ArgumentParser:
         help="wait this long for another run on the same output folder (default: do not wait)",
     )
     build.add_argument("--no-send", action="store_true", help="publish the brief but send no email")
+    build.add_argument(
+        "--compare", type=Path, metavar="STATS_JSON", help="compare with this stats.json"
+    )
+    build.add_argument(
+        "--skip-checks", action="store_true", help="publish and send without the config's checks"
+    )
     check = commands.add_parser(
         "check", help="validate a config and its data columns, build nothing", parents=[common]
     )
@@ -161,24 +167,56 @@ class _CleanFormatter(logging.Formatter):
         return clean(super().format(record))
 
 
-def _build(
-    config: Path, out: Path | None, wait: float, send: bool, console: Console, run: _Run
-) -> None:
+@dataclass(frozen=True)
+class _BuildOptions:
+    out: Path | None = None
+    wait: float = 0.0
+    send: bool = True
+    compare: Path | None = None
+    skip_checks: bool = False
+
+
+def _hold(spec, result, email, folder: Path, built_on: str) -> HeldError:
+    """Alert ``delivery.alert`` (when mail is on) and say why the gate held the brief."""
+    from briefgen.deliver.publish import HELD
+
+    reasons = [check.sentence for check in result.gate.failures]
+    held = folder / HELD
+    alerted = ""
+    if email is not None and spec.delivery.alert:
+        from briefgen.deliver.mail import send_alert
+
+        try:
+            count = send_alert(
+                email, list(spec.delivery.alert), spec.title, built_on, reasons, held
+            )
+            alerted = f" An alert went to {count} recipients of delivery.alert."
+        except DeliveryError as exc:
+            alerted = f" The alert to delivery.alert was not sent either: {exc}"
+    return HeldError(
+        f"the brief was built but not published or emailed: {' '.join(reasons)} "
+        f"It is kept in {held}; the previous brief stays published.{alerted}"
+    )
+
+
+def _build(config: Path, options: _BuildOptions, console: Console, run: _Run) -> None:
     from briefgen.deliver import current_run, output_lock
     from briefgen.pipeline import build_brief, build_date, stage
 
     started = time.perf_counter()
     spec = load_spec(config)
     built_on = build_date()
-    email = spec.delivery.email if send else None
+    email = spec.delivery.email if options.send else None
     if email is not None:
         from briefgen.deliver.mail import credentials
 
         credentials(email)  # a missing secret stops the run before anything is built
-    folder = spec.output_dir(out, built_on)
-    with output_lock(folder, wait):
+    folder = spec.output_dir(options.out, built_on)
+    with output_lock(folder, options.wait):
         run.folder, run.before = folder, current_run(folder)
-        result = build_brief(spec, folder, built_on=built_on)
+        result = build_brief(
+            spec, folder, built_on, compare=options.compare, skip_checks=options.skip_checks
+        )
         for path in result.files:
             _say(console, f"  wrote {path} ({path.stat().st_size / 1024:,.0f} KiB)")
         _say(
@@ -187,6 +225,8 @@ def _build(
             f" in {time.perf_counter() - started:.1f} s from "
             f"{result.stats.accounting.rows_read:,} rows",
         )
+        if result.held:
+            raise _hold(spec, result, email, folder, built_on)
         if email is not None:
             from briefgen.deliver.mail import send as send_email
 
@@ -252,7 +292,10 @@ def main(argv: list[str] | None = None) -> int:
     run = _Run()
     try:
         if args.command == "build":
-            _build(args.config, args.out, args.wait, not args.no_send, console, run)
+            options = _BuildOptions(
+                args.out, args.wait, not args.no_send, args.compare, args.skip_checks
+            )
+            _build(args.config, options, console, run)
         elif args.command == "check":
             _check(args.config, console)
         elif args.command == "init":
@@ -261,7 +304,10 @@ def main(argv: list[str] | None = None) -> int:
             path = write_starter(args.data, args.config, args.title, args.force)
             _say(console, ("wrote", "green"), f" {path}; check it, then run: briefgen build {path}")
         elif args.command == "demo":
-            _build(demo_config_path(), args.out, 0.0, False, console, run)
+            _build(demo_config_path(), _BuildOptions(args.out, send=False), console, run)
+    except HeldError as exc:
+        _say(errors, ("held: ", "bold red"), str(exc))
+        return exc.exit_code
     except DeliveryError as exc:
         _say(
             errors,

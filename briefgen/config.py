@@ -180,10 +180,41 @@ class EmailSpec(_Strict):
         return self.port or {"starttls": 587, "tls": 465, "none": 25}[self.security]
 
 
+class ChecksSpec(_Strict):
+    """The publish gate: limits a run must meet before its brief is published and mailed.
+
+    Each limit is off unless set. Ratios compare rows read with the previous run's.
+    """
+
+    min_rows_ratio: float | None = Field(default=None, gt=0)
+    max_rows_ratio: float | None = Field(default=None, gt=0)
+    columns_kept: bool = False
+    max_target_missing: float | None = Field(default=None, ge=0, le=1)
+
+    @field_validator("max_rows_ratio")
+    @classmethod
+    def _ordered(cls, value: float | None, info) -> float | None:
+        low = info.data.get("min_rows_ratio")
+        if value is not None and low is not None and value < low:
+            raise ValueError(f"it is below min_rows_ratio ({low}); swap the two limits")
+        return value
+
+
 class DeliverySpec(_Strict):
     """What happens after the brief is published."""
 
     email: EmailSpec | None = None
+    # Who hears when the publish gate holds a brief (sent through delivery.email's server).
+    alert: list[str] = Field(default_factory=list)
+
+    @field_validator("alert")
+    @classmethod
+    def _alert_addresses(cls, value: list[str], info) -> list[str]:
+        for address in value:
+            EmailSpec._one_address(address)
+        if value and info.data.get("email") is None:
+            raise ValueError("alerts are sent through delivery.email's server; add delivery.email")
+        return value
 
     @field_validator("email", mode="before")
     @classmethod
@@ -231,6 +262,9 @@ class BriefSpec(_Strict):
     engine: EngineSpec = Field(default_factory=EngineSpec)
     output: OutputSpec = Field(default_factory=OutputSpec)
     delivery: DeliverySpec = Field(default_factory=DeliverySpec)
+    # `previous` (the last published run) or a stats.json file; None: no comparison section.
+    compare_with: str | None = None
+    checks: ChecksSpec | None = None
     source_file: str = ""
 
     @field_validator("delivery")
@@ -239,6 +273,15 @@ class BriefSpec(_Strict):
         output = info.data.get("output")
         if value.email is not None and output is not None and "pdf" not in output.formats:
             raise ValueError("email sends brief.pdf; add pdf to output.formats")
+        return value
+
+    @field_validator("compare_with", "checks")
+    @classmethod
+    def _history_needs_stats_json(cls, value, info):
+        # Both read the last run's stats.json; without it every later run would find none.
+        output = info.data.get("output")
+        if value is not None and output is not None and "json" not in output.formats:
+            raise ValueError("it reads the last run's stats.json; add json to output.formats")
         return value
 
     @field_validator("cross")
@@ -293,6 +336,13 @@ class BriefSpec(_Strict):
         if suffix in {"json", "jsonl", "ndjson"}:
             return "json"
         return "parquet" if suffix in {"parquet", "pq"} else "csv"
+
+    def compare_path(self) -> Path | None:
+        """The stats.json ``compare_with`` names, or None for ``previous`` or no comparison."""
+        if self.compare_with in (None, "previous"):
+            return None
+        path = Path(self.compare_with).expanduser()
+        return path if path.is_absolute() else Path(os.path.normpath(self.base_dir / path))
 
     @property
     def cross_pairs(self) -> list[tuple[str, str]]:

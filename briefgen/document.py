@@ -11,7 +11,9 @@ import re
 from dataclasses import dataclass
 
 from briefgen.config import BriefSpec
+from briefgen.deliver.gate import GateResult
 from briefgen.figures.theme import LEAD_HEIGHT_IN, Chart
+from briefgen.history.change import SinceLastTime
 from briefgen.numbers import fmt_count, fmt_level
 from briefgen.present.cautions import cautions
 from briefgen.present.family import Family, build_family, family_sentence
@@ -21,6 +23,7 @@ from briefgen.present.sections.cross import cross_section
 from briefgen.present.sections.fit import fit_section
 from briefgen.present.sections.groups import group_sections
 from briefgen.present.sections.overall import kind_note, overall_section
+from briefgen.present.sections.since import SinceSection, column_notice, since_section
 from briefgen.present.sections.trend import trend_section
 from briefgen.present.wording import Wording, label_for, name_for, wording_for
 from briefgen.stats import BriefStats
@@ -61,6 +64,9 @@ class Document:
     appendix: tuple[Table, ...]
     method: tuple[str, ...]
     family: Family
+    # Said first on page 1: a brief held by the publish gate, columns changed since last time.
+    notices: tuple[str, ...] = ()
+    since: SinceSection | None = None
 
     @property
     def settled_findings(self) -> tuple[Finding, ...]:
@@ -199,7 +205,22 @@ def lead_figure(sections: list[Section]) -> LeadFigure | None:
     return LeadFigure("overall", overall.chart, why)
 
 
-def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label: str) -> Document:
+def held_notice(gate: GateResult | None) -> str | None:
+    """Page 1's first line in a brief the publish gate held."""
+    if gate is None or gate.passed:
+        return None
+    reasons = " ".join(check.sentence for check in gate.failures)
+    return f"Held: this brief was not published or emailed, because a check failed. {reasons}"
+
+
+def build_document(
+    stats: BriefStats,
+    spec: BriefSpec,
+    built_on: str,
+    rows_label: str,
+    since: SinceLastTime | None = None,
+    gate: GateResult | None = None,
+) -> Document:
     """Assemble findings, charts and tables into the page model."""
     words = wording_for(stats, label_for(spec, spec.target))
     family = build_family(stats)
@@ -229,4 +250,8 @@ def build_document(stats: BriefStats, spec: BriefSpec, built_on: str, rows_label
         appendix=tuple(appendix),
         method=method_notes(stats, spec),
         family=family,
+        notices=tuple(n for n in (held_notice(gate), column_notice(since)) if n),
+        since=None
+        if since is None
+        else since_section(since, words, spec, stats.trend.period if stats.trend else None),
     )

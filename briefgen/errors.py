@@ -48,3 +48,9 @@ class DeliveryError(BriefError):
     """The brief was published but the email could not be delivered."""
 
     exit_code = 6
+
+
+class HeldError(BriefError):
+    """The publish gate held the brief: built and kept, but not published or mailed to readers."""
+
+    exit_code = 7

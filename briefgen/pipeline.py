@@ -14,8 +14,13 @@ from pathlib import Path
 
 from briefgen.config import BriefSpec
 from briefgen.deliver import write_outputs
+from briefgen.deliver.gate import GateResult, run_checks
+from briefgen.deliver.publish import hold_outputs
 from briefgen.document import build_document
 from briefgen.errors import ConfigError
+from briefgen.history.change import SinceLastTime, compare_runs
+from briefgen.history.previous import find_previous
+from briefgen.history.record import record_run
 from briefgen.render import render_html, render_json, render_pdf
 from briefgen.source import open_source, reading
 from briefgen.stats import BriefStats, compute
@@ -27,8 +32,19 @@ stage = logging.getLogger("briefgen.stage")
 
 @dataclass(frozen=True, slots=True)
 class BuildResult:
+    """What a build made: its results, the files written, and the gate's verdict.
+
+    ``files`` are the published paths, or the held ones when the gate held the brief.
+    """
+
     stats: BriefStats
     files: tuple[Path, ...]
+    gate: GateResult | None = None
+    since: SinceLastTime | None = None
+
+    @property
+    def held(self) -> bool:
+        return self.gate is not None and not self.gate.passed
 
 
 def build_date() -> str:
@@ -49,19 +65,40 @@ def build_date() -> str:
 
 
 def build_brief(
-    spec: BriefSpec, out_dir: Path | None = None, built_on: str | None = None
+    spec: BriefSpec,
+    out_dir: Path | None = None,
+    built_on: str | None = None,
+    compare: Path | None = None,
+    skip_checks: bool = False,
 ) -> BuildResult:
-    """Build every configured format, then write them all at once."""
+    """Build every configured format, then publish them all at once (or hold them).
+
+    ``compare`` is a stats.json to compare with (``--compare``), over ``compare_with``.
+    When the config's ``checks`` fail (and ``skip_checks`` is off) the brief is written
+    as the folder's held brief instead of being published.
+    """
     built_on = built_on or build_date()
+    folder = spec.output_dir(out_dir, built_on)
     stage.info("reading %s", spec.data.path)
     source = open_source(spec)
     stage.info("computing statistics")
     with reading(source.label):
         stats = compute(source, spec)
-    stage.info("rendering %s", ", ".join(spec.output.formats))
-    files: dict[str, bytes] = {}
     formats = spec.output.formats
-    doc = build_document(stats, spec, built_on, rows_label=Path(spec.data.path).name)
+    comparing = compare is not None or spec.compare_with is not None
+    checks = None if skip_checks else spec.checks
+    record = None
+    if "json" in formats or comparing:
+        stage.info("hashing %s", spec.data.path)
+        record = record_run(spec, source.table, stats.accounting.rows_read)
+    previous = find_previous(spec, folder, compare) if comparing or checks else None
+    since = compare_runs(stats, record, previous) if comparing and record else None
+    gate = run_checks(checks, stats, previous) if checks and previous else None
+    stage.info("rendering %s", ", ".join(formats))
+    files: dict[str, bytes] = {}
+    doc = build_document(
+        stats, spec, built_on, rows_label=Path(spec.data.path).name, since=since, gate=gate
+    )
     if "html" in formats or "pdf" in formats:
         html = render_html(doc, spec)
         if "html" in formats:
@@ -69,10 +106,14 @@ def build_brief(
         if "pdf" in formats:
             files["brief.pdf"] = render_pdf(html, built_on)
     if "json" in formats:
-        files["stats.json"] = render_json(stats, spec, built_on, doc.findings, doc.family).encode(
-            "utf-8"
-        )
-    stage.info("publishing")
-    written = write_outputs(spec.output_dir(out_dir, built_on), files, keep=spec.output.keep)
+        files["stats.json"] = render_json(
+            stats, spec, built_on, doc.findings, doc.family, record, since, gate
+        ).encode("utf-8")
+    if gate is not None and not gate.passed:
+        stage.info("holding the brief: %d checks failed", len(gate.failures))
+        written = hold_outputs(folder, files)
+    else:
+        stage.info("publishing")
+        written = write_outputs(folder, files, keep=spec.output.keep)
     log.info("wrote %s", ", ".join(str(p) for p in written))
-    return BuildResult(stats=stats, files=tuple(written))
+    return BuildResult(stats=stats, files=tuple(written), gate=gate, since=since)

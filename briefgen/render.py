@@ -21,8 +21,11 @@ from markupsafe import Markup
 
 from briefgen import __version__
 from briefgen.config import BriefSpec
+from briefgen.deliver.gate import GateResult
 from briefgen.document import Document
 from briefgen.errors import RenderError
+from briefgen.history.change import SinceLastTime
+from briefgen.history.record import RunRecord
 from briefgen.present.family import Family
 from briefgen.present.finding import Finding
 from briefgen.stats import BriefStats
@@ -126,12 +129,17 @@ def render_json(
     built_on: str,
     findings: Sequence[Finding] = (),
     family: Family | None = None,
+    made_from: RunRecord | None = None,
+    since: SinceLastTime | None = None,
+    checks: GateResult | None = None,
 ) -> str:
     """Every number the brief shows, at full precision, with documented names (README).
 
     ``findings`` are the brief's findings in page order, as data for downstream
     readers (the email body, a dashboard, a test) that should not parse the HTML;
-    ``family`` the questions behind them with their adjusted p-values.
+    ``family`` the questions behind them with their adjusted p-values; ``made_from``
+    what the brief was built from, ``since`` the comparison with the last brief and
+    ``checks`` the publish gate's verdict (None when not asked for).
     """
     payload = {
         "briefgen_version": __version__,
@@ -146,6 +154,9 @@ def render_json(
             for finding in findings
         ],
         "family": _plain(family),
+        "made_from": _plain(made_from),
+        "since": _plain(since),
+        "checks": _plain(checks),
         "stats": _plain(stats),
     }
     # The sampled rows themselves stay out of the JSON; how many were drawn goes in.

@@ -21,6 +21,9 @@ from pydantic import BaseModel
 
 from briefgen.cli import demo_config_path
 from briefgen.config import BriefSpec, DataSpec, OutputSpec, TimeSpec, load_spec
+from briefgen.deliver.gate import GateResult
+from briefgen.history.change import SinceLastTime
+from briefgen.history.record import RunRecord
 from briefgen.pipeline import build_brief
 from briefgen.stats import BriefStats
 
@@ -109,7 +112,12 @@ def json_objects(value: object, path: str, maps: set[str]) -> Iterator[tuple[str
             yield from json_objects(item, f"{path}[]", maps)
 
 
-STATS_PATHS = list(dataclass_paths(BriefStats, "stats"))
+# Top-level objects written from dataclasses besides the results; `since` and `checks` are
+# null in the demo (no comparison, no gate), so their fields are checked from the classes.
+RECORD_ROOTS = {"made_from": RunRecord, "since": SinceLastTime, "checks": GateResult}
+STATS_PATHS = list(dataclass_paths(BriefStats, "stats")) + [
+    item for root, cls in RECORD_ROOTS.items() for item in dataclass_paths(cls, root)
+]
 MAP_PATHS = {path for path, kind in STATS_PATHS if kind is dict} | JSON_ONLY_MAPS
 OBJECT_PATHS = [(path, kind) for path, kind in STATS_PATHS if kind is not dict]
 

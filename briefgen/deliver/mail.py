@@ -126,18 +126,15 @@ def _open(spec: EmailSpec) -> smtplib.SMTP:
     return client
 
 
-def send(
-    spec: EmailSpec, pdf_path: Path, stats_path: Path | None, title: str, built_on: str
-) -> int:
-    """Send the brief; return the number of recipients. Raises DeliveryError on any failure."""
+def _deliver(spec: EmailSpec, message: EmailMessage, recipients: list[str], key: str) -> int:
+    """Hand ``message`` to the server for ``recipients``; raise DeliveryError on any failure."""
     login = credentials(spec)
-    message = compose(spec, pdf_path.read_bytes(), _read_stats(stats_path), title, built_on)
     where = f"{spec.host}:{spec.smtp_port}"
     try:
         with _open(spec) as client:
             if login:
                 client.login(*login)
-            refused = client.send_message(message)
+            refused = client.send_message(message, to_addrs=recipients)
     except smtplib.SMTPAuthenticationError as exc:
         raise DeliveryError(
             f"{where} refused the login ({exc.smtp_code}); check the variables "
@@ -150,18 +147,63 @@ def send(
         ) from None
     except smtplib.SMTPRecipientsRefused as exc:
         raise DeliveryError(
-            f"{where} refused every recipient ({', '.join(exc.recipients)}); check delivery.email.recipients."
+            f"{where} refused every recipient ({', '.join(exc.recipients)}); check {key}."
         ) from None
     except (TimeoutError, smtplib.SMTPException, OSError) as exc:
         reason = getattr(exc, "strerror", None) or str(exc) or type(exc).__name__
         raise DeliveryError(
             f"{where}: the email could not be sent ({reason}); check delivery.email.host and port."
         ) from None
-    delivered = len(spec.recipients) - len(refused)
+    delivered = len(recipients) - len(refused)
     if refused:
         raise DeliveryError(
             f"{where} took the email for {delivered} recipients but refused "
-            f"{', '.join(sorted(refused))}; check delivery.email.recipients."
+            f"{', '.join(sorted(refused))}; check {key}."
         )
-    log.info("sent the brief to %d recipients via %s", delivered, where)
+    log.info("sent to %d recipients via %s", delivered, where)
     return delivered
+
+
+def send(
+    spec: EmailSpec, pdf_path: Path, stats_path: Path | None, title: str, built_on: str
+) -> int:
+    """Send the brief; return the number of recipients. Raises DeliveryError on any failure."""
+    credentials(spec)
+    message = compose(spec, pdf_path.read_bytes(), _read_stats(stats_path), title, built_on)
+    return _deliver(spec, message, list(spec.recipients), "delivery.email.recipients")
+
+
+def compose_alert(
+    spec: EmailSpec, alert: list[str], title: str, built_on: str, reasons: list[str], held: Path
+) -> EmailMessage:
+    """The short message to ``delivery.alert`` when the publish gate holds a brief; no attachment.
+
+    Its readers run the brief, not read it: it says why the brief was held, where the
+    held brief is, and how to send it anyway.
+    """
+    message = EmailMessage()
+    message["Subject"] = f"Held: {fill_tokens(spec.subject, built_on, title=title)}"
+    message["From"] = spec.sender
+    message["To"] = ", ".join(alert)
+    message["Date"] = formatdate(localtime=False)
+    message["Message-ID"] = make_msgid(domain=spec.sender.rsplit("@", 1)[-1])
+    lines = [
+        f"The brief '{title}' built {built_on} was not sent to its "
+        f"{len(spec.recipients)} readers, because a check failed:",
+        "",
+        *[f"- {reason}" for reason in reasons],
+        "",
+        f"The held brief is in {held}; the previous brief stays published.",
+        "To publish and send it anyway, rerun the build with --skip-checks.",
+    ]
+    message.set_content("\n".join(lines) + "\n")
+    return message
+
+
+def send_alert(
+    spec: EmailSpec, alert: list[str], title: str, built_on: str, reasons: list[str], held: Path
+) -> int:
+    """Send the gate's alert to ``alert``; return the number of recipients."""
+    credentials(spec)
+    message = compose_alert(spec, alert, title, built_on, reasons, held)
+    return _deliver(spec, message, alert, "delivery.alert")

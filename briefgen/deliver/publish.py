@@ -10,6 +10,12 @@ Layout of an output folder::
       brief.pdf  -> current/brief.pdf
       stats.json -> current/stats.json
       .briefgen.lock                      held while a run builds (see lock.py)
+      held -> runs/held-20261203T081900.123456Z-4243   the last brief the publish gate held
+
+A brief the publish gate holds (``hold_outputs``) is written the same way into
+``runs/held-<id>/`` and linked as ``held``; ``current`` and the stable names keep the
+previous brief, so readers, scripts and the next run's comparison never see it. The
+next brief that is published removes it.
 
 A run writes its files into ``runs/.staging-<id>/``, renames that folder to
 ``runs/<id>`` and then replaces the ``current`` link with one rename(2), which
@@ -41,6 +47,8 @@ log = logging.getLogger(__name__)
 
 RUNS = "runs"
 CURRENT = "current"
+HELD = "held"
+HELD_PREFIX = "held-"
 STAGING_PREFIX = ".staging-"
 # The names a brief can hold; only these are linked from the top of the output folder.
 BRIEF_NAMES = ("brief.html", "brief.pdf", "stats.json")
@@ -243,6 +251,7 @@ def write_outputs(directory: Path, files: dict[str, bytes], keep: int = DEFAULT_
         with signals_deferred():
             _switch(directory, runs, runs / f"{STAGING_PREFIX}{name}", name, list(files))
         prune(directory, keep)
+        drop_held(directory)
     except OSError as exc:
         what = (
             "the new brief is published"
@@ -259,3 +268,44 @@ def write_outputs(directory: Path, files: dict[str, bytes], keep: int = DEFAULT_
                 _remove(runs / f"{STAGING_PREFIX}{name}")
                 _remove(runs / name)
     return [directory / file for file in files]
+
+
+def drop_held(directory: Path) -> None:
+    """Remove the held brief: a brief published after it makes it stale."""
+    (directory / HELD).unlink(missing_ok=True)
+    runs = directory / RUNS
+    for entry in runs.iterdir() if runs.is_dir() else []:
+        if entry.name.startswith(HELD_PREFIX):
+            _remove(entry)
+
+
+def hold_outputs(directory: Path, files: dict[str, bytes]) -> list[Path]:
+    """Write ``files`` as the folder's held brief; ``current`` and the stable names stay as they are.
+
+    Returns the held paths (``directory/held/brief.pdf`` …). Raises RenderError when the
+    folder cannot take them; the published brief is untouched either way.
+    """
+    runs = directory / RUNS
+    name = ""
+    try:
+        runs.mkdir(parents=True, exist_ok=True)
+        _check_names_are_free(directory)
+        sweep_leftovers(directory)
+        name = HELD_PREFIX + _new_run_name(runs, None)
+        _write_staged(runs / f"{STAGING_PREFIX}{name}", files)
+        with signals_deferred():
+            os.rename(runs / f"{STAGING_PREFIX}{name}", runs / name)
+            _link(directory, HELD, f"{RUNS}/{name}")
+            _fsync_dir(directory)
+        for entry in runs.iterdir():
+            if entry.name.startswith(HELD_PREFIX) and entry.name != name:
+                _remove(entry)
+    except OSError as exc:
+        raise RenderError(
+            f"{directory}: cannot write the held brief ({exc.strerror or exc}); "
+            "the published brief is unchanged. Check free space and permissions."
+        ) from None
+    finally:
+        if name:
+            _remove(runs / f"{STAGING_PREFIX}{name}")
+    return [directory / HELD / file for file in files]
