@@ -129,6 +129,12 @@ class OutputSpec(_Strict):
         return list(dict.fromkeys(value))
 
 
+class FiguresSpec(_Strict):
+    """How the figure review (briefgen/figures/review.py) treats a figure that breaks a rule."""
+
+    review: Literal["stop", "warn"] = "stop"
+
+
 class EmailSpec(_Strict):
     """Send brief.pdf by SMTP after publishing; secrets come only from the environment."""
 
@@ -225,6 +231,7 @@ class BriefSpec(_Strict):
     max_levels: int = Field(default=12, ge=3, le=20)
     engine: EngineSpec = Field(default_factory=EngineSpec)
     output: OutputSpec = Field(default_factory=OutputSpec)
+    figures: FiguresSpec = Field(default_factory=FiguresSpec)
     delivery: DeliverySpec = Field(default_factory=DeliverySpec)
     source_file: str = ""
 

@@ -15,7 +15,8 @@ from pathlib import Path
 from briefgen.config import BriefSpec
 from briefgen.deliver import write_outputs
 from briefgen.document import build_document
-from briefgen.errors import ConfigError
+from briefgen.errors import ConfigError, FigureReviewError
+from briefgen.figures import review
 from briefgen.render import render_html, render_json, render_pdf
 from briefgen.source import open_source, reading
 from briefgen.stats import BriefStats, compute
@@ -48,6 +49,23 @@ def build_date() -> str:
         ) from None
 
 
+def _check_figures(problems: list[str], spec: BriefSpec) -> None:
+    """Stop the build on a figure that breaks a review rule, or warn when the config says so."""
+    if not problems:
+        return
+    if spec.figures.review == "warn":
+        for problem in problems:
+            log.warning("%s", problem)
+        return
+    more = f" ({len(problems) - 1} more problems in the log)" if len(problems) > 1 else ""
+    for problem in problems[1:]:
+        log.info("%s", problem)
+    raise FigureReviewError(
+        f"{problems[0][:1].upper()}{problems[0][1:]}{more}; nothing was written.",
+        "Fix the theme or the figure, or set figures.review: warn in the config to build anyway.",
+    )
+
+
 def build_brief(
     spec: BriefSpec, out_dir: Path | None = None, built_on: str | None = None
 ) -> BuildResult:
@@ -61,7 +79,9 @@ def build_brief(
     stage.info("rendering %s", ", ".join(spec.output.formats))
     files: dict[str, bytes] = {}
     formats = spec.output.formats
-    doc = build_document(stats, spec, built_on, rows_label=Path(spec.data.path).name)
+    with review.recording() as reviews:
+        doc = build_document(stats, spec, built_on, rows_label=Path(spec.data.path).name)
+    _check_figures(review.failures(doc.charts, reviews), spec)
     if "html" in formats or "pdf" in formats:
         html = render_html(doc, spec)
         if "html" in formats:

@@ -7,6 +7,7 @@ not grow with the data; the line and band come from the full-data fit.
 from __future__ import annotations
 
 import numpy as np
+from matplotlib.colors import to_rgba
 
 from briefgen.figures.cross import SERIES_COLOURS, SERIES_MARKERS
 from briefgen.figures.theme import (
@@ -14,6 +15,7 @@ from briefgen.figures.theme import (
     LINE,
     MUTED,
     POINT,
+    POINT_ALPHA,
     SHORTENED_NOTE,
     Chart,
     new_figure,
@@ -70,9 +72,17 @@ def relationship_chart(
         figure = new_figure(height)
         axes = figure.subplots()
         axes.scatter(
-            xs[keep], ys[keep], s=5, color=POINT, alpha=0.35, linewidths=0, rasterized=True
+            xs[keep], ys[keep], s=5, color=POINT, alpha=POINT_ALPHA, linewidths=0, rasterized=True
         )
-        axes.fill_between(grid, bands[:, 0], bands[:, 1], color=BAND, alpha=0.8, linewidth=0)
+        # The light fill shows the band; its edge in the line's colour gives it 3:1 on white.
+        axes.fill_between(
+            grid,
+            bands[:, 0],
+            bands[:, 1],
+            facecolor=to_rgba(BAND, 0.8),
+            edgecolor=LINE,
+            linewidth=0.5,
+        )
         axes.plot(grid, fit.intercept + fit.slope * grid, color=LINE, linewidth=2)
         axes.set_xlabel(x_label)
         axes.set_ylabel(y_label)
@@ -130,7 +140,8 @@ def _by_group_chart(
                 s=7,
                 marker=marker,
                 color=colour,
-                alpha=0.45,
+                # Opaque: reddish purple reaches 3:1 on white only at full strength.
+                alpha=1.0,
                 linewidths=0,
                 rasterized=True,
             )
