@@ -23,6 +23,7 @@ from briefgen import __version__
 from briefgen.config import BriefSpec
 from briefgen.document import Document
 from briefgen.errors import RenderError
+from briefgen.pdf_artifacts import mark_margin_artifacts
 from briefgen.present.family import Family
 from briefgen.present.finding import Finding
 from briefgen.stats import BriefStats
@@ -81,7 +82,9 @@ def render_pdf(html: str, built_on: str) -> bytes:
     logging.getLogger("weasyprint").setLevel(logging.ERROR)
     logging.getLogger("fontTools").setLevel(logging.ERROR)
     with _fixed_font_timestamp(built_on):
-        return weasyprint.HTML(string=html, base_url=None).write_pdf(pdf_variant="pdf/ua-1")
+        return weasyprint.HTML(string=html, base_url=None).write_pdf(
+            pdf_variant="pdf/ua-1", finisher=mark_margin_artifacts
+        )
 
 
 def _plain(value):

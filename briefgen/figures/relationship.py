@@ -59,7 +59,13 @@ def relationship_chart(
     """
     if by_group is not None and by_group.group in sample.groups:
         return _by_group_chart(
-            fit, sample, x_label, y_label, by_group, group_label or by_group.group, height + 0.2
+            fit,
+            sample,
+            (x_label, y_label),
+            by_group,
+            group_label or by_group.group,
+            slope_decimals,
+            height + 0.2,
         )
     if fit.slope is None or fit.residual_sd is None:
         return None
@@ -115,15 +121,16 @@ def relationship_chart(
 def _by_group_chart(
     fit: RegressionFit,
     sample: Sample,
-    x_label: str,
-    y_label: str,
+    labels: tuple[str, str],
     slopes: GroupSlopes,
     group_label: str,
+    slope_decimals: int,
     height: float = 3.3,
 ) -> Chart | None:
     """Points and a line per level of the confounding group; colour and marker both differ."""
     if fit.slope is None:
         return None
+    x_label, y_label = labels
     xs = np.array([np.nan if v is None else v for v in sample.x[fit.predictor]], dtype=float)
     ys = np.array(sample.y, dtype=float)
     levels = np.array(sample.groups[slopes.group], dtype=object)
@@ -183,9 +190,12 @@ def _by_group_chart(
         )
         + (f" {SHORTENED_NOTE}" if shortened(level.level for level in drawn) else "")
     )
+    # Written from the fitted slopes, so a screen reader hears the numbers the lines show.
+    within = "; ".join(f"{level.level} {fmt(level.slope, slope_decimals)}" for level in drawn)
     alt = (
-        f"Scatter plot of {y_label.lower()} against {x_label.lower()} coloured by {group_label}, "
-        f"with one fitted line per level and a dashed overall line of the opposite or a weaker slope."
+        f"Scatter plot of {y_label.lower()} against {x_label.lower()} by {group_label}, one "
+        f"fitted line per level. Slope per unit within each level: {within}. Through all rows "
+        f"together: {fmt(fit.slope, slope_decimals)}."
     )
     return Chart(
         key=f"fit-{fit.predictor}",
