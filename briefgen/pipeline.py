@@ -12,6 +12,7 @@ import os
 from dataclasses import dataclass
 from pathlib import Path
 
+from briefgen.assets import load_logo
 from briefgen.config import BriefSpec
 from briefgen.deliver import write_outputs
 from briefgen.document import build_document
@@ -71,6 +72,7 @@ def build_brief(
 ) -> BuildResult:
     """Build every configured format, then write them all at once."""
     built_on = built_on or build_date()
+    logo = load_logo(spec)  # checked before any work, like the rest of the config
     stage.info("reading %s", spec.data.path)
     source = open_source(spec)
     stage.info("computing statistics")
@@ -83,11 +85,11 @@ def build_brief(
         doc = build_document(stats, spec, built_on, rows_label=Path(spec.data.path).name)
     _check_figures(review.failures(doc.charts, reviews), spec)
     if "html" in formats or "pdf" in formats:
-        html = render_html(doc, spec)
+        html = render_html(doc, spec, logo)
         if "html" in formats:
             files["brief.html"] = html.encode("utf-8")
         if "pdf" in formats:
-            files["brief.pdf"] = render_pdf(html, built_on)
+            files["brief.pdf"] = render_pdf(html, built_on, spec.base_dir)
     if "json" in formats:
         files["stats.json"] = render_json(stats, spec, built_on, doc.findings, doc.family).encode(
             "utf-8"
