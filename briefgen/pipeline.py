@@ -83,6 +83,8 @@ def build_brief(
     formats = spec.output.formats
     with review.recording() as reviews:
         doc = build_document(stats, spec, built_on, rows_label=Path(spec.data.path).name)
+    for note in review.unseen(doc.charts, reviews):
+        log.info("not reviewed: %s", note)
     _check_figures(review.failures(doc.charts, reviews), spec)
     if "html" in formats or "pdf" in formats:
         html = render_html(doc, spec, logo)

@@ -254,11 +254,13 @@ def test_categories_need_distinct_colours_and_a_grayscale_channel():
     assert _rules(figure) == set()
 
 
-def test_images_are_noted_as_unseen():
+def test_colour_mapped_artists_are_noted_as_unseen_not_failed():
     figure, axes = _figure()
     with theme.themed():
-        axes.imshow(np.arange(6).reshape(2, 3))
-    assert review.review_figure(figure, 6.7, 8).unseen
+        axes.imshow(np.arange(6).reshape(2, 3), cmap="cividis")
+        axes.pcolormesh(np.arange(6).reshape(2, 3), cmap="cividis")
+    found = review.review_figure(figure, 6.7, 8)
+    assert found.passed and "2 colour-mapped artist(s)" in found.unseen[0]
 
 
 # --- the build ----------------------------------------------------------------------------

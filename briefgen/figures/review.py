@@ -12,8 +12,9 @@ Four rules, each from a published standard or a stated rule of common practice:
 - **grayscale**: two categories differ by ``colour.MIN_LIGHTNESS_GAP`` in CIE L*, or by a
   second channel (marker, line style, hollow or filled, hatch).
 
-What walking the artists cannot see, and how it is handled: pixels of an image (a colour
-map) are not checked, the review notes the image in ``unseen``; text and marks are measured
+What walking the artists cannot see, and how it is handled: colour-mapped artists (an
+image, a heat map's mesh, a binned density) are not checked cell by cell, the review notes
+them in ``unseen``; text and marks are measured
 against the axes or legend background, not against the marks they happen to overlap; two
 marks are never compared with each other except as categories; path effects and clip
 paths are ignored. Categories are the artists with a label, the ones a legend lists.
@@ -84,9 +85,12 @@ def review_figure(
         background = colour.over(axes.get_facecolor(), paper)
         problems += _mark_contrast(axes, background)
         categories += _categories(axes)
-        images = [a for a in axes.get_children() if isinstance(a, AxesImage)]
-        if images:
-            unseen.append(f"{len(images)} image(s) drawn from a colour map: pixels not checked")
+        mapped = [a for a in axes.get_children() if _colour_mapped(a)]
+        if mapped:
+            unseen.append(
+                f"{len(mapped)} colour-mapped artist(s) (image, heat map, density): each cell's "
+                "contrast is not checked; the colour bar and the map's choice carry it"
+            )
     problems += _category_colours(_unique(categories))
     return FigureReview(tuple(dict.fromkeys(problems)), tuple(unseen))
 
@@ -193,10 +197,21 @@ def _collection_colours(collection: Collection) -> list:
     return colours
 
 
+def _colour_mapped(artist) -> bool:
+    """An image, or a collection whose colours come from data through a colour map."""
+    if isinstance(artist, AxesImage):
+        return True
+    return isinstance(artist, Collection) and artist.get_array() is not None
+
+
 def _marks(axes) -> Iterator[tuple[object, list]]:
-    """Data marks and their colours, alpha applied (lines, patches and collections)."""
+    """Data marks and their colours, alpha applied (lines, patches and collections).
+
+    Colour-mapped collections (a heat map's cells, a binned density) are left out: their
+    lightest cells stand for the smallest values and are meant to fade into the paper.
+    """
     for artist in [*axes.lines, *axes.patches, *axes.collections]:
-        if not artist.get_visible():
+        if not artist.get_visible() or _colour_mapped(artist):
             continue
         # Patches and collections report their colours with the artist's alpha applied;
         # a line's come without it, matplotlib applies it when drawing.
@@ -376,3 +391,12 @@ def failures(charts: Iterable, reviews: dict[str, FigureReview]) -> list[str]:
                 f"figure '{chart.title}' ({chart.key}) breaks the {problem.rule} rule: {problem.detail}"
             )
     return list(dict.fromkeys(sentences))
+
+
+def unseen(charts: Iterable, reviews: dict[str, FigureReview]) -> list[str]:
+    """What the review could not check in the placed ``charts``, one sentence each (for the log)."""
+    return [
+        f"figure '{chart.title}' ({chart.key}): {note}"
+        for chart in charts
+        for note in (reviews[chart.svg].unseen if chart.svg in reviews else ())
+    ]
