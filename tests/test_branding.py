@@ -110,6 +110,20 @@ def test_logo_type_and_size_are_checked(tmp_path):
     assert "was not found" in _refused(tmp_path, "missing.png")
 
 
+def test_check_command_refuses_a_logo_outside_the_folder(tmp_path, capsys):
+    from briefgen.cli import main
+
+    (tmp_path / "config").mkdir()
+    (tmp_path / "outside.png").write_bytes(_png())
+    raw = yaml.safe_load(demo_config_path().read_text(encoding="utf-8"))
+    raw["data"]["path"] = str(demo_config_path().parent / raw["data"]["path"])
+    raw["brand"] = {"logo": "../outside.png"}
+    config = tmp_path / "config" / "brief.yaml"
+    config.write_text(yaml.safe_dump(raw), encoding="utf-8")
+    assert main(["check", str(config)]) == 2
+    assert "key 'brand.logo' is invalid" in " ".join(capsys.readouterr().err.split())
+
+
 # --- the URL fetcher --------------------------------------------------------------------
 
 
@@ -178,6 +192,8 @@ def test_demo_with_brand_builds_with_logo_and_accent(tmp_path):
     raw["data"]["path"] = str(demo_config_path().parent / raw["data"]["path"])
     raw["output"]["formats"] = ["html"]
     raw["brand"] = {"logo": "logo.png", "accent": "#0072b2"}
+    for key in ("predictors", "time", "log_target"):  # fewer charts: this is about the masthead
+        raw.pop(key, None)
     (tmp_path / "logo.png").write_bytes(_png())
     config = tmp_path / "brief.yaml"
     config.write_text(yaml.safe_dump(raw), encoding="utf-8")
