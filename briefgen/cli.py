@@ -245,11 +245,13 @@ def _build(config: Path, options: _BuildOptions, console: Console, run: _Run) ->
 
 
 def _check(config: Path, console: Console) -> None:
+    from briefgen.assets import load_logo
     from briefgen.pipeline import build_date
     from briefgen.source import open_source
 
     spec = load_spec(config)
     build_date()  # a bad SOURCE_DATE_EPOCH is a config problem too
+    load_logo(spec)  # a logo outside the config's folder, or not an image, is refused here too
     source = open_source(spec)
     _say(console, ("ok", "green"), f": {config} is valid and {source.label} has every named column")
     email = spec.delivery.email

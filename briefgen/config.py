@@ -134,6 +134,43 @@ class OutputSpec(_Strict):
         return list(dict.fromkeys(value))
 
 
+class FiguresSpec(_Strict):
+    """How the figure review (briefgen/figures/review.py) treats a figure that breaks a rule."""
+
+    review: Literal["stop", "warn"] = "stop"
+
+
+_HEX_COLOUR = re.compile(r"^#(?:[0-9A-Fa-f]{3}){1,2}$")
+# The accent colours the masthead rule and the section headings: heading text at 12 pt
+# needs 4.5:1 on white (WCAG 2.1, 1.4.3; 12 pt bold is not "large text").
+ACCENT_CONTRAST = 4.5
+
+
+class BrandSpec(_Strict):
+    """An optional logo and accent colour; the logo is checked when the brief is built (assets.py)."""
+
+    logo: str | None = None
+    accent: str | None = None
+
+    @field_validator("accent")
+    @classmethod
+    def _readable_accent(cls, value: str | None) -> str | None:
+        if value is None:
+            return value
+        if not _HEX_COLOUR.match(value):
+            raise ValueError(f"'{value}' is not a colour; write it as #rrggbb, such as #0072b2")
+        from briefgen.figures.colour import contrast_ratio, darkened_to
+
+        ratio = contrast_ratio(value, "#ffffff")
+        if ratio < ACCENT_CONTRAST:
+            raise ValueError(
+                f"{value} reaches only {ratio:.2f}:1 on white, and headings in the accent "
+                f"colour need {ACCENT_CONTRAST:g}:1 (WCAG 2.1, 1.4.3); use a darker colour "
+                f"such as {darkened_to(value, ACCENT_CONTRAST)}, the same hue darkened"
+            )
+        return value.lower()
+
+
 class EmailSpec(_Strict):
     """Send brief.pdf by SMTP after publishing; secrets come only from the environment."""
 
@@ -261,6 +298,8 @@ class BriefSpec(_Strict):
     max_levels: int = Field(default=12, ge=3, le=20)
     engine: EngineSpec = Field(default_factory=EngineSpec)
     output: OutputSpec = Field(default_factory=OutputSpec)
+    figures: FiguresSpec = Field(default_factory=FiguresSpec)
+    brand: BrandSpec = Field(default_factory=BrandSpec)
     delivery: DeliverySpec = Field(default_factory=DeliverySpec)
     # `previous` (the last published run) or a stats.json file; None: no comparison section.
     compare_with: str | None = None

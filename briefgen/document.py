@@ -69,6 +69,13 @@ class Document:
     since: SinceSection | None = None
 
     @property
+    def charts(self) -> tuple[Chart, ...]:
+        """Every chart the brief shows, page 1's first, each once."""
+        placed = [self.lead.chart] if self.lead else []
+        placed += [s.chart for s in self.sections if s.chart is not None]
+        return tuple({chart.svg: chart for chart in placed}.values())
+
+    @property
     def settled_findings(self) -> tuple[Finding, ...]:
         """Page 1's claims and summaries, each with its own line of certainty."""
         return tuple(f for f in self.key_findings if f.claim in SETTLED)

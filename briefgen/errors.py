@@ -38,6 +38,16 @@ class RenderError(BriefError):
     exit_code = 4
 
 
+class FigureReviewError(RenderError):
+    """A figure broke a review rule (font size, contrast, colour vision, grayscale).
+
+    Its own exit code, so a scheduler can tell a theme to fix from a PDF engine that
+    failed; nothing is written and the previous brief stays.
+    """
+
+    exit_code = 8
+
+
 class OutputBusyError(BriefError):
     """Another run holds the output folder's lock."""
 

@@ -12,12 +12,14 @@ import os
 from dataclasses import dataclass
 from pathlib import Path
 
+from briefgen.assets import load_logo
 from briefgen.config import BriefSpec
 from briefgen.deliver import write_outputs
 from briefgen.deliver.gate import GateResult, run_checks
 from briefgen.deliver.publish import hold_outputs
 from briefgen.document import build_document
-from briefgen.errors import ConfigError
+from briefgen.errors import ConfigError, FigureReviewError
+from briefgen.figures import review
 from briefgen.history.change import SinceLastTime, compare_runs
 from briefgen.history.previous import find_previous
 from briefgen.history.record import record_run
@@ -64,6 +66,23 @@ def build_date() -> str:
         ) from None
 
 
+def _check_figures(problems: list[str], spec: BriefSpec) -> None:
+    """Stop the build on a figure that breaks a review rule, or warn when the config says so."""
+    if not problems:
+        return
+    if spec.figures.review == "warn":
+        for problem in problems:
+            log.warning("%s", problem)
+        return
+    more = f" ({len(problems) - 1} more problems in the log)" if len(problems) > 1 else ""
+    for problem in problems[1:]:
+        log.info("%s", problem)
+    raise FigureReviewError(
+        f"{problems[0][:1].upper()}{problems[0][1:]}{more}; nothing was written.",
+        "Fix the theme or the figure, or set figures.review: warn in the config to build anyway.",
+    )
+
+
 def build_brief(
     spec: BriefSpec,
     out_dir: Path | None = None,
@@ -79,6 +98,7 @@ def build_brief(
     """
     built_on = built_on or build_date()
     folder = spec.output_dir(out_dir, built_on)
+    logo = load_logo(spec)  # checked before any work, like the rest of the config
     stage.info("reading %s", spec.data.path)
     source = open_source(spec)
     stage.info("computing statistics")
@@ -96,15 +116,19 @@ def build_brief(
     gate = run_checks(checks, stats, previous) if checks and previous else None
     stage.info("rendering %s", ", ".join(formats))
     files: dict[str, bytes] = {}
-    doc = build_document(
-        stats, spec, built_on, rows_label=Path(spec.data.path).name, since=since, gate=gate
-    )
+    with review.recording() as reviews:
+        doc = build_document(
+            stats, spec, built_on, rows_label=Path(spec.data.path).name, since=since, gate=gate
+        )
+    for note in review.unseen(doc.charts, reviews):
+        log.info("not reviewed: %s", note)
+    _check_figures(review.failures(doc.charts, reviews), spec)
     if "html" in formats or "pdf" in formats:
-        html = render_html(doc, spec)
+        html = render_html(doc, spec, logo)
         if "html" in formats:
             files["brief.html"] = html.encode("utf-8")
         if "pdf" in formats:
-            files["brief.pdf"] = render_pdf(html, built_on)
+            files["brief.pdf"] = render_pdf(html, built_on, spec.base_dir)
     if "json" in formats:
         files["stats.json"] = render_json(
             stats, spec, built_on, doc.findings, doc.family, record, since, gate

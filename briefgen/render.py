@@ -15,17 +15,20 @@ import math
 import os
 from collections.abc import Sequence
 from importlib import resources
+from pathlib import Path
 
 import jinja2
 from markupsafe import Markup
 
 from briefgen import __version__
+from briefgen.assets import Logo
 from briefgen.config import BriefSpec
 from briefgen.deliver.gate import GateResult
 from briefgen.document import Document
 from briefgen.errors import RenderError
 from briefgen.history.change import SinceLastTime
 from briefgen.history.record import RunRecord
+from briefgen.pdf_artifacts import mark_margin_artifacts
 from briefgen.present.family import Family
 from briefgen.present.finding import Finding
 from briefgen.stats import BriefStats
@@ -43,13 +46,18 @@ def _environment() -> jinja2.Environment:
     )
 
 
-def render_html(doc: Document, spec: BriefSpec) -> str:
-    """The self-contained HTML brief: inline CSS, figures as SVG data URIs."""
+def render_html(doc: Document, spec: BriefSpec, logo: Logo | None = None) -> str:
+    """The self-contained HTML brief: inline CSS, figures and logo as data URIs."""
     css = resources.files("briefgen").joinpath("templates/brief.css").read_text(encoding="utf-8")
     template = _environment().get_template("brief.html.j2")
     # The stylesheet ships with the package and is trusted; autoescaping stays on for all data.
     return template.render(
-        doc=doc, css=Markup(css), description=spec.description, version=__version__
+        doc=doc,
+        css=Markup(css),
+        description=spec.description,
+        version=__version__,
+        accent=spec.brand.accent,
+        logo=logo,
     )
 
 
@@ -72,10 +80,16 @@ def _fixed_font_timestamp(built_on: str):
             os.environ["SOURCE_DATE_EPOCH"] = previous
 
 
-def render_pdf(html: str, built_on: str) -> bytes:
-    """Tagged PDF (PDF/UA-1) with embedded fonts; figure alt text becomes /Alt."""
+def render_pdf(html: str, built_on: str, folder: Path | None = None) -> bytes:
+    """Tagged PDF (PDF/UA-1) with embedded fonts; figure alt text becomes /Alt.
+
+    WeasyPrint may read only inlined data and files under ``folder`` (the config's):
+    fetcher.LocalOnlyFetcher.
+    """
     try:
         import weasyprint
+
+        from briefgen.fetcher import LocalOnlyFetcher
     except OSError as exc:  # missing Pango or another system library
         raise RenderError(
             f"the PDF engine could not start ({exc}).",
@@ -84,7 +98,10 @@ def render_pdf(html: str, built_on: str) -> bytes:
     logging.getLogger("weasyprint").setLevel(logging.ERROR)
     logging.getLogger("fontTools").setLevel(logging.ERROR)
     with _fixed_font_timestamp(built_on):
-        return weasyprint.HTML(string=html, base_url=None).write_pdf(pdf_variant="pdf/ua-1")
+        fetcher = LocalOnlyFetcher(folder)
+        return weasyprint.HTML(string=html, base_url=None, url_fetcher=fetcher).write_pdf(
+            pdf_variant="pdf/ua-1", finisher=mark_margin_artifacts
+        )
 
 
 def _plain(value):

@@ -210,20 +210,30 @@ def test_chart_labels_are_shortened_to_two_lines():
 # --- HTML at phone and desktop widths (headless Chromium) ---
 
 CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+# Per frame: viewport width, document scroll width, and the smallest chart scale, the
+# rendered width of a chart image over its natural width (its print size in CSS px).
 PROBE = """<script>
 addEventListener('load', () => {
   const p = document.createElement('pre');
   p.id = 'measure';
-  p.textContent = [...document.querySelectorAll('iframe')].map(f =>
-    f.contentDocument.documentElement.clientWidth + ' ' + f.contentDocument.documentElement.scrollWidth
-  ).join(';');
+  p.textContent = [...document.querySelectorAll('iframe')].map(f => {
+    const root = f.contentDocument.documentElement;
+    const charts = [...f.contentDocument.querySelectorAll('figure img')];
+    const scale = Math.min(...charts.map(i => i.getBoundingClientRect().width / i.naturalWidth));
+    return root.clientWidth + ' ' + root.scrollWidth + ' ' + Math.round(scale * 1000);
+  }).join(';');
   document.body.appendChild(p);
 });
 </script>"""
 
 
 def scroll_widths(brief: Path, widths: tuple[int, ...], folder: Path) -> list[tuple[int, int]]:
-    """(viewport width, document scroll width) of ``brief`` in frames of each width.
+    """(viewport width, document scroll width) of ``brief`` in frames of each width."""
+    return [(viewport, scroll) for viewport, scroll, _scale in measure(brief, widths, folder)]
+
+
+def measure(brief: Path, widths: tuple[int, ...], folder: Path) -> list[tuple[int, int, float]]:
+    """(viewport width, document scroll width, smallest chart scale) of ``brief`` per width.
 
     The brief goes into a srcdoc frame of a probe page, a copy: the real brief carries no
     script. A frame, not the window, sets the width, since Chromium keeps its window at
@@ -254,7 +264,8 @@ def scroll_widths(brief: Path, widths: tuple[int, ...], folder: Path) -> list[tu
     )
     found = re.search(r'<pre id="measure">([0-9 ;]+)</pre>', result.stdout)
     assert found, result.stderr[-2000:]
-    return [tuple(int(v) for v in pair.split()) for pair in found.group(1).split(";")]
+    rows = [[int(v) for v in triple.split()] for triple in found.group(1).split(";")]
+    return [(viewport, scroll, scale / 1000) for viewport, scroll, scale in rows]
 
 
 @pytest.mark.skipif(
@@ -266,3 +277,22 @@ def test_html_does_not_scroll_sideways(long_briefs, demo_brief, tmp_path):
         assert [viewport for viewport, _ in measured] == [390, 1280]
         for viewport, scroll in measured:
             assert scroll <= viewport, (brief.name, viewport, scroll)
+
+
+@pytest.mark.skipif(
+    CHROMIUM is None, reason="chromium is not installed (make system-deps installs it)"
+)
+def test_chart_text_stays_readable_on_a_phone(demo_brief, tmp_path):
+    """Chart text in CSS px at 390 and 1280 px: 8 pt (the theme's smallest) × 4/3 × scale.
+
+    Before: charts shrank to the phone's width, scale 0.56, so 8 pt text was 6.0 px. Now a
+    chart keeps 160 mm and scrolls in its own box: at least 10 px on a phone and a desktop
+    (10 px: common practice for the smallest legible screen text, no published source).
+    """
+    from briefgen.figures.theme import MIN_FONT_PT
+
+    measured = measure(demo_brief / "brief.html", (390, 1280), tmp_path)
+    for viewport, scroll, scale in measured:
+        smallest_px = MIN_FONT_PT * 4 / 3 * scale
+        assert smallest_px >= 10.0, (viewport, scale)
+        assert scroll <= viewport, (viewport, scroll)  # the chart scrolls, not the page

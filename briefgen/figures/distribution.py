@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from briefgen.figures.theme import (
     ACCENT,
+    ACCENT_TEXT,
     BOX_FILL,
     INK,
     LINE,
@@ -140,7 +141,7 @@ def _draw_means(
         textcoords="offset points",
         va="top",
         fontsize=8,
-        color=ACCENT,
+        color=ACCENT_TEXT,
     )
     axes.set_xlabel(f"Mean {label.lower()}")
     axes.set_title(

@@ -7,6 +7,7 @@ not grow with the data; the line and band come from the full-data fit.
 from __future__ import annotations
 
 import numpy as np
+from matplotlib.colors import to_rgba
 
 from briefgen.figures.cross import SERIES_COLOURS, SERIES_MARKERS
 from briefgen.figures.theme import (
@@ -14,6 +15,7 @@ from briefgen.figures.theme import (
     LINE,
     MUTED,
     POINT,
+    POINT_ALPHA,
     SHORTENED_NOTE,
     Chart,
     new_figure,
@@ -57,7 +59,13 @@ def relationship_chart(
     """
     if by_group is not None and by_group.group in sample.groups:
         return _by_group_chart(
-            fit, sample, x_label, y_label, by_group, group_label or by_group.group, height + 0.2
+            fit,
+            sample,
+            (x_label, y_label),
+            by_group,
+            group_label or by_group.group,
+            slope_decimals,
+            height + 0.2,
         )
     if fit.slope is None or fit.residual_sd is None:
         return None
@@ -70,9 +78,17 @@ def relationship_chart(
         figure = new_figure(height)
         axes = figure.subplots()
         axes.scatter(
-            xs[keep], ys[keep], s=5, color=POINT, alpha=0.35, linewidths=0, rasterized=True
+            xs[keep], ys[keep], s=5, color=POINT, alpha=POINT_ALPHA, linewidths=0, rasterized=True
         )
-        axes.fill_between(grid, bands[:, 0], bands[:, 1], color=BAND, alpha=0.8, linewidth=0)
+        # The light fill shows the band; its edge in the line's colour gives it 3:1 on white.
+        axes.fill_between(
+            grid,
+            bands[:, 0],
+            bands[:, 1],
+            facecolor=to_rgba(BAND, 0.8),
+            edgecolor=LINE,
+            linewidth=0.5,
+        )
         axes.plot(grid, fit.intercept + fit.slope * grid, color=LINE, linewidth=2)
         axes.set_xlabel(x_label)
         axes.set_ylabel(y_label)
@@ -105,15 +121,16 @@ def relationship_chart(
 def _by_group_chart(
     fit: RegressionFit,
     sample: Sample,
-    x_label: str,
-    y_label: str,
+    labels: tuple[str, str],
     slopes: GroupSlopes,
     group_label: str,
+    slope_decimals: int,
     height: float = 3.3,
 ) -> Chart | None:
     """Points and a line per level of the confounding group; colour and marker both differ."""
     if fit.slope is None:
         return None
+    x_label, y_label = labels
     xs = np.array([np.nan if v is None else v for v in sample.x[fit.predictor]], dtype=float)
     ys = np.array(sample.y, dtype=float)
     levels = np.array(sample.groups[slopes.group], dtype=object)
@@ -130,7 +147,8 @@ def _by_group_chart(
                 s=7,
                 marker=marker,
                 color=colour,
-                alpha=0.45,
+                # Opaque: reddish purple reaches 3:1 on white only at full strength.
+                alpha=1.0,
                 linewidths=0,
                 rasterized=True,
             )
@@ -172,9 +190,12 @@ def _by_group_chart(
         )
         + (f" {SHORTENED_NOTE}" if shortened(level.level for level in drawn) else "")
     )
+    # Written from the fitted slopes, so a screen reader hears the numbers the lines show.
+    within = "; ".join(f"{level.level} {fmt(level.slope, slope_decimals)}" for level in drawn)
     alt = (
-        f"Scatter plot of {y_label.lower()} against {x_label.lower()} coloured by {group_label}, "
-        f"with one fitted line per level and a dashed overall line of the opposite or a weaker slope."
+        f"Scatter plot of {y_label.lower()} against {x_label.lower()} by {group_label}, one "
+        f"fitted line per level. Slope per unit within each level: {within}. Through all rows "
+        f"together: {fmt(fit.slope, slope_decimals)}."
     )
     return Chart(
         key=f"fit-{fit.predictor}",

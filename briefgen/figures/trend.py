@@ -30,7 +30,7 @@ def _draw_periods(axes, trend: Trend, middles: list[dt.datetime]) -> None:
     axes.vlines(middles, lows, highs, color=LINE, linewidth=1.6)
     # One line per run of consecutive periods: a missing period breaks the line.
     for begin, end in runs([p.start for p in trend.periods], trend.period):
-        axes.plot(middles[begin:end], means[begin:end], color=LINE, linewidth=0.8, alpha=0.6)
+        axes.plot(middles[begin:end], means[begin:end], color=LINE, linewidth=0.8)
     full = [(m, v) for m, v, p in zip(middles, means, trend.periods, strict=True) if not p.partial]
     part = [(m, v) for m, v, p in zip(middles, means, trend.periods, strict=True) if p.partial]
     if full:
