@@ -90,14 +90,19 @@ class DataSpec(_Strict):
 
 
 class EngineSpec(_Strict):
-    """Which engine runs the statistics. Only ``source`` reads this.
+    """Which engine runs the statistics, and how much memory it may hold. Only ``source`` reads this.
 
     ``threads``: engine threads; None (default) uses every core. The statistics give the
     same bytes on any number (exact sums, ``briefgen.stats.core.exact``).
+    ``memory_limit`` caps what DuckDB holds in memory (its own size syntax, ``1GB``,
+    ``512MB``); beyond it, tables, sorts and joins spill to ``temp_dir`` (default: the
+    system's temporary folder), so data larger than memory still complete.
     """
 
     backend: Literal["duckdb"] = "duckdb"
     threads: int | None = Field(default=None, ge=1)
+    memory_limit: str = Field(default="1GB", pattern=r"(?i)^\s*\d+(\.\d+)?\s*(k|m|g|t)i?b\s*$")
+    temp_dir: str | None = None
 
 
 class TimeSpec(_Strict):

@@ -18,11 +18,11 @@ import math
 from dataclasses import dataclass
 from fractions import Fraction
 
-import ibis
 import ibis.expr.types as ir
 from scipy import stats as scipy_stats
 
 from briefgen.stats.core.exact import FixedPoint, exact_sum, value_of
+from briefgen.stats.core.ranking import doubled_average_rank
 from briefgen.stats.core.references import median_references
 
 
@@ -116,12 +116,9 @@ def correlation_p_value(r: float | None, n: int) -> float | None:
     return float(2.0 * scipy_stats.t.sf(abs(t), dof))
 
 
-def _average_rank(column: ir.NumericColumn, both: ir.BooleanColumn) -> ir.NumericColumn:
-    """Average rank (1-based, ties share the mean of their ranks) among rows where ``both``."""
-    # ibis.rank() is SQL RANK() − 1: the lowest 0-based rank of the tie group.
-    lowest = ibis.rank().over(group_by=both, order_by=column) + 1
-    ties = column.count().over(group_by=[both, column])
-    return lowest + (ties - 1) / 2
+def _average_rank(column: ir.NumericColumn, both: ir.BooleanColumn, n: int) -> ir.NumericColumn:
+    """Average rank (1-based, ties share the mean of their ranks) among the n rows where ``both``."""
+    return doubled_average_rank(column, n, group_by=both) / 2
 
 
 def _centred_sums(
@@ -145,7 +142,7 @@ def _centred_sums(
         x = frame[column]
         both = x.notnull() & y.notnull()
         # Mean of average ranks over the n used rows is exactly (n + 1)/2.
-        rank_centre = (y.count().over(group_by=both) + 1) / 2
+        rank_centre = (n + 1) / 2
         rank_scale = FixedPoint.fit(n / 2, n)  # |average rank − (n + 1)/2| ≤ (n − 1)/2
         scales[i] = {
             "value": tuple(
@@ -163,8 +160,8 @@ def _centred_sums(
         columns |= {
             f"value_x{i}": value_x.quantise(x - references[f"x_ref{i}"], both),
             f"value_y{i}": value_y.quantise(y - references[f"y_ref{i}"], both),
-            f"rank_x{i}": rank_x.quantise(_average_rank(x, both) - rank_centre, both),
-            f"rank_y{i}": rank_y.quantise(_average_rank(y, both) - rank_centre, both),
+            f"rank_x{i}": rank_x.quantise(_average_rank(x, both, n) - rank_centre, both),
+            f"rank_y{i}": rank_y.quantise(_average_rank(y, both, n) - rank_centre, both),
         }
     if not columns:
         return {}

@@ -18,12 +18,12 @@ from __future__ import annotations
 
 from dataclasses import dataclass, replace
 
-import ibis
 import ibis.expr.types as ir
 import numpy as np
 from scipy import stats as scipy_stats
 
 from briefgen.stats.core.additive import additive_fit, blocks
+from briefgen.stats.core.ranking import doubled_average_rank
 from briefgen.stats.core.shifted import deviations
 from briefgen.stats.core.summary import summarise
 
@@ -77,13 +77,9 @@ def _scaled(table: ir.Table, scale: str) -> ir.Table:
     if scale == "log":
         return table.mutate(y=table.y.ln())
     if scale == "rank":
-        # Average rank of ties: lowest (0-based) + 1 + (ties − 1) / 2.
-        ranked = table.mutate(
-            lowest=ibis.rank().over(order_by=table.y),
-            ties=table.y.count().over(group_by=table.y),
-        )
-        average = ranked.lowest.cast("float64") + 1 + (ranked.ties.cast("float64") - 1) / 2
-        return ranked.select("row", "column", y=average)
+        # Average rank of ties (see stats.core.ranking).
+        doubled = doubled_average_rank(table.y, table.count().over())
+        return table.select("row", "column", y=doubled.cast("float64") / 2)
     return table
 
 

@@ -22,11 +22,11 @@ from dataclasses import dataclass, replace
 from itertools import combinations
 
 import ibis
-import ibis.expr.datatypes as dt
 import ibis.expr.types as ir
 from scipy import stats as scipy_stats
 
 from briefgen.stats.core.exact import DECIMAL, FixedPoint, as_integer, exact_sum, value_of
+from briefgen.stats.core.ranking import doubled_average_rank
 from briefgen.stats.welch import holm
 
 logger = logging.getLogger(__name__)
@@ -104,15 +104,9 @@ def usable_rows(levels_table: ir.Table, levels: Sequence[str]) -> ir.Table:
 def rank_sums(levels_table: ir.Table, levels: Sequence[str]) -> RankSums | None:
     """Doubled rank sums per level and the tie term, ranking all rows of ``levels`` together."""
     rows = usable_rows(levels_table, levels)
-    # rank() gives the lowest rank of a tie group (0-based in Ibis); the count over
-    # the tie partition is its size, so the average rank is lowest + 1 + (ties − 1)/2
-    # and twice it, 2·lowest + 1 + ties, is an integer.
-    ranked = rows.mutate(
-        lowest=ibis.rank().over(order_by=rows.y),
-        ties=rows.y.count().over(group_by=rows.y),
-    )
-    doubled = (2 * ranked.lowest + 1 + ranked.ties).cast(dt.int64)
-    per_level = ranked.group_by("level").aggregate(n=ranked.count(), doubled=doubled.sum())
+    # Twice the average rank is an integer (see stats.core.ranking).
+    ranked = rows.mutate(doubled=doubled_average_rank(rows.y, rows.count().over()))
+    per_level = ranked.group_by("level").aggregate(n=ranked.count(), doubled=ranked.doubled.sum())
     tie_groups = rows.group_by("y").aggregate(size=rows.count().cast(DECIMAL))
     # 38-digit integers: t³ overflows int64 once a tie group exceeds ~2 million rows, and a
     # float sum of such terms would depend on the engine's thread order.

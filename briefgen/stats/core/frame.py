@@ -21,7 +21,7 @@ import ibis.expr.datatypes as dt
 import ibis.expr.types as ir
 
 from briefgen.config import BriefSpec
-from briefgen.source import category, numeric, time_values
+from briefgen.source import category, materialize, numeric, time_values
 from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.exact import FixedPoint, as_integer, exact_sum, value_of
 
@@ -188,7 +188,7 @@ def build_frame(
     narrow = table.select(**columns)
     if cache:
         # One scan of the file; every later pass reads the engine's columnar copy.
-        narrow = narrow.cache()
+        narrow = materialize(narrow)
     schema = table.schema()
     shown = {
         name: shown_levels(narrow, key, name, spec.max_levels, schema[name].is_numeric())
