@@ -1,59 +1,125 @@
-"""Large copies of the demo deliveries, written to Parquet one row group at a time.
+"""Invented warehouse pick jobs for the speed benchmark, written one chunk at a time.
 
-The demo generator makes one DataFrame per call; here it is called once per
-chunk with a different seed, and each chunk goes straight into a Parquet row
-group, so at most one chunk of pandas rows is in memory however large the file.
-Files are cached under ``benchmarks/.data/`` and reused when present.
+Every row is made up by a seeded generator: a pick job at one of 12 sites, in one
+of 3 shifts, for one of 6 product lines, with the number of items and the walking
+distance (the two predictors), the minutes it took (the target, right-skewed:
+lognormal noise plus a few long stalls) and its start time over one year. A small
+share of cells is empty, as in real exports.
+
+The file is written in chunks of ``CHUNK_ROWS`` rows (one generator call and one
+Parquet row group or CSV block each, the seed raised by one per chunk), so memory
+stays at one chunk however many rows are asked for. Files are cached under
+``benchmarks/.data/`` (not committed) and written under a temporary name, renamed
+when complete, so an interrupted run never leaves a short file behind.
+
+Run ``python benchmarks/data.py --rows 1000000 --format csv`` to make one file; it
+prints the path.
 """
 
 from __future__ import annotations
 
-import logging
+import argparse
 import os
 from pathlib import Path
 
+import numpy as np
 import pyarrow as pa
+import pyarrow.csv as pa_csv
 import pyarrow.parquet as pq
-
-from briefgen.demo.generate import SEED, generate
-
-log = logging.getLogger(__name__)
 
 DATA_DIR = Path(__file__).resolve().parent / ".data"
 CHUNK_ROWS = 1_000_000
+SEED = 20261202
+
+SITES = tuple(
+    f"Depot {name}"
+    for name in [
+        "Ash",
+        "Birch",
+        "Cedar",
+        "Elm",
+        "Fir",
+        "Hazel",
+        "Larch",
+        "Maple",
+        "Oak",
+        "Pine",
+        "Rowan",
+        "Yew",
+    ]
+)
+SHIFTS = ("early", "late", "night")
+LINES = ("chilled", "dry goods", "frozen", "household", "produce", "bulky")
+START = np.datetime64("2026-01-01T00:00:00", "s")
+SECONDS_IN_YEAR = 365 * 24 * 3600
+MISSING_SHARE = 0.001  # empty target and distance cells
 
 
-def dataset_path(rows: int, directory: Path = DATA_DIR) -> Path:
+def generate_chunk(seed: int, rows: int) -> pa.Table:
+    """One chunk of pick jobs as an Arrow table; the same seed gives the same rows."""
+    rng = np.random.default_rng(seed)
+    site = rng.integers(0, len(SITES), rows)
+    shift = rng.choice(len(SHIFTS), rows, p=(0.45, 0.35, 0.20))
+    line = rng.integers(0, len(LINES), rows)
+    items = rng.poisson(8.0, rows) + 1
+    distance = np.round(rng.gamma(2.0, 150.0, rows), 1)
+    # Sites differ by up to 30%, the night shift is 15% slower, bulky lines 40%.
+    site_factor = 0.85 + 0.3 * (site / (len(SITES) - 1))
+    shift_factor = np.where(shift == 2, 1.15, 1.0)
+    line_factor = np.where(line == len(LINES) - 1, 1.4, 1.0)
+    base = 2.0 + 0.45 * items + 0.01 * distance
+    minutes = base * site_factor * shift_factor * line_factor * rng.lognormal(0.0, 0.35, rows)
+    stalled = rng.random(rows) < 0.01
+    minutes = np.round(minutes + np.where(stalled, rng.exponential(30.0, rows), 0.0), 2)
+    started = START + rng.integers(0, SECONDS_IN_YEAR, rows).astype("timedelta64[s]")
+    no_minutes = rng.random(rows) < MISSING_SHARE
+    no_distance = rng.random(rows) < MISSING_SHARE
+    return pa.table(
+        {
+            "started_at": pa.array(started, pa.timestamp("s")),
+            "site": pa.DictionaryArray.from_arrays(site.astype(np.int32), list(SITES)),
+            "shift": pa.DictionaryArray.from_arrays(shift.astype(np.int32), list(SHIFTS)),
+            "product_line": pa.DictionaryArray.from_arrays(line.astype(np.int32), list(LINES)),
+            "items": pa.array(items, pa.int64()),
+            "distance_m": pa.array(distance, mask=no_distance),
+            "pick_minutes": pa.array(minutes, mask=no_minutes),
+        }
+    )
+
+
+def dataset_path(rows: int, data_format: str, directory: Path = DATA_DIR) -> Path:
     """Where the file with ``rows`` rows lives; the name records the row count."""
-    return directory / f"deliveries_{rows}.parquet"
+    return directory / f"picks_{rows}.{data_format}"
 
 
-def chunk_sizes(rows: int, chunk_rows: int = CHUNK_ROWS) -> list[int]:
-    """Split ``rows`` into chunks of at most ``chunk_rows``."""
-    full, rest = divmod(rows, chunk_rows)
-    return [chunk_rows] * full + ([rest] if rest else [])
-
-
-def write_dataset(rows: int, target: Path, chunk_rows: int = CHUNK_ROWS) -> None:
-    """Write ``rows`` demo rows to ``target``, one generator call and row group per chunk."""
-    # Write beside the target and rename at the end, so an interrupted run never
-    # leaves a short file that a later run would take for a finished one.
+def write_dataset(rows: int, data_format: str, target: Path) -> None:
+    """Write ``rows`` rows to ``target`` as CSV or Parquet, one chunk at a time."""
     partial = target.with_name(f".{target.name}.partial")
-    writer: pq.ParquetWriter | None = None
+    writer = None
     try:
-        for index, size in enumerate(chunk_sizes(rows, chunk_rows)):
-            # A different seed per chunk: repeated chunks would make a file whose
-            # quantiles and ties are unlike real data of that size.
-            frame = generate(seed=SEED + index, rows=size)
-            chunk = pa.Table.from_pandas(frame, preserve_index=False)
-            del frame
-            if writer is None:
+        for index, start in enumerate(range(0, rows, CHUNK_ROWS)):
+            chunk = generate_chunk(SEED + index, min(CHUNK_ROWS, rows - start))
+            if data_format == "csv":
+                # Plain text columns: a CSV has no dictionary, and time as ISO text.
+                chunk = chunk.cast(
+                    pa.schema(
+                        [
+                            pa.field(
+                                f.name, pa.string() if pa.types.is_dictionary(f.type) else f.type
+                            )
+                            for f in chunk.schema
+                        ]
+                    )
+                )
+                if writer is None:
+                    writer = pa_csv.CSVWriter(partial, chunk.schema)
+            elif writer is None:
                 writer = pq.ParquetWriter(partial, chunk.schema, compression="zstd")
-            writer.write_table(chunk.cast(writer.schema), row_group_size=chunk_rows)
-            log.info("%s: wrote chunk %d (%d rows)", target.name, index + 1, size)
-        if writer is not None:
-            writer.close()
-            writer = None
+            writer.write_table(chunk) if data_format == "csv" else writer.write_table(
+                chunk, row_group_size=CHUNK_ROWS
+            )
+        writer.close()
+        writer = None
         os.replace(partial, target)
     finally:
         if writer is not None:
@@ -61,11 +127,22 @@ def write_dataset(rows: int, target: Path, chunk_rows: int = CHUNK_ROWS) -> None
         partial.unlink(missing_ok=True)
 
 
-def ensure_dataset(rows: int, directory: Path = DATA_DIR) -> Path:
-    """The cached file with ``rows`` rows, generated first if missing or of another size."""
-    target = dataset_path(rows, directory)
-    if target.exists() and pq.ParquetFile(target).metadata.num_rows == rows:
-        return target
-    directory.mkdir(parents=True, exist_ok=True)
-    write_dataset(rows, target)
+def ensure_dataset(rows: int, data_format: str, directory: Path = DATA_DIR) -> Path:
+    """The cached file with ``rows`` rows, generated first when missing."""
+    target = dataset_path(rows, data_format, directory)
+    if not target.exists():
+        directory.mkdir(parents=True, exist_ok=True)
+        write_dataset(rows, data_format, target)
     return target
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--rows", type=int, required=True)
+    parser.add_argument("--format", choices=["csv", "parquet"], required=True)
+    args = parser.parse_args()
+    print(ensure_dataset(args.rows, args.format))
+
+
+if __name__ == "__main__":
+    main()

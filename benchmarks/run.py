@@ -1,214 +1,214 @@
-"""Speed and memory of briefgen on large data, as ratios against a baseline from the same run.
+"""Speed and memory of ``briefgen build`` against a floor and a hand-written script.
 
-For each row count the demo deliveries are scaled up (see ``data.py``) and three
-things are measured, each in a fresh Python process so the peak resident set
-size belongs to that measurement alone:
+For each row count and file format the invented pick jobs of ``data.py`` are
+measured three ways, each in a fresh child process whose wall time and peak
+resident memory (``ru_maxrss`` of that child, from ``os.wait4``) are recorded:
 
-* baseline: one DuckDB scan that any analysis of the target pays at least once
-  (count, mean and median of the target), on the same engine and thread count
-  as briefgen's source;
-* statistics stage: ``briefgen.stats.compute(open_source(spec), spec)`` with the
-  demo spec pointed at the large file;
-* the rest of the pipeline (document, HTML, PDF, stats.json) from those results,
-  which should not grow with the number of rows.
+* build: ``briefgen build`` writing brief.html, brief.pdf and stats.json;
+* floor: one DuckDB query computing the brief's per-group aggregates (``floor.py``);
+* by hand: a careful pandas + matplotlib script drawing the same charts (``by_hand.py``).
 
-Run ``make bench`` or ``.venv/bin/python benchmarks/run.py --rows 100000,1000000``.
+The table gives seconds, MiB and the ratios build/floor and build/by hand, all from
+the same run, so they mean something on a busy machine too. ``--rows 100000000
+--format parquet`` makes 100M rows and runs build and floor only.
+
+Run ``make bench`` or ``.venv/bin/python benchmarks/run.py --rows 1000000``.
 """
 
 from __future__ import annotations
 
 import argparse
-import json
-import logging
-import resource
-import statistics
+import os
+import shutil
 import subprocess
 import sys
+import tempfile
 import time
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING
 
-from data import ensure_dataset
-
-if TYPE_CHECKING:
-    from briefgen.config import BriefSpec
-
+HERE = Path(__file__).resolve().parent
 DEFAULT_ROWS = (1_000_000, 10_000_000)
-# A fixed build date keeps the PDF bytes, and so their size, the same from run to run.
-BUILT_ON = "2026-10-01"
+# Above this many rows the hand-written script (which holds every row in pandas) is skipped.
+BY_HAND_UP_TO = 20_000_000
+BUILT_ON_EPOCH = "1796169600"  # a fixed build date: the same PDF bytes from run to run
 MIB = 1024 * 1024
-# Engine and pipeline modules are imported inside the measuring functions, so each
-# child process loads only what its measurement needs and the imports stay untimed.
 
-
-def peak_mib() -> float:
-    """This process's peak resident set size so far, in MiB."""
-    # Linux carries ru_maxrss across exec, so a child started by a parent that once
-    # held a large chunk would report the parent's peak; VmHWM belongs to the
-    # child's own address space. ru_maxrss (KiB on Linux) is the fallback elsewhere.
-    status = Path("/proc/self/status")
-    if status.exists():
-        for line in status.read_text().splitlines():
-            if line.startswith("VmHWM:"):
-                return int(line.split()[1]) * 1024 / MIB
-    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss * 1024 / MIB
-
-
-def measure_baseline(path: Path) -> dict[str, float]:
-    """Time one aggregate scan of the target: the least any analysis must read."""
-    import ibis
-
-    from briefgen.source import ENGINE_THREADS
-
-    idle = peak_mib()
-    started = time.perf_counter()
-    con = ibis.duckdb.connect(threads=ENGINE_THREADS)
-    table = con.read_parquet(path)
-    minutes = table["delivery_minutes"]
-    # quantile(0.5) compiles to DuckDB's quantile_cont, which must hold the column.
-    query = table.aggregate(rows=table.count(), mean=minutes.mean(), median=minutes.quantile(0.5))
-    query.to_pyarrow()
-    seconds = time.perf_counter() - started
-    return {"seconds": seconds, "peak_mib": peak_mib(), "idle_mib": idle}
-
-
-def demo_spec_for(path: Path) -> BriefSpec:
-    """The demo spec, reading ``path`` instead of the packaged CSV."""
-    from importlib import resources
-
-    from briefgen.config import DataSpec, parse_spec
-
-    demo = Path(str(resources.files("briefgen").joinpath("demo/demo.yaml")))
-    spec = parse_spec(demo.read_text(encoding="utf-8"), demo)
-    return spec.model_copy(update={"data": DataSpec(path=str(path.resolve()))})
-
-
-def measure_brief(path: Path) -> dict[str, float]:
-    """Time the statistics stage, read its peak memory, then time the rest of the pipeline."""
-    from briefgen.source import open_source
-    from briefgen.stats import compute
-
-    spec = demo_spec_for(path)
-    idle = peak_mib()
-    started = time.perf_counter()
-    stats = compute(open_source(spec), spec)
-    stats_seconds = time.perf_counter() - started
-    # Read before rendering: matplotlib and WeasyPrint are not part of the statistics stage.
-    stats_peak = peak_mib()
-
-    import weasyprint  # noqa: F401  (imported here so its import is not timed below)
-
-    from briefgen.document import build_document
-    from briefgen.render import render_html, render_json, render_pdf
-
-    started = time.perf_counter()
-    doc = build_document(stats, spec, BUILT_ON, rows_label=Path(spec.data.path).name)
-    html = render_html(doc, spec)
-    pdf = render_pdf(html, BUILT_ON)
-    stats_json = render_json(stats, spec, BUILT_ON)
-    render_seconds = time.perf_counter() - started
-    return {
-        "seconds": stats_seconds,
-        "peak_mib": stats_peak,
-        "idle_mib": idle,
-        "render_seconds": render_seconds,
-        "html_bytes": len(html.encode("utf-8")),
-        "pdf_bytes": len(pdf),
-        "json_bytes": len(stats_json.encode("utf-8")),
-        "rows_read": stats.accounting.rows_read,
-    }
-
-
-def run_child(kind: str, path: Path) -> dict[str, float]:
-    """Run one measurement in a fresh interpreter and return what it reported."""
-    command = [sys.executable, str(Path(__file__).resolve()), "--child", kind, "--data", str(path)]
-    done = subprocess.run(command, stdout=subprocess.PIPE, text=True, check=True)
-    return json.loads(done.stdout.strip().splitlines()[-1])
-
-
-def warm_page_cache(path: Path) -> None:
-    """Read the file once so neither measurement pays for the first read from disk."""
-    with path.open("rb") as stream:
-        while stream.read(64 * MIB):
-            pass
+CONFIG = """\
+title: Pick jobs (benchmark)
+data:
+  path: {path}
+target: pick_minutes
+groups: [site, shift, product_line]
+predictors: [items, distance_m]
+time: started_at
+log_target: true
+output:
+  dir: {work}/out
+  formats: [html, pdf, json]
+"""
 
 
 @dataclass(frozen=True, slots=True)
-class SizeResult:
-    """Everything measured for one row count (best time over the repeats)."""
+class Run:
+    """One child process: wall seconds, CPU seconds, peak resident MiB, and what it printed."""
+
+    seconds: float
+    cpu_seconds: float
+    peak_mib: float
+    output: str
+
+
+def run_child(command: list[str], env: dict[str, str] | None = None) -> Run:
+    """Run ``command``, wait for it with ``os.wait4`` and return its time and peak memory.
+
+    ``ru_maxrss`` from ``wait4`` belongs to that child alone. Linux carries the peak
+    across ``exec`` from the parent's address space, so this parent imports nothing
+    heavy (no pandas, no engine) and stays far below what it measures.
+    """
+    started = time.perf_counter()
+    child = subprocess.Popen(command, stdout=subprocess.PIPE, stderr=subprocess.PIPE, env=env)
+    output = child.stdout.read().decode()
+    errors = child.stderr.read().decode()
+    _, status, usage = os.wait4(child.pid, 0)
+    seconds = time.perf_counter() - started
+    child.returncode = os.waitstatus_to_exitcode(status)
+    if child.returncode != 0:
+        raise SystemExit(f"{' '.join(command)} failed ({child.returncode}):\n{errors[-2000:]}")
+    return Run(seconds, usage.ru_utime + usage.ru_stime, usage.ru_maxrss * 1024 / MIB, output)
+
+
+@dataclass(frozen=True, slots=True)
+class Measured:
+    """Everything measured for one row count and format (best time, highest peak)."""
 
     rows: int
-    baseline_seconds: float
-    stats_seconds: float
-    render_seconds: float
-    baseline_mib: float
-    stats_mib: float
-    baseline_idle_mib: float
-    stats_idle_mib: float
-    html_bytes: int
-    pdf_bytes: int
-    json_bytes: int
+    data_format: str
+    file_mib: float
+    build: tuple[Run, ...]
+    before: tuple[Run, ...]
+    floor: tuple[Run, ...]
+    by_hand: tuple[Run, ...]
+    outputs: dict[str, int]
 
-
-def measure_size(rows: int, repeat: int) -> SizeResult:
-    """Measure baseline and brief ``repeat`` times each, alternating, in fresh processes."""
-    path = ensure_dataset(rows)
-    warm_page_cache(path)
-    baselines, briefs = [], []
-    for round_number in range(1, repeat + 1):
-        log(f"{rows:,} rows, round {round_number}/{repeat}: baseline")
-        baselines.append(run_child("baseline", path))
-        log(f"{rows:,} rows, round {round_number}/{repeat}: statistics and render")
-        briefs.append(run_child("brief", path))
-    if briefs[0]["rows_read"] != rows:
-        raise SystemExit(f"{path} gave {briefs[0]['rows_read']} rows, expected {rows}")
-    return SizeResult(
-        rows=rows,
-        baseline_seconds=min(b["seconds"] for b in baselines),
-        stats_seconds=min(b["seconds"] for b in briefs),
-        render_seconds=min(b["render_seconds"] for b in briefs),
-        baseline_mib=max(b["peak_mib"] for b in baselines),
-        stats_mib=max(b["peak_mib"] for b in briefs),
-        baseline_idle_mib=statistics.median(b["idle_mib"] for b in baselines),
-        stats_idle_mib=statistics.median(b["idle_mib"] for b in briefs),
-        html_bytes=briefs[-1]["html_bytes"],
-        pdf_bytes=briefs[-1]["pdf_bytes"],
-        json_bytes=briefs[-1]["json_bytes"],
-    )
-
-
-def format_table(results: list[SizeResult]) -> str:
-    """A plain fixed-width table, one line per row count."""
-    header = (
-        f"{'rows':>12} {'base s':>8} {'stats s':>8} {'ratio':>7} {'render s':>9} "
-        f"{'base MiB':>9} {'stats MiB':>10} {'ratio':>7} "
-        f"{'html B':>9} {'pdf B':>9} {'json B':>9}"
-    )
-    lines = [header, "-" * len(header)]
-    for r in results:
-        lines.append(
-            f"{r.rows:>12,} {r.baseline_seconds:>8.2f} {r.stats_seconds:>8.2f} "
-            f"{r.stats_seconds / r.baseline_seconds:>7.1f} {r.render_seconds:>9.2f} "
-            f"{r.baseline_mib:>9.0f} {r.stats_mib:>10.0f} {r.stats_mib / r.baseline_mib:>7.2f} "
-            f"{r.html_bytes:>9,} {r.pdf_bytes:>9,} {r.json_bytes:>9,}"
+    @staticmethod
+    def best(runs: tuple[Run, ...]) -> tuple[float, float, float] | None:
+        """(least wall seconds, least CPU seconds, highest peak MiB) over the repeats."""
+        if not runs:
+            return None
+        return (
+            min(r.seconds for r in runs),
+            min(r.cpu_seconds for r in runs),
+            max(r.peak_mib for r in runs),
         )
-    return "\n".join(lines)
 
 
-def format_growth(results: list[SizeResult]) -> str:
-    """How much each output and the render time grew from the smallest to the largest size."""
-    small, large = results[0], results[-1]
-    parts = [
-        f"html {large.html_bytes / small.html_bytes:.3f}",
-        f"pdf {large.pdf_bytes / small.pdf_bytes:.3f}",
-        f"json {large.json_bytes / small.json_bytes:.3f}",
-        f"render time {large.render_seconds / small.render_seconds:.2f}",
-    ]
-    return (
-        f"growth from {small.rows:,} to {large.rows:,} rows "
-        f"({large.rows / small.rows:g}x): " + ", ".join(parts)
+def load() -> str:
+    return " ".join(Path("/proc/loadavg").read_text().split()[:3])
+
+
+def measure(
+    rows: int, data_format: str, repeat: int, with_hand: bool, before: Path | None
+) -> Measured:
+    python = sys.executable
+    made = run_child([python, str(HERE / "data.py"), "--rows", str(rows), "--format", data_format])
+    path = Path(made.output.strip().splitlines()[-1])
+    with path.open("rb") as stream:  # into the page cache, so no measurement pays the disk
+        while stream.read(64 * MIB):
+            pass
+    work = Path(tempfile.mkdtemp(prefix="briefgen-bench-"))
+    try:
+        config = work / "brief.yaml"
+        config.write_text(CONFIG.format(path=path, work=work), encoding="utf-8")
+        env = dict(os.environ, SOURCE_DATE_EPOCH=BUILT_ON_EPOCH)
+        briefgen = str(Path(python).with_name("briefgen"))
+        build, earlier, floor, hand = [], [], [], []
+        for round_number in range(1, repeat + 1):
+            log(f"{rows:,} {data_format}, round {round_number}/{repeat} (load {load()}): build")
+            build.append(run_child([briefgen, "--quiet", "build", str(config)], env))
+            if before is not None:
+                log(f"{rows:,} {data_format}: build with {before}")
+                older = dict(env, PYTHONPATH=str(before))
+                earlier.append(run_child([briefgen, "--quiet", "build", str(config)], older))
+            log(f"{rows:,} {data_format}: floor")
+            floor.append(run_child([python, str(HERE / "floor.py"), str(path)]))
+            if with_hand:
+                log(f"{rows:,} {data_format}: by hand")
+                hand.append(
+                    run_child([python, str(HERE / "by_hand.py"), str(path), str(work / "hand")])
+                )
+        outputs = {
+            name: (work / "out" / name).stat().st_size
+            for name in ("brief.html", "brief.pdf", "stats.json")
+        }
+    finally:
+        shutil.rmtree(work, ignore_errors=True)
+    return Measured(
+        rows,
+        data_format,
+        path.stat().st_size / MIB,
+        tuple(build),
+        tuple(earlier),
+        tuple(floor),
+        tuple(hand),
+        outputs,
     )
+
+
+def format_table(results: list[Measured]) -> str:
+    """One line per row count and format: wall and CPU seconds, peak MiB, ratios, output sizes."""
+    header = (
+        f"{'rows':>11} {'format':>7} | {'build s':>7} {'cpu':>6} {'MiB':>5} | "
+        f"{'floor s':>7} {'cpu':>5} {'MiB':>5} | {'hand s':>6} {'cpu':>5} {'MiB':>5} | "
+        f"{'b/floor':>7} {'cpu':>5} {'b/hand':>6} {'b-2f s':>6} | "
+        f"{'html B':>8} {'pdf B':>8} {'json B':>8}"
+    )
+    lines, befores = [header, "-" * len(header)], []
+    for m in results:
+        build_s, build_cpu, build_mib = m.best(m.build)
+        floor_s, floor_cpu, floor_mib = m.best(m.floor)
+        hand = m.best(m.by_hand)
+        hand_cells = (
+            f"{hand[0]:>6.1f} {hand[1]:>5.1f} {hand[2]:>5.0f}"
+            if hand
+            else f"{'-':>6} {'-':>5} {'-':>5}"
+        )
+        ratio_hand = f"{build_s / hand[0]:>6.2f}" if hand else f"{'-':>6}"
+        lines.append(
+            f"{m.rows:>11,} {m.data_format:>7} | {build_s:>7.1f} {build_cpu:>6.1f} {build_mib:>5.0f} | "
+            f"{floor_s:>7.2f} {floor_cpu:>5.1f} {floor_mib:>5.0f} | {hand_cells} | "
+            f"{build_s / floor_s:>7.1f} {build_cpu / floor_cpu:>5.1f} {ratio_hand} "
+            f"{build_s - 2 * floor_s:>6.1f} | {m.outputs['brief.html']:>8,} "
+            f"{m.outputs['brief.pdf']:>8,} {m.outputs['stats.json']:>8,}"
+        )
+        if m.before:
+            before_s, before_cpu, before_mib = m.best(m.before)
+            befores.append(
+                f"{m.rows:>11,} {m.data_format:>7}: before {before_s:.1f} s (cpu {before_cpu:.1f} s), "
+                f"{before_mib:.0f} MiB; now {build_s:.1f} s (cpu {build_cpu:.1f} s), {build_mib:.0f} "
+                f"MiB: {before_s / build_s:.2f}x faster (cpu {before_cpu / build_cpu:.2f}x), "
+                f"{before_mib / build_mib:.2f}x less memory"
+            )
+    return "\n".join(lines + ([""] + befores if befores else []))
+
+
+def format_growth(results: list[Measured]) -> list[str]:
+    """Per format, how peak memory and output sizes grew from the fewest rows to the most."""
+    lines = []
+    for data_format in sorted({m.data_format for m in results}):
+        sized = sorted((m for m in results if m.data_format == data_format), key=lambda m: m.rows)
+        if len(sized) < 2:
+            continue
+        small, large = sized[0], sized[-1]
+        grow = [f"build peak {large.best(large.build)[2] / small.best(small.build)[2]:.2f}x"]
+        grow += [
+            f"{name} {large.outputs[name] / small.outputs[name]:.3f}x" for name in small.outputs
+        ]
+        lines.append(
+            f"{data_format}: from {small.rows:,} to {large.rows:,} rows "
+            f"({large.rows / small.rows:g}x): " + ", ".join(grow)
+        )
+    return lines
 
 
 def log(message: str) -> None:
@@ -222,34 +222,39 @@ def parse_args(argv: list[str] | None = None) -> argparse.Namespace:
         default=",".join(str(n) for n in DEFAULT_ROWS),
         help="comma-separated row counts (default 1000000,10000000)",
     )
-    parser.add_argument("--repeat", type=int, default=1, help="runs per measurement; best is kept")
-    parser.add_argument("--child", choices=["baseline", "brief"], help=argparse.SUPPRESS)
-    parser.add_argument("--data", type=Path, help=argparse.SUPPRESS)
+    parser.add_argument(
+        "--format", default="csv,parquet", help="csv, parquet or both (default csv,parquet)"
+    )
+    parser.add_argument(
+        "--repeat", type=int, default=1, help="runs per measurement; best time kept"
+    )
+    parser.add_argument(
+        "--before",
+        type=Path,
+        help="also build with the briefgen package in this folder (for example "
+        "`git archive main briefgen | tar -x -C DIR`), for before/after in one run",
+    )
     return parser.parse_args(argv)
 
 
 def main(argv: list[str] | None = None) -> int:
     args = parse_args(argv)
-    if args.child:
-        logging.basicConfig(level=logging.WARNING)
-        measure = measure_baseline if args.child == "baseline" else measure_brief
-        print(json.dumps(measure(args.data)))
-        return 0
-    logging.basicConfig(level=logging.INFO, format="%(message)s")
     sizes = sorted({int(n.replace("_", "")) for n in args.rows.split(",") if n.strip()})
-    if not sizes or sizes[0] <= 0 or args.repeat < 1:
-        raise SystemExit("--rows needs positive row counts and --repeat at least 1")
-    results = [measure_size(rows, args.repeat) for rows in sizes]
+    formats = [f.strip() for f in args.format.split(",") if f.strip()]
+    if not sizes or sizes[0] <= 0 or args.repeat < 1 or not set(formats) <= {"csv", "parquet"}:
+        raise SystemExit("--rows needs positive counts, --format csv and/or parquet, --repeat ≥ 1")
+    started_load = load()
+    results = []
+    for rows in sizes:
+        for data_format in formats:
+            results.append(
+                measure(rows, data_format, args.repeat, rows <= BY_HAND_UP_TO, args.before)
+            )
+            log(format_table(results))  # so far, in case a later size fails
+    print(f"{os.cpu_count()} cores; load average at start {started_load}, at end {load()}")
     print(format_table(results))
-    print(
-        "resident MiB after imports, before any query (median): "
-        + ", ".join(
-            f"{r.rows:,} rows: baseline {r.baseline_idle_mib:.0f}, stats {r.stats_idle_mib:.0f}"
-            for r in results
-        )
-    )
-    if len(results) > 1:
-        print(format_growth(results))
+    for line in format_growth(results):
+        print(line)
     return 0
 
 

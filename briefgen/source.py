@@ -195,9 +195,16 @@ _CONVERSION = re.compile(
 
 @contextmanager
 def reading(label: str) -> Iterator[None]:
-    """Turn the engine's error for a value that does not fit its column into a sentence."""
+    """Turn the engine's error for a value that does not fit its column, or for running out
+    of its memory limit, into a sentence."""
     try:
         yield
+    except duckdb.OutOfMemoryException:
+        raise ConfigError(
+            f"{label}: the engine needed more memory than engine.memory_limit allows and could "
+            "not spill the rest to disk; raise engine.memory_limit in the config (for example "
+            "to 4GB), or check that engine.temp_dir has free space."
+        ) from None
     except duckdb.ConversionException as exc:
         found = _CONVERSION.search(str(exc))
         if not found:

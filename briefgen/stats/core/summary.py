@@ -22,6 +22,7 @@ from dataclasses import dataclass
 import ibis
 import ibis.expr.types as ir
 import pyarrow as pa
+import pyarrow.compute as pc
 
 from briefgen.stats.core.exact import FixedPoint, exact_sum, quantise, value_of
 from briefgen.stats.core.shifted import moments_from_shifted, t_interval
@@ -105,18 +106,31 @@ def _float(value: object) -> float | None:
     return None if math.isnan(value) else value
 
 
-def order_statistics(table: ir.Table, keys: Sequence[str]) -> ir.Table:
-    """Pass 1: counts and type 7 quantiles of ``y`` per key."""
+QUARTILES = ("q1", "median", "q3")
+
+
+def order_statistics(table: ir.Table, keys: Sequence[str]) -> pa.Table:
+    """Pass 1: counts and type 7 quantiles of ``y`` per key.
+
+    The three quartiles come from one quantile call: the engine then holds each key's
+    values once, not once per quartile (a third of the memory, and one selection pass).
+    """
     y = table.y
-    return table.group_by(list(keys)).aggregate(
-        rows=table.count(),
-        n=y.count(),
-        min=y.min(),
-        q1=y.quantile(0.25),
-        median=y.quantile(0.5),
-        q3=y.quantile(0.75),
-        max=y.max(),
+    found = (
+        table.group_by(list(keys))
+        .aggregate(
+            rows=table.count(),
+            n=y.count(),
+            min=y.min(),
+            quartiles=y.quantile([0.25, 0.5, 0.75]),
+            max=y.max(),
+        )
+        .to_pyarrow()
     )
+    quartiles = found.column("quartiles")
+    for i, name in enumerate(QUARTILES):
+        found = found.append_column(name, pc.list_element(quartiles, i))
+    return found.drop_columns(["quartiles"])
 
 
 def axis_range(pass1: list[dict]) -> tuple[float, float]:
@@ -213,13 +227,13 @@ def summarise(
     missing part is summarised like any other.
     """
     keys = list(keys)
-    pass1_arrow = order_statistics(table, keys).to_pyarrow()
+    pass1_arrow = order_statistics(table, keys)
     pass1 = pass1_arrow.to_pylist()
     # Later passes join this small result back as a literal table, so the engine does not
     # recompute the quantiles (a sort per key) inside every later query.
     scales = [deviation_scale(row) for row in pass1]
     quartiles = ibis.memtable(
-        pass1_arrow.select([*keys, "q1", "median", "q3"]).append_column(
+        pass1_arrow.select([*keys, *QUARTILES]).append_column(
             "scale", pa.array([scale.factor for scale in scales], pa.float64())
         )
     )
