@@ -264,7 +264,11 @@ def compare_groups(
     strongly_skewed = skewness is not None and abs(skewness) > STRONG_SKEW
     # Ranks are defined with ties, so the rank test stands in when Welch's cannot run.
     needs_ranks = strongly_skewed or undefined_reason is not None
-    ranks = rank_test(levels_table, [s.level for s in tested]) if needs_ranks else None
+    ranks = (
+        rank_test(levels_table, [s.level for s in tested], sum(s.n for s in tested))
+        if needs_ranks
+        else None
+    )
     leans_on, reason = lean_on(skewness, ranks, welch_runs=undefined_reason is None)
     reference = reference_level(tested, fold)
     overall = pooled_mean(summaries)

@@ -101,11 +101,18 @@ def usable_rows(levels_table: ir.Table, levels: Sequence[str]) -> ir.Table:
     return table.filter(table.y.notnull() & table.level.isin(list(levels))).select("level", "y")
 
 
-def rank_sums(levels_table: ir.Table, levels: Sequence[str]) -> RankSums | None:
-    """Doubled rank sums per level and the tie term, ranking all rows of ``levels`` together."""
+def rank_sums(
+    levels_table: ir.Table, levels: Sequence[str], values: int | None = None
+) -> RankSums | None:
+    """Doubled rank sums per level and the tie term, ranking all rows of ``levels`` together.
+
+    ``values``, when the caller knows it, is the number of rows ranked (target values in
+    ``levels``); it spares the engine a second window that counts them.
+    """
     rows = usable_rows(levels_table, levels)
+    counted = rows.count().over() if values is None else values
     # Twice the average rank is an integer (see stats.core.ranking).
-    ranked = rows.mutate(doubled=doubled_average_rank(rows.y, rows.count().over()))
+    ranked = rows.mutate(doubled=doubled_average_rank(rows.y, counted))
     per_level = ranked.group_by("level").aggregate(n=ranked.count(), doubled=ranked.doubled.sum())
     tie_groups = rows.group_by("y").aggregate(size=rows.count().cast(DECIMAL))
     # 38-digit integers: t³ overflows int64 once a tie group exceeds ~2 million rows, and a
@@ -190,12 +197,14 @@ def dunn_pairs(sums: RankSums) -> tuple[RankPair, ...]:
     return tuple(RankPair(*pair) for pair in pairs)
 
 
-def rank_test(levels_table: ir.Table, levels: Sequence[str]) -> RankTest | None:
+def rank_test(
+    levels_table: ir.Table, levels: Sequence[str], values: int | None = None
+) -> RankTest | None:
     """Mann–Whitney for two levels, Kruskal–Wallis for more; None with fewer than two.
 
     Either carries Dunn's pairwise tests, which order claims rest on.
     """
-    sums = rank_sums(levels_table, levels)
+    sums = rank_sums(levels_table, levels, values)
     if sums is None:
         return None
     test = mann_whitney(sums) if len(sums.levels) == 2 else kruskal_wallis(sums)
