@@ -1,8 +1,8 @@
 """Two-way tables: the target summarised in every cell of two group variables.
 
-The engine does all per-row work. Cells and margins are computed by one call to
-the core ``summarise`` over the key columns (part, row, column) of four stacked
-copies of the rows, so they share its exact median-shifted two-pass mean and sd
+The engine does all per-row work. Cells and margins are computed by the core
+``summarise`` over the key columns (part, row, column) of four tagged copies of the
+rows, one call per copy, so they share its exact median-shifted two-pass mean and sd
 and its type 7 quantiles; a margin's missing level is a null key, joined back
 with IS NOT DISTINCT FROM.
 
@@ -156,11 +156,14 @@ class CrossTable:
         return next((c for c in pool if c.row == row and c.column == column), None)
 
 
-def _stacked(frame_table: ir.Table, row_column: str, col_column: str) -> ir.Table:
-    """Four stacked copies of the rows with both levels: cells, row and column margins, total.
+def _parts(frame_table: ir.Table, row_column: str, col_column: str) -> list[ir.Table]:
+    """Four copies of the rows with both levels: cells, row and column margins, total.
 
     ``part`` tags the copy; a margin's missing level is null, so the core summary's
-    key columns (part, row, column) need no joined string keys.
+    key columns (part, row, column) need no joined string keys. Each copy is summarised
+    on its own: stacked into one query, the engine would hold every value four times at
+    once for the quartiles (4 × 10M values at 10M rows), which a memory limit cannot
+    spill.
     """
     table = frame_table
     both = table.filter(table[row_column].notnull() & table[col_column].notnull())
@@ -172,7 +175,7 @@ def _stacked(frame_table: ir.Table, row_column: str, col_column: str) -> ir.Tabl
         both.select(part=ibis.literal(_COLUMN), row=none, column=column, y=both.y),
         both.select(part=ibis.literal(_TOTAL), row=none, column=none, y=both.y),
     ]
-    return ibis.union(*parts, distinct=False)
+    return parts
 
 
 def _cell(summary: Summary, row: str | None, column: str | None, min_cell: int) -> CrossCell:
@@ -216,10 +219,12 @@ def cross_table(
     Levels are listed in label order. ``scale`` is the scale of the interaction
     test (see ``briefgen.stats.interaction``).
     """
-    stacked = _stacked(frame_table, row_column, col_column)
-    keyed = summarise(stacked, ["part", "row", "column"], confidence, list_outliers=False)
+    summaries = {}
+    for part in _parts(frame_table, row_column, col_column):
+        keys = ["part", "row", "column"]
+        summaries |= summarise(part, keys, confidence, list_outliers=False).summaries
     cells, row_margins, column_margins, total = [], [], [], None
-    for (tag, row, column), summary in keyed.summaries.items():
+    for (tag, row, column), summary in summaries.items():
         cell = _cell(summary, row, column, min_cell)
         if tag == _CELL:
             cells.append(cell)
