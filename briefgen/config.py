@@ -89,15 +89,35 @@ class DataSpec(_Strict):
         return refuse_url(value)
 
 
+# A Spark Connect address: sc://host:port, optionally followed by /;key=value settings.
+_SPARK_CONNECT = re.compile(r"^sc://[^/:;\s]+(:\d{1,5})?(/;\S*)?$")
+
+
 class EngineSpec(_Strict):
     """Which engine runs the statistics. Only ``source`` reads this.
 
     ``threads``: engine threads; None (default) uses every core. The statistics give the
     same bytes on any number (exact sums, ``briefgen.stats.core.exact``).
+    ``pyspark`` starts a local Spark session, or with ``connect`` reaches a Spark
+    Connect server (``sc://host:15002``), which runs the queries on its cluster.
     """
 
-    backend: Literal["duckdb"] = "duckdb"
+    backend: Literal["duckdb", "pyspark"] = "duckdb"
     threads: int | None = Field(default=None, ge=1)
+    connect: str | None = None
+
+    @field_validator("connect")
+    @classmethod
+    def _spark_connect_address(cls, value: str | None, info) -> str | None:
+        if value is None:
+            return None
+        if info.data.get("backend") != "pyspark":
+            raise ValueError("connect names a Spark Connect server; use it with backend: pyspark")
+        if not _SPARK_CONNECT.match(value.strip()):
+            raise ValueError(
+                "write the Spark Connect server's address as sc://host:port, e.g. sc://spark.example.org:15002"
+            )
+        return value.strip()
 
 
 class TimeSpec(_Strict):
