@@ -12,6 +12,7 @@ import os
 import shutil
 import socket
 import sys
+import warnings
 from collections.abc import Iterator
 from contextlib import contextmanager
 from pathlib import Path
@@ -38,6 +39,10 @@ LOCAL_SETTINGS = {
 # Seconds to wait for a Spark Connect server's port before saying it is unreachable.
 CONNECT_TIMEOUT = 10.0
 INSTALL_HINT = "install it with pip install 'briefgen[spark]'"
+
+# Ibis passes verifySchema when it registers a small result table; Spark Connect says it
+# ignores it, on the console, once per table.
+warnings.filterwarnings("ignore", message="'verifySchema' is ignored")
 
 
 def spark_backend(engine: EngineSpec) -> BaseBackend:

@@ -250,3 +250,75 @@ def test_missing_pyspark_is_one_sentence(monkeypatch):
     monkeypatch.setitem(sys.modules, "pyspark.sql", None)
     with pytest.raises(ConfigError, match=r"engine: pyspark needs PySpark.*briefgen\[spark\]"):
         connect(EngineSpec(backend="pyspark"))
+
+
+@pytest.fixture(scope="module")
+def spark_connect_server(tmp_path_factory):
+    """A Spark Connect server on a loopback port, started from PySpark's own jars.
+
+    PySpark 4.0 ships the server (jars/spark-connect_*.jar); it starts offline in
+    about 15 s on 2 cores. Stopped, and its process waited for, after the module.
+    """
+    import os
+    import socket
+    import time
+
+    import pyspark
+
+    home = Path(pyspark.__file__).parent
+    port = _free_loopback_port()
+    log = tmp_path_factory.mktemp("spark-connect") / "server.log"
+    env = dict(os.environ, SPARK_HOME=str(home), SPARK_LOCAL_IP="127.0.0.1")
+    command = [str(home / "bin" / "spark-submit"), "--master", "local[2]"]
+    command += ["--class", "org.apache.spark.sql.connect.service.SparkConnectServer"]
+    for setting in (
+        "spark.connect.grpc.binding.address=127.0.0.1",
+        f"spark.connect.grpc.binding.port={port}",
+        "spark.ui.enabled=false",
+        "spark.sql.shuffle.partitions=2",
+        "spark.driver.host=127.0.0.1",
+    ):
+        command += ["--conf", setting]
+    with open(log, "wb") as output:
+        server = subprocess.Popen(
+            [*command, "spark-internal"], stdout=output, stderr=output, env=env
+        )
+    try:
+        deadline = time.monotonic() + 180
+        while time.monotonic() < deadline:
+            assert server.poll() is None, log.read_text(errors="replace")[-2000:]
+            try:
+                socket.create_connection(("127.0.0.1", port), timeout=1).close()
+                break
+            except OSError:
+                time.sleep(0.5)
+        else:
+            pytest.fail(f"the Spark Connect server did not listen within 180 s: {log}")
+        yield f"sc://127.0.0.1:{port}"
+    finally:
+        server.terminate()
+        try:
+            server.wait(timeout=60)
+        except subprocess.TimeoutExpired:
+            server.kill()
+            server.wait()
+
+
+def test_brief_through_spark_connect_is_the_same(tmp_path, spark_connect_server):
+    # Constructed: a measure by two groups with one predictor, as a CSV the server reads
+    # from the same path (a shared folder on a real cluster).
+    rng = np.random.default_rng(5)
+    n = 1500
+    shift = rng.choice(["early", "late", "night"], n)
+    x = rng.uniform(1, 20, n)
+    y = 12 + 1.5 * x + 4 * (shift == "night") + rng.gamma(2, 2, n)
+    path = tmp_path / "runs.csv"
+    pd.DataFrame({"minutes": y, "km": x, "shift": shift}).to_csv(path, index=False)
+    body = "target: minutes\ngroups: [shift]\npredictors: [km]"
+    results = {}
+    for engine in ("duckdb", f"{{backend: pyspark, connect: '{spark_connect_server}'}}"):
+        spec = parse_spec(_brief_config(path, body, engine))
+        results[engine] = compute(open_source(spec), spec)
+    duck, remote = results.values()
+    _compare(duck, remote, "stats", float(y.max()), {})
+    assert remote.sample == duck.sample and remote.sample.size == n
