@@ -57,7 +57,7 @@ def engine(request: pytest.FixtureRequest) -> Iterator[BaseBackend]:
 
 @pytest.fixture
 def engine_table(engine: BaseBackend, tmp_path: Path) -> EngineTable:
-    """Turn a pandas DataFrame into an Ibis table on the test's DuckDB connection.
+    """Turn a pandas DataFrame into an Ibis table on the test's engine connection.
 
     Each call writes a new file, so the factory can be called many times in one
     test (including once per hypothesis example) without tables overwriting each other.
