@@ -30,6 +30,7 @@ from palmerpenguins import load_penguins
 
 from briefgen.config import EngineSpec, parse_spec
 from briefgen.errors import ConfigError
+from briefgen.history.record import config_as_used
 from briefgen.source import connect, open_source
 from briefgen.stats import compute
 from briefgen.stats.regression import EXACT_DISTINCT_UP_TO
@@ -186,6 +187,11 @@ def test_engine_connect_is_checked_in_the_config():
     remote = "engine: {backend: pyspark, connect: 'sc://spark.example.org:15002'}"
     spec = parse_spec(f"title: t\ndata: {{path: d.csv}}\ntarget: y\n{remote}\n")
     assert spec.engine.connect == "sc://spark.example.org:15002"
+    # Settings after "/;" may hold a token: stats.json records only the server's address.
+    with_token = remote.replace(":15002'", ":15002/;token=abc123'")
+    spec = parse_spec(f"title: t\ndata: {{path: d.csv}}\ntarget: y\n{with_token}\n")
+    assert spec.engine.connect.endswith("/;token=abc123")
+    assert config_as_used(spec)["engine"]["connect"] == "sc://spark.example.org:15002"
     for engine, needle in [
         ("{backend: duckdb, connect: 'sc://h:15002'}", "use it with backend: pyspark"),
         ("{backend: pyspark, connect: 'http://h:15002'}", "sc://host:port"),
