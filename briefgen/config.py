@@ -89,6 +89,10 @@ class DataSpec(_Strict):
         return refuse_url(value)
 
 
+# A Spark Connect address: sc://host:port, optionally followed by /;key=value settings.
+_SPARK_CONNECT = re.compile(r"^sc://[^/:;\s]+(:\d{1,5})?(/;\S*)?$")
+
+
 class EngineSpec(_Strict):
     """Which engine runs the statistics, and how much memory it may hold. Only ``source`` reads this.
 
@@ -97,12 +101,28 @@ class EngineSpec(_Strict):
     ``memory_limit`` caps what DuckDB holds in memory (its own size syntax, ``1GB``,
     ``512MB``); beyond it, tables, sorts and joins spill to ``temp_dir`` (default: the
     system's temporary folder), so data larger than memory still complete.
+    ``pyspark`` starts a local Spark session, or with ``connect`` reaches a Spark
+    Connect server (``sc://host:15002``), which runs the queries on its cluster.
     """
 
-    backend: Literal["duckdb"] = "duckdb"
+    backend: Literal["duckdb", "pyspark"] = "duckdb"
     threads: int | None = Field(default=None, ge=1)
     memory_limit: str = Field(default="1GB", pattern=r"(?i)^\s*\d+(\.\d+)?\s*(k|m|g|t)i?b\s*$")
     temp_dir: str | None = None
+    connect: str | None = None
+
+    @field_validator("connect")
+    @classmethod
+    def _spark_connect_address(cls, value: str | None, info) -> str | None:
+        if value is None:
+            return None
+        if info.data.get("backend") != "pyspark":
+            raise ValueError("connect names a Spark Connect server; use it with backend: pyspark")
+        if not _SPARK_CONNECT.match(value.strip()):
+            raise ValueError(
+                "write the Spark Connect server's address as sc://host:port, e.g. sc://spark.example.org:15002"
+            )
+        return value.strip()
 
 
 class TimeSpec(_Strict):

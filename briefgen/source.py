@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import csv
 import difflib
+import json
 import logging
 import os
 import re
@@ -54,6 +55,10 @@ def connect(engine: EngineSpec, base_dir: Path | None = None) -> BaseBackend:
     """
     if engine.backend == "duckdb":
         return _duckdb(engine, base_dir)
+    if engine.backend == "pyspark":
+        from briefgen.spark import spark_backend
+
+        return spark_backend(engine)
     raise ConfigError(f"engine '{engine.backend}' is not supported; use engine: duckdb.")
 
 
@@ -144,7 +149,9 @@ def read_table(
         if data_format == "parquet":
             table = con.read_parquet(path)
         elif data_format == "json":
-            table = con.read_json(path)
+            table = con.read_json(path, **_json_options(path, con))
+            if con.name == "pyspark":
+                table = _json_in_file_order(path, table)
         else:
             table = con.read_csv(path)
         table.schema()
@@ -159,6 +166,32 @@ def read_table(
     return table
 
 
+def _json_options(path: Path, con: BaseBackend) -> dict[str, bool]:
+    """Spark reads JSON Lines unless told the file is one array of objects."""
+    if con.name != "pyspark":
+        return {}
+    with open(path, "rb") as stream:
+        first = stream.read(4096).lstrip(b"\xef\xbb\xbf \t\r\n")
+    return {"multiLine": first.startswith(b"[")}
+
+
+def _json_in_file_order(path: Path, table: ir.Table) -> ir.Table:
+    """The columns in the order of the file's first object, as DuckDB gives them.
+
+    Spark sorts the fields of a JSON file by name; the order shows in the brief's
+    accounting, so it is put back where the first object names every column.
+    """
+    with open(path, "rb") as stream:
+        head = stream.read(65536).decode("utf-8", errors="replace").lstrip("\ufeff \t\r\n[")
+    try:
+        first, _ = json.JSONDecoder().raw_decode(head)
+    except ValueError:
+        return table
+    if not isinstance(first, dict) or sorted(first) != sorted(table.columns):
+        return table
+    return table.select(*first)
+
+
 def _whole_numbers_as_double(
     path: Path, table: ir.Table, spec: BriefSpec, label: str, con: BaseBackend
 ) -> ir.Table:
@@ -170,6 +203,10 @@ def _whole_numbers_as_double(
     missing) at no cost; columns typed DOUBLE already parse them, and text columns
     are parsed by ``numeric``.
     """
+    if con.name != "duckdb":
+        # Spark types a CSV column from every row, so a late "inf" makes it text, which
+        # ``numeric`` parses.
+        return table
     named = [spec.target, *spec.predictors]
     as_labels = set(spec.groups) | {name for pair in spec.cross or [] for name in pair}
     if spec.time is not None:

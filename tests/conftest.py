@@ -9,7 +9,7 @@ from pathlib import Path
 import ibis.expr.types as ir
 import pandas as pd
 import pytest
-from ibis.backends.duckdb import Backend as DuckDBBackend
+from ibis.backends import BaseBackend
 
 from briefgen.config import EngineSpec
 from briefgen.source import connect
@@ -17,32 +17,47 @@ from briefgen.source import connect
 EngineTable = Callable[[pd.DataFrame], ir.Table]
 
 
-def write_engine_table(engine: DuckDBBackend, frame: pd.DataFrame, path: Path) -> ir.Table:
+def write_engine_table(engine: BaseBackend, frame: pd.DataFrame, path: Path) -> ir.Table:
     """Write ``frame`` to a parquet file at ``path`` and open it as an engine table.
 
     ibis 12 with DuckDB 2.0.1 cannot ``create_table`` from pandas, so the data goes
     through parquet, as a user's file would. pyarrow stores NaN in float columns as
     null, which is what the analysis frame makes of NaN.
     """
-    frame.to_parquet(path, index=False)
+    # Microseconds: Spark reads no nanosecond timestamps from Parquet, DuckDB reads both.
+    frame.to_parquet(path, index=False, coerce_timestamps="us", allow_truncated_timestamps=True)
     return engine.read_parquet(path)
 
 
-# Backends the statistics suite runs on; a second Ibis backend joins by adding its name here.
-BACKENDS = ["duckdb"]
+# Backends the statistics suite runs on. Every test on local Spark takes minutes where
+# DuckDB takes seconds (each query costs Spark a plan and a job), so that run is slow:
+# `pytest -m slow`. tests/test_engine_spark.py compares whole briefs' statistics on
+# both engines in the default run.
+BACKENDS = ["duckdb", pytest.param("pyspark", marks=pytest.mark.slow)]
+
+
+@pytest.fixture(scope="session")
+def spark_connection() -> Iterator[BaseBackend]:
+    """One local Spark session for the whole run: starting its JVM costs 10-20 s."""
+    connection = connect(EngineSpec(backend="pyspark"))
+    yield connection
+    connection.disconnect()
 
 
 @pytest.fixture(params=BACKENDS)
-def engine(request: pytest.FixtureRequest) -> Iterator[DuckDBBackend]:
-    """One connection per test, opened through the same seam the brief uses (source.connect)."""
+def engine(request: pytest.FixtureRequest) -> Iterator[BaseBackend]:
+    """A connection per test, opened through the same seam the brief uses (source.connect)."""
+    if request.param == "pyspark":
+        yield request.getfixturevalue("spark_connection")
+        return
     connection = connect(EngineSpec(backend=request.param))
     yield connection
     connection.disconnect()
 
 
 @pytest.fixture
-def engine_table(engine: DuckDBBackend, tmp_path: Path) -> EngineTable:
-    """Turn a pandas DataFrame into an Ibis table on the test's DuckDB connection.
+def engine_table(engine: BaseBackend, tmp_path: Path) -> EngineTable:
+    """Turn a pandas DataFrame into an Ibis table on the test's engine connection.
 
     Each call writes a new file, so the factory can be called many times in one
     test (including once per hypothesis example) without tables overwriting each other.

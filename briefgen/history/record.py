@@ -124,9 +124,15 @@ def config_as_used(spec: BriefSpec) -> dict:
     """The validated config with every default filled in, as plain JSON values.
 
     ``delivery`` is left out: it says who receives the brief, not what it was built
-    from, and the addresses need not travel with every copy of stats.json.
+    from, and the addresses need not travel with every copy of stats.json. Settings
+    after ``/;`` in ``engine.connect`` may carry a Spark Connect token, so only the
+    server's address is kept.
     """
-    return spec.model_dump(mode="json", exclude={"source_file", "delivery"})
+    used = spec.model_dump(mode="json", exclude={"source_file", "delivery"})
+    connect = used["engine"].get("connect")
+    if connect and "/;" in connect:
+        used["engine"]["connect"] = connect.split("/;", 1)[0]
+    return used
 
 
 def record_run(spec: BriefSpec, table: ir.Table, rows: int) -> RunRecord:

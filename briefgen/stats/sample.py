@@ -3,6 +3,12 @@
 Rows are ranked by a hash of their values salted with the seed, and the first
 ``size`` are taken. Unlike engine sampling clauses, the result does not depend on
 thread scheduling, so the same data and seed always give the same points.
+
+The hash is plain arithmetic that every engine computes alike: engines' own hash
+functions differ (DuckDB's and Spark's give other numbers), and so does their
+text for a double. Each value is read as its sign and its remainders modulo a
+prime at a few power-of-two scales (all exact in IEEE arithmetic), and the
+integers are mixed modulo a prime small enough that no product leaves 64 bits.
 """
 
 from __future__ import annotations
@@ -10,10 +16,15 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 
 import ibis
+import ibis.expr.datatypes as dt
 import ibis.expr.types as ir
 
 SAMPLE_SIZE = 5000
 SEED = 20240917
+# The Mersenne prime 2^31 - 1 and Park and Miller's (1988) multiplier 48271: every
+# product of two residues stays below 2^62, so no engine overflows or wraps.
+PRIME = 2_147_483_647
+MULTIPLIER = 48_271
 
 
 @dataclass(frozen=True, slots=True)
@@ -56,17 +67,16 @@ def draw_sample(
     # Identical rows would share a hash and be taken all together or not at all; numbering
     # the copies gives each its own key. Copies are numbered in the order of their groups,
     # so the numbering is the same on any number of engine threads (copies that also share
-    # their groups are interchangeable).
+    # their groups are interchangeable). The row number is a window function, so Ibis keeps
+    # this projection apart from the next: the squarings then repeat a column name, not the
+    # whole key expression.
     numbered = usable.mutate(
         _copy=ibis.row_number().over(
             group_by=[usable[c] for c in values], order_by=[usable[g] for g in groups]
-        )
+        ),
+        _key=_polynomial([part for name in values for part in _exact_parts(usable[name])], seed),
     )
-    key = ibis.literal(str(seed))
-    for name in values:
-        key = key + "|" + numbered[name].cast("string").fill_null("")
-    key = key + "|" + numbered["_copy"].cast("string")
-    ranked = numbered.mutate(_order=key.hash())
+    ranked = numbered.mutate(_order=_scrambled(numbered["_key"], numbered["_copy"]))
     chosen = (
         ranked.order_by(["_order", "y", *predictors, *groups])
         .limit(size)
@@ -79,3 +89,43 @@ def draw_sample(
         x={p: tuple(None if v is None else float(v) for v in columns[p]) for p in predictors},
         groups={g: tuple(columns[g]) for g in groups},
     )
+
+
+# Scales at which a value's bits are read: |v|·2^k modulo a prime keeps every bit of v
+# for 2^-147 ≤ |v| < 2^1024 at one scale or another (multiplying by a power of two
+# and taking a remainder are exact), and overflow is cut off below 2^(1000 - k).
+SCALES = (0, 100, 200)
+
+
+def _exact_parts(value: ir.FloatingValue) -> list[ir.IntegerValue]:
+    """A double as integers below 2^31 that every engine computes alike; missing is its own code."""
+    size = value.abs()
+    kind = ibis.ifelse(value.isnull(), 2, ibis.ifelse(value < 0, 1, 0)).cast(dt.int64)
+    parts = [kind]
+    for scale in SCALES:
+        residue = ((size * 2.0**scale) % PRIME).floor().cast(dt.int64)
+        if scale:
+            residue = ibis.ifelse(size < 2.0 ** (1000 - scale), residue, 0)
+        parts.append(residue.fill_null(0))
+    return parts
+
+
+def _polynomial(parts: list[ir.IntegerValue], seed: int) -> ir.IntegerValue:
+    """Integers below 2^31 combined into one residue modulo ``PRIME``, salted with ``seed``."""
+    # Start from a column, not a literal: engines type a literal as 32-bit and would overflow.
+    mixed = (parts[0] + seed % PRIME) % PRIME
+    for part in parts[1:]:
+        mixed = (mixed * MULTIPLIER + part) % PRIME
+    return mixed
+
+
+def _scrambled(key: ir.IntegerValue, copy: ir.IntegerValue) -> ir.IntegerValue:
+    """The key and copy number, with three squarings to break the polynomial's linearity.
+
+    Without them the copies of one row would get consecutive residues and be drawn
+    all together or not at all.
+    """
+    mixed = (key * MULTIPLIER + copy.cast(dt.int64)) % PRIME
+    for _ in range(3):
+        mixed = (mixed * mixed + MULTIPLIER) % PRIME
+    return mixed
