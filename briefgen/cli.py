@@ -250,9 +250,9 @@ def _check(config: Path, console: Console) -> None:
     from briefgen.source import open_source
 
     spec = load_spec(config)
-    build_date()  # a bad SOURCE_DATE_EPOCH is a config problem too
+    built_on = build_date()  # a bad SOURCE_DATE_EPOCH is a config problem too
     load_logo(spec)  # a logo outside the config's folder, or not an image, is refused here too
-    source = open_source(spec)
+    source = open_source(spec, built_on)
     _say(console, ("ok", "green"), f": {config} is valid and {source.label} has every named column")
     email = spec.delivery.email
     if email is not None:

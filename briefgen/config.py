@@ -15,9 +15,18 @@ from pathlib import Path
 from typing import Any, Literal
 
 import yaml
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    ValidationError,
+    field_validator,
+    model_validator,
+)
 
 from briefgen.errors import ConfigError
+from briefgen.rows.where import WhereError, parse_where
+from briefgen.rows.window import parse_last
 
 Period = Literal["auto", "day", "week", "month", "quarter", "year"]
 
@@ -55,6 +64,8 @@ class _Strict(BaseModel):
 # A scheme followed by "//": a database or network address, not a file name.
 _URL = re.compile(r"^([A-Za-z][A-Za-z0-9+.-]*)://")
 _DATABASE_SCHEMES = ("postgres", "mysql", "mariadb", "sqlite", "duckdb", "mssql", "oracle")
+# Databases briefgen opens through Ibis from data.url; see briefgen/database.py.
+DATABASE_SCHEMES = ("postgres", "postgresql", "sqlite", "duckdb")
 
 
 def refuse_url(path: str) -> str:
@@ -68,8 +79,8 @@ def refuse_url(path: str) -> str:
     scheme = found.group(1).lower()
     if scheme.startswith(_DATABASE_SCHEMES) or "+" in scheme:
         raise ValueError(
-            f"it is a {scheme}:// database URL, and database sources are not supported yet; "
-            "export the table to a CSV, Parquet or JSON file and name that file here"
+            f"it is a {scheme}:// database URL, and data.path names a file; write the URL in "
+            "data.url instead, with data.table or data.query"
         )
     raise ValueError(
         f"it is a {scheme}:// address, and briefgen reads local files only; "
@@ -77,16 +88,122 @@ def refuse_url(path: str) -> str:
     )
 
 
-class DataSpec(_Strict):
-    """Where the data lives. ``format`` defaults to the file's extension."""
+def check_database_url(url: str) -> str:
+    """A database URL briefgen opens, with no password in it; only the scheme is ever echoed."""
+    found = _URL.match(url.strip())
+    if not found:
+        raise ValueError(
+            "write a database URL such as postgresql://user@host/database, "
+            "sqlite:///file.db or duckdb:///file.duckdb"
+        )
+    scheme = found.group(1).lower()
+    if scheme not in DATABASE_SCHEMES:
+        raise ValueError(
+            f"{scheme}:// is not a database briefgen opens; use postgresql://, sqlite:// or duckdb://"
+        )
+    authority = url.strip()[found.end() :].split("/", 1)[0]
+    if ":" in authority.rpartition("@")[0] or "password=" in url.lower():
+        raise ValueError(
+            "the URL holds a password, which cannot be written in the config; put it in an "
+            "environment variable and name that variable in data.password_env"
+        )
+    return url.strip()
 
-    path: str
-    format: Literal["csv", "parquet", "json"] | None = None
+
+def database_file(url: str, base_dir: Path) -> Path:
+    """The file a ``sqlite://`` or ``duckdb://`` URL names, relative to the config's folder.
+
+    As in SQLAlchemy's URLs: three slashes before a relative path
+    (``sqlite:///data/ops.db``), four before an absolute one (``sqlite:////srv/ops.db``).
+    """
+    found = _URL.match(url)
+    scheme = found.group(1).lower() if found else ""
+    if scheme not in ("sqlite", "duckdb"):
+        raise ConfigError(f"data.url names a {scheme}:// server, not a file.")
+    rest = url[found.end() :]
+    path = Path(rest[1:] if rest.startswith("/") else rest).expanduser()
+    return path if path.is_absolute() else Path(os.path.normpath(base_dir / path))
+
+
+class DataSpec(_Strict):
+    """Where the data live: a file (``path``) or a database (``url`` with ``table`` or ``query``).
+
+    ``format`` defaults to the file's extension; ``sheet`` picks a workbook's sheet by
+    name; a database password comes only from the environment variable ``password_env``.
+    """
+
+    path: str | None = None
+    format: Literal["csv", "parquet", "json", "excel"] | None = None
+    sheet: str | None = None
+    url: str | None = None
+    table: str | None = None
+    query: str | None = None
+    password_env: str | None = None
 
     @field_validator("path")
     @classmethod
-    def _a_file(cls, value: str) -> str:
-        return refuse_url(value)
+    def _a_file(cls, value: str | None) -> str | None:
+        return refuse_url(value) if value is not None else None
+
+    @field_validator("url")
+    @classmethod
+    def _a_database(cls, value: str | None) -> str | None:
+        return check_database_url(value) if value is not None else None
+
+    @field_validator("password_env")
+    @classmethod
+    def _env_name(cls, value: str | None) -> str | None:
+        if value is not None and not re.fullmatch(r"[A-Za-z_][A-Za-z0-9_]*", value):
+            raise ValueError("name an environment variable (letters, digits, _), not a value")
+        return value
+
+    @model_validator(mode="before")
+    @classmethod
+    def _no_password_in_the_file(cls, value: Any) -> Any:
+        if isinstance(value, dict) and "password" in value:
+            raise ValueError(
+                "'password' cannot be written in the config; put it in an environment variable "
+                "and name that variable in 'data.password_env'"
+            )
+        return value
+
+    @model_validator(mode="after")
+    def _one_source(self) -> DataSpec:
+        if (self.path is None) == (self.url is None):
+            raise ValueError("name either a file in 'path' or a database in 'url', not both")
+        if self.url is not None:
+            if (self.table is None) == (self.query is None):
+                raise ValueError("with 'url', name either a 'table' or a 'query' (one of them)")
+            if self.format is not None or self.sheet is not None:
+                raise ValueError("'format' and 'sheet' describe files; a database needs neither")
+        else:
+            for key in ("table", "query", "password_env"):
+                if getattr(self, key) is not None:
+                    raise ValueError(f"'{key}' goes with a database 'url', not with a file 'path'")
+        if self.sheet is not None and self.format not in (None, "excel"):
+            raise ValueError("'sheet' names a sheet of an Excel workbook; set format: excel")
+        return self
+
+    @property
+    def label(self) -> str:
+        """How messages and the brief name the source (a URL only without its password)."""
+        if self.path is not None:
+            return self.path
+        what = f"table {self.table}" if self.table is not None else "a query"
+        return f"{self.url} ({what})"
+
+
+class WindowSpec(_Strict):
+    """The latest period before the build date: ``{column: dispatched_at, last: 7 days}``."""
+
+    column: str
+    last: str
+
+    @field_validator("last", mode="before")
+    @classmethod
+    def _a_span(cls, value: Any) -> str:
+        parse_last(str(value))
+        return str(value)
 
 
 class EngineSpec(_Strict):
@@ -292,6 +409,9 @@ class BriefSpec(_Strict):
     groups: list[str] = Field(default_factory=list)
     predictors: list[str] = Field(default_factory=list)
     time: TimeSpec | None = None
+    # Which rows the brief covers (briefgen/rows): a filter and a window before the build date.
+    where: str | None = None
+    window: WindowSpec | None = None
     cross: list[tuple[str, str]] | None = None
     labels: dict[str, str] = Field(default_factory=dict)
     log_target: bool = False
@@ -351,6 +471,16 @@ class BriefSpec(_Strict):
             raise ValueError("log_target reports percent changes, which need a ratio scale")
         return value
 
+    @field_validator("where")
+    @classmethod
+    def _where_parses(cls, value: str | None) -> str | None:
+        if value is not None:
+            try:
+                parse_where(value)
+            except WhereError as exc:
+                raise ValueError(str(exc)) from None
+        return value
+
     @field_validator("engine", mode="before")
     @classmethod
     def _engine_shorthand(cls, value: Any) -> Any:
@@ -369,6 +499,9 @@ class BriefSpec(_Strict):
 
     @property
     def data_path(self) -> Path:
+        """The data file; for a database, the file a sqlite:// or duckdb:// URL names."""
+        if self.data.path is None:
+            return database_file(self.data.url or "", self.base_dir)
         path = Path(self.data.path).expanduser()
         return path if path.is_absolute() else Path(os.path.normpath(self.base_dir / path))
 
@@ -376,7 +509,11 @@ class BriefSpec(_Strict):
     def data_format(self) -> str:
         if self.data.format:
             return self.data.format
+        if self.data.url is not None:
+            return "database"
         suffix = self.data_path.suffix.lower().lstrip(".")
+        if suffix in {"xlsx", "xlsm"} or self.data.sheet is not None:
+            return "excel"
         if suffix in {"json", "jsonl", "ndjson"}:
             return "json"
         return "parquet" if suffix in {"parquet", "pq"} else "csv"

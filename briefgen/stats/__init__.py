@@ -129,7 +129,9 @@ def compute(source: Source, spec: BriefSpec) -> BriefStats:
     (relationships,) = _run(RelationshipAnalysis, spec, frame)
     usages = [r.usage for r in (overall, *groups, *crosses)]
     usages += [trend.usage] if trend is not None else []
-    accounting = count_rows(source.table, frame, spec, usages, relationships.references)
+    accounting = count_rows(
+        source.table, frame, spec, usages, relationships.references, scope=source.scope
+    )
     log.info("statistics done: %d rows read", accounting.rows_read)
     return BriefStats(
         target=spec.target,
