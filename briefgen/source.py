@@ -27,11 +27,12 @@ import ibis.expr.types as ir
 from ibis.backends import BaseBackend
 
 from briefgen.config import BriefSpec, EngineSpec
-from briefgen.database import open_database, safe_url, where_statistics_run
+from briefgen.database import open_database
 from briefgen.datafile import check_not_other_format, check_readable_file
 from briefgen.datatext import engine_clean, excerpt
 from briefgen.dialect import is_nan
 from briefgen.errors import ConfigError, DataError
+from briefgen.origin import origin_of
 from briefgen.workbook import read_workbook
 
 if TYPE_CHECKING:
@@ -133,6 +134,9 @@ def open_source(spec: BriefSpec, built_on: str | None = None) -> Source:
     ``built_on`` is the build date a ``window`` counts back from (default: today, or
     ``SOURCE_DATE_EPOCH``).
     """
+    # Imported here: briefgen.rows reads columns with this module's numeric() and category().
+    from briefgen.rows.scope import select_configured
+
     label = spec.data.label
     con = connect(spec.engine, spec.base_dir)
     if spec.data.url is not None:
@@ -145,9 +149,9 @@ def open_source(spec: BriefSpec, built_on: str | None = None) -> Source:
             # Parquet is read column by column already, a sheet or a copy is a table.
             table = materialize(table)
         check_columns(table, spec, label)
-        table, scope = _select(table, spec, built_on, label)
+        table, scope = select_configured(table, spec, built_on, label)
     log.info("opened %s with %d columns", label, len(table.columns))
-    return Source(table=table, label=label, scope=scope, origin=_origin(spec, scope))
+    return Source(table=table, label=label, scope=scope, origin=origin_of(spec, scope))
 
 
 def _open_file(spec: BriefSpec, label: str, con: BaseBackend) -> ir.Table:
@@ -163,49 +167,6 @@ def _open_file(spec: BriefSpec, label: str, con: BaseBackend) -> ir.Table:
     if spec.data_format == "csv":
         table = _whole_numbers_as_double(path, table, spec, label, con)
     return table
-
-
-def _select(
-    table: ir.Table, spec: BriefSpec, built_on: str | None, label: str
-) -> tuple[ir.Table, RowScope | None]:
-    """The rows ``where`` and ``window`` select (briefgen.rows); refused when none is left."""
-    # Imported here: briefgen.rows reads columns with this module's numeric() and category().
-    from briefgen.pipeline import build_date
-    from briefgen.rows.scope import select_rows
-
-    if spec.where is None and spec.window is None:
-        return table, None
-    window = (spec.window.column, spec.window.last) if spec.window is not None else None
-    selected, scope = select_rows(table, spec.where, window, built_on or build_date(), label)
-    if selected.limit(1).count().to_pyarrow().as_py() == 0:
-        keys = " and ".join(k for k in ("where", "window") if getattr(spec, k) is not None)
-        raise DataError(
-            f"{label}: no row is left after {keys} ({scope.words().removeprefix('This brief covers only the rows ').rstrip('.')}); "
-            f"widen {keys}, or check the data's dates and values."
-        )
-    return selected, scope
-
-
-def _origin(spec: BriefSpec, scope: RowScope | None) -> tuple[tuple[str, str | None], ...]:
-    data = spec.data
-    if data.url is not None:
-        facts = {
-            "kind": "database",
-            "url": safe_url(data.url),
-            "table": data.table,
-            "query": data.query,
-            "statistics_run_in": where_statistics_run(data.url),
-        }
-    else:
-        facts = {
-            "kind": "file",
-            "path": str(spec.data_path),
-            "format": spec.data_format,
-            "sheet": data.sheet,
-        }
-    facts["where"] = scope.where_words if scope is not None else None
-    facts["window"] = scope.window_words if scope is not None else None
-    return tuple(facts.items())
 
 
 def read_table(

@@ -13,6 +13,8 @@ from dataclasses import dataclass
 import ibis
 import ibis.expr.types as ir
 
+from briefgen.config import BriefSpec
+from briefgen.errors import DataError
 from briefgen.rows.compile import compile_where
 from briefgen.rows.where import (
     Between,
@@ -139,6 +141,26 @@ def select_rows(
         unselected=table, where=condition, where_words=words, window=in_window, window_spec=spec
     )
     return table.filter(keep.fill_null(False)), scope
+
+
+def select_configured(
+    table: ir.Table, spec: BriefSpec, built_on: str | None, label: str
+) -> tuple[ir.Table, RowScope | None]:
+    """The rows the config's ``where`` and ``window`` select; refused when none is left."""
+    from briefgen.pipeline import build_date  # the build date of the whole run
+
+    if spec.where is None and spec.window is None:
+        return table, None
+    window = (spec.window.column, spec.window.last) if spec.window is not None else None
+    selected, scope = select_rows(table, spec.where, window, built_on or build_date(), label)
+    if selected.limit(1).count().to_pyarrow().as_py() == 0:
+        keys = " and ".join(k for k in ("where", "window") if getattr(spec, k) is not None)
+        rows = scope.words().removeprefix("This brief covers only the rows ").rstrip(".")
+        raise DataError(
+            f"{label}: no row is left after {keys} ({rows}); widen {keys}, or check the "
+            "data's dates and values."
+        )
+    return selected, scope
 
 
 def _both(first: ir.BooleanValue | None, second: ir.BooleanValue | None) -> ir.BooleanValue:
