@@ -120,6 +120,7 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
     if spec.data.url is not None:
         notes.insert(0, where_statistics_run(spec.data.url))
     if stats.accounting.covers is not None:
+        notes = [note.replace("over every row;", "over every row it covers;") for note in notes]
         notes.insert(0, stats.accounting.covers)
     if stats.crosses:
         notes.append(
