@@ -201,6 +201,7 @@ def test_the_window_counts_back_from_source_date_epoch_and_says_so(tmp_path, mon
         "7 days before 2026-12-02 (2026-11-25 to 2026-12-01)."
     )
     assert html.count(sentence) == 2  # page 1 and "How this brief was made"
+    assert "computed by the database engine over every row it covers;" in html
     assert f"{accounting['rows_read']:,} of {len(frame):,} rows" in html
 
 
