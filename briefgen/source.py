@@ -30,7 +30,7 @@ from briefgen.config import BriefSpec, EngineSpec
 from briefgen.database import open_database
 from briefgen.datafile import check_not_other_format, check_readable_file
 from briefgen.datatext import engine_clean, excerpt
-from briefgen.dialect import is_nan
+from briefgen.dialect import is_nan, try_float, try_timestamp
 from briefgen.errors import ConfigError, DataError
 from briefgen.origin import origin_of
 from briefgen.workbook import read_workbook
@@ -340,7 +340,7 @@ def _check_numbers_in_text(table: ir.Table, named: list[tuple[str, str]], label:
     for i, (_, name) in enumerate(named):
         column = table[name]
         given = ~is_missing(table, name)
-        not_number = given & column.strip().try_cast(dt.float64).isnull()
+        not_number = given & try_float(column.strip()).isnull()
         counts[f"given{i}"] = given.sum()
         counts[f"not_number{i}"] = not_number.sum()
         counts[f"example{i}"] = ibis.ifelse(not_number, column, ibis.null(dt.string)).min()
@@ -376,10 +376,10 @@ def time_values(table: ir.Table, name: str) -> ir.TimestampColumn:
         return column
     if kind.is_numeric():
         return _years(column.cast(dt.float64))
-    as_time = column.try_cast(dt.timestamp)
+    as_time = try_timestamp(column)
     if kind.is_string():
         # A text column of years, such as "1990", reads as years too.
-        return as_time.coalesce(_years(column.strip().try_cast(dt.float64)))
+        return as_time.coalesce(_years(try_float(column.strip())))
     return as_time
 
 
@@ -450,10 +450,8 @@ def numeric(table: ir.Table, name: str) -> ir.FloatingColumn:
     missing markers such as "NA" and anything else that is no number become missing.
     """
     column = table[name]
-    if column.type().is_string():
-        column = column.strip().try_cast(dt.float64)
-    else:
-        column = column.cast(dt.float64)
+    text = column.type().is_string()
+    column = try_float(column.strip()) if text else column.cast(dt.float64)
     return ibis.ifelse(is_nan(column) | column.isinf(), ibis.null(dt.float64), column)
 
 

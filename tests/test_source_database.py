@@ -35,8 +35,18 @@ def pg():
             database="postgres",
         )  # fmt: skip
         con.create_table("penguins", load_penguins(), overwrite=True)
+        con.create_table("as_text", _as_text(), overwrite=True)
         con.disconnect()
         yield server
+
+
+def _as_text() -> pd.DataFrame:
+    """Numbers and dates stored as text, with markers a text export leaves ("NA", "inf")."""
+    minutes = [str(10 + i % 7) for i in range(40)]
+    minutes[3], minutes[9], minutes[15] = "NA", "inf", " 12.5 "
+    days = [f"2026-07-{1 + i % 28:02d} 0{i % 10}:15" for i in range(40)]
+    days[5] = "not a date"
+    return pd.DataFrame({"site": ["north", "south"] * 20, "minutes": minutes, "day": days})
 
 
 def _config(folder: Path, data: dict, **keys) -> Path:
@@ -127,6 +137,21 @@ def _close(a, b) -> bool:
     if isinstance(a, float) and isinstance(b, float):
         return a == pytest.approx(b, rel=1e-12, abs=1e-12)
     return a == b
+
+
+def test_postgres_reads_numbers_and_dates_stored_as_text(pg, tmp_path, capsys, monkeypatch):
+    # PostgreSQL's cast stops at "NA"; the brief must treat it as missing, as for a CSV.
+    monkeypatch.setenv(PASSWORD_ENV, pg.password)
+    data = {"url": pg.url(), "table": "as_text", "password_env": PASSWORD_ENV}
+    _config(tmp_path, data, target="minutes", groups=["site"], predictors=[], time="day")
+    stats = _built(tmp_path, capsys)["stats"]
+    values = pd.to_numeric(_as_text().minutes.str.strip(), errors="coerce")
+    finite = values[values.abs() != float("inf")].dropna()
+    assert stats["accounting"]["target_missing"] == 1  # "NA"
+    assert stats["accounting"]["target_not_finite"] == 1  # "inf"
+    assert stats["overall"]["n"] == len(finite) == 38
+    assert stats["overall"]["mean"] == pytest.approx(finite.mean(), rel=1e-12)
+    assert stats["trend"]["rows_without_time"] == 1  # "not a date"
 
 
 def test_a_postgres_query_is_read_like_a_table(pg, tmp_path, capsys, monkeypatch):
