@@ -133,3 +133,13 @@ def test_a_header_without_a_name_or_with_a_repeat_is_refused(tmp_path, capsys, h
 def test_a_sheet_with_format_csv_is_a_config_error(tmp_path, capsys):
     _config(tmp_path, {"path": "x.csv", "format": "csv", "sheet": "S"})
     assert "set format: excel" in _refused(tmp_path, capsys, 2)
+
+
+def test_init_proposes_a_config_from_a_workbook_that_then_builds(tmp_path, capsys):
+    _write(tmp_path / "zoo.xlsx", {"Penguins": _rows(load_penguins())})
+    config = tmp_path / "brief.yaml"
+    assert main(["--quiet", "init", str(tmp_path / "zoo.xlsx"), "--config", str(config)]) == 0
+    proposed = yaml.safe_load(config.read_text())
+    assert proposed["data"]["path"] == "zoo.xlsx"
+    assert proposed["target"] in load_penguins().columns and "species" in proposed["groups"]
+    assert main(["--quiet", "build", str(config)]) == 0, capsys.readouterr().err
