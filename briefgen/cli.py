@@ -91,7 +91,7 @@ def _parser() -> argparse.ArgumentParser:
     init = commands.add_parser(
         "init", help="propose a config from a data file's columns", parents=[common]
     )
-    init.add_argument("data", type=Path, help="CSV or Parquet file")
+    init.add_argument("data", type=Path, help="CSV, Parquet, JSON or Excel (.xlsx) file")
     init.add_argument(
         "--config", type=Path, default=Path("brief.yaml"), help="file to write (default brief.yaml)"
     )
