@@ -169,7 +169,7 @@ def test_a_table_the_database_lacks_is_named_with_the_tables_it_has(
     _config(tmp_path, {"url": pg.url(), "table": "pengiuns", "password_env": PASSWORD_ENV})
     line = _refused(tmp_path, capsys, 3)
     assert "table 'pengiuns' named by data.table is not in the database" in line
-    assert "tables are: penguins" in line
+    assert "tables are: as_text, penguins." in line
 
 
 def test_a_query_the_database_rejects_is_one_sentence(pg, tmp_path, capsys, monkeypatch):
