@@ -104,6 +104,10 @@ def test_postgres_runs_the_statistics_in_the_server(pg, tmp_path, capsys, monkey
     result = _built(tmp_path, capsys)
     _matches_pandas(result["stats"], load_penguins())
     assert result["data"] == f"{pg.url()} (table penguins)"
+    # Provenance of a database source: the query and its row count, no file hash.
+    made_from = result["made_from"]["data"]
+    assert made_from["query"] == "SELECT * FROM penguins" and made_from["rows"] == 344
+    assert made_from["sha256"] is None and made_from["format"] == "database"
     html = (tmp_path / "out" / "brief.html").read_text()
     assert "PostgreSQL ran the statistics in the database" in html
     assert pg.password not in html and pg.password not in json.dumps(result)
