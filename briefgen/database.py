@@ -2,7 +2,8 @@
 
 Where the statistics run depends on the database:
 
-- ``duckdb://`` opens the file read-only in DuckDB, which runs the statistics there.
+- ``duckdb://`` attaches the file read-only to the engine, which runs the statistics on
+  it and keeps its own tables in its private file (a query on a DuckDB file is not read yet).
 - ``postgresql://`` runs the statistics in PostgreSQL: every query is compiled by
   Ibis and only aggregates come back. The session turns parallel workers off, as one
   DuckDB thread does, so sums combine in one order and builds repeat to the last digit.
@@ -171,6 +172,23 @@ def open_database(spec: BriefSpec, label: str, engine: BaseBackend) -> ir.Table:
     scheme = url.split(":", 1)[0].lower()
     if scheme.startswith("postgres"):
         return _table_or_query(_postgres(spec, label), spec, label)
+    if scheme == "duckdb" and spec.data.table is not None:
+        # Attached read-only to the engine, which keeps its own tables in its private file.
+        path = database_file(url, spec.base_dir)
+        if not path.is_file():
+            raise DataError(f"{label}: database file not found (looked in {path}); check data.url.")
+        escaped = str(path).replace("'", "''")
+        engine.raw_sql(f"ATTACH '{escaped}' AS briefgen_source (READ_ONLY)")
+        schema, _, name = spec.data.table.rpartition(".")
+        try:
+            found = engine.table(name, database=("briefgen_source", schema or "main"))
+            found.schema()
+            return found
+        except Exception:  # noqa: BLE001
+            raise DataError(
+                f"{label}: table '{excerpt(spec.data.table)}' named by data.table is not in "
+                "the database; check data.table."
+            ) from None
     con = _file_database(spec, label, scheme)
     table = _table_or_query(con, spec, label)
     if scheme == "sqlite":
