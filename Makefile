@@ -11,12 +11,15 @@ TEST_STAMP := $(VENV)/.installed-test
 # WeasyPrint needs Pango, HarfBuzz's subsetter (repeatable font subsets) and a font; install them with apt when missing (CI and fresh machines run as root).
 # Chromium measures the HTML's width at phone and desktop sizes in tests/test_layout.py.
 # Java 17 runs the local Spark session of the pyspark engine's tests (PySpark 4.0 needs 17 or later).
+# PostgreSQL's server: tests/pg_server.py starts a throwaway cluster on 127.0.0.1 for the database tests.
 system-deps:
 	@if ! ldconfig -p | grep -q libpango-1.0 || ! ldconfig -p | grep -q libharfbuzz-subset \
-		|| ! fc-list 2>/dev/null | grep -qi dejavu || ! command -v chromium >/dev/null; then \
-		echo "installing Pango, DejaVu fonts and Chromium with apt-get"; \
+		|| ! fc-list 2>/dev/null | grep -qi dejavu || ! command -v chromium >/dev/null \
+		|| ! ls /usr/lib/postgresql/*/bin/pg_ctl >/dev/null 2>&1; then \
+		echo "installing Pango, DejaVu fonts, Chromium and PostgreSQL with apt-get"; \
 		apt-get update -qq && DEBIAN_FRONTEND=noninteractive apt-get install -y -qq \
-			libpango-1.0-0 libpangoft2-1.0-0 libharfbuzz-subset0 fonts-dejavu-core fontconfig chromium >/dev/null; \
+			libpango-1.0-0 libpangoft2-1.0-0 libharfbuzz-subset0 fonts-dejavu-core fontconfig chromium \
+			postgresql >/dev/null; \
 	fi
 	@if ! command -v java >/dev/null; then \
 		echo "installing Java 17 with apt-get (the Spark engine's tests run a local Spark)"; \

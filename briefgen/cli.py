@@ -18,6 +18,7 @@ from importlib import resources
 from pathlib import Path
 
 from rich.console import Console
+from rich.progress import Progress, ProgressColumn, SpinnerColumn, Task, TaskID, TextColumn
 from rich.text import Text
 
 from briefgen import __version__
@@ -90,7 +91,7 @@ def _parser() -> argparse.ArgumentParser:
     init = commands.add_parser(
         "init", help="propose a config from a data file's columns", parents=[common]
     )
-    init.add_argument("data", type=Path, help="CSV or Parquet file")
+    init.add_argument("data", type=Path, help="CSV, Parquet, JSON or Excel (.xlsx) file")
     init.add_argument(
         "--config", type=Path, default=Path("brief.yaml"), help="file to write (default brief.yaml)"
     )
@@ -129,23 +130,81 @@ class _Run:
         return f"the new brief was already published in {self.folder}{unsent}."
 
 
-class _StageLines(logging.Handler):
-    """One line per stage: elapsed seconds on a terminal, a UTC timestamp otherwise (logs)."""
+class _Seconds(ProgressColumn):
+    """A stage's elapsed time in seconds with tenths: most stages take under a minute."""
+
+    def render(self, task: Task) -> Text:
+        return Text(f"{task.elapsed or 0.0:6.1f} s", style="dim")
+
+
+class _Stages(logging.Handler):
+    """Draws the pipeline's stage events (logger ``briefgen.stage``): each record starts a stage.
+
+    On a terminal, a live list of stages, each with its elapsed time, the current one
+    spinning; elsewhere (cron, systemd) one UTC-timestamped line per stage, and at the
+    end one line with how long each stage took. Stage text may quote data (a file
+    name, a level), so it is cleaned of control characters and never read as markup.
+    """
 
     def __init__(self, console: Console) -> None:
         super().__init__(logging.INFO)
         self.console = console
-        self.started = time.monotonic()
+        self.progress: Progress | None = None
+        self.task: TaskID | None = None
+        self.open: tuple[str, float] | None = None  # the running stage and when it began
+        self.took: list[tuple[str, float]] = []
+        self.began = time.monotonic()
 
     def emit(self, record: logging.LogRecord) -> None:
         message = clean(record.getMessage())
-        if self.console.is_terminal:
-            seconds = time.monotonic() - self.started
-            self.console.print(Text(f"{seconds:6.1f} s  {message}", style="dim"), soft_wrap=True)
-        else:
-            stamp = dt.datetime.now(dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
-            self.console.file.write(f"{stamp} briefgen: {message}\n")
-            self.console.file.flush()
+        self._close_stage()
+        self.open = (message, time.monotonic())
+        if not self.console.is_terminal:
+            self._line(message)
+            return
+        if self.progress is None:
+            self.progress = Progress(
+                SpinnerColumn(finished_text="✓"),
+                TextColumn("{task.description}", markup=False),
+                _Seconds(),
+                console=self.console,
+            )
+            self.progress.start()
+        self.task = self.progress.add_task(message, total=1)
+
+    def _close_stage(self) -> None:
+        if self.open is not None:
+            message, start = self.open
+            self.took.append((message, time.monotonic() - start))
+            self.open = None
+        if self.progress is not None and self.task is not None:
+            self.progress.update(self.task, completed=1)
+            self.progress.stop_task(self.task)
+            self.task = None
+
+    def _line(self, message: str) -> None:
+        stamp = dt.datetime.now(dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+        self.console.file.write(f"{stamp} briefgen: {message}\n")
+        self.console.file.flush()
+
+    def finish(self, succeeded: bool) -> None:
+        """End the display; the running stage is marked done only when the build succeeded."""
+        if succeeded:
+            self._close_stage()
+        if self.progress is not None:
+            self.progress.stop()
+            self.progress = None
+        elif succeeded and self.took:
+            took = ", ".join(f"{message} {seconds:.1f} s" for message, seconds in self.took)
+            self._line(f"done in {time.monotonic() - self.began:.1f} s: {took}")
+        self.open, self.task, self.took = None, None, []
+        self.began = time.monotonic()
+
+
+def _finish_stages(succeeded: bool) -> None:
+    for handler in logging.getLogger("briefgen.stage").handlers:
+        if isinstance(handler, _Stages):
+            handler.finish(succeeded)
 
 
 def _say(console: Console, *parts: str | tuple[str, str]) -> None:
@@ -217,6 +276,7 @@ def _build(config: Path, options: _BuildOptions, console: Console, run: _Run) ->
         result = build_brief(
             spec, folder, built_on, compare=options.compare, skip_checks=options.skip_checks
         )
+        _finish_stages(succeeded=True)
         for path in result.files:
             _say(console, f"  wrote {path} ({path.stat().st_size / 1024:,.0f} KiB)")
         _say(
@@ -250,9 +310,9 @@ def _check(config: Path, console: Console) -> None:
     from briefgen.source import open_source
 
     spec = load_spec(config)
-    build_date()  # a bad SOURCE_DATE_EPOCH is a config problem too
+    built_on = build_date()  # a bad SOURCE_DATE_EPOCH is a config problem too
     load_logo(spec)  # a logo outside the config's folder, or not an image, is refused here too
-    source = open_source(spec)
+    source = open_source(spec, built_on)
     _say(console, ("ok", "green"), f": {config} is valid and {source.label} has every named column")
     email = spec.delivery.email
     if email is not None:
@@ -276,7 +336,7 @@ def _configure_logging(args: argparse.Namespace, errors: Console) -> None:
             handler.setFormatter(_CleanFormatter("%(name)s: %(message)s"))
     stages = logging.getLogger("briefgen.stage")
     stages.propagate = False
-    stages.handlers = [] if getattr(args, "quiet", False) else [_StageLines(errors)]
+    stages.handlers = [] if getattr(args, "quiet", False) else [_Stages(errors)]
     stages.setLevel(logging.INFO)
 
 
@@ -307,6 +367,7 @@ def main(argv: list[str] | None = None) -> int:
             _say(console, ("wrote", "green"), f" {path}; check it, then run: briefgen build {path}")
         elif args.command == "demo":
             _build(demo_config_path(), _BuildOptions(args.out, send=False), console, run)
+        _finish_stages(succeeded=True)
     except HeldError as exc:
         _say(errors, ("held: ", "bold red"), str(exc))
         return exc.exit_code
@@ -337,6 +398,7 @@ def main(argv: list[str] | None = None) -> int:
         )
         return EXIT_INTERNAL
     finally:
+        _finish_stages(succeeded=False)  # a stopped or failed build: end the display as it is
         signal.signal(signal.SIGTERM, previous)
     return 0
 

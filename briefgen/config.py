@@ -15,9 +15,20 @@ from pathlib import Path
 from typing import Any, Literal
 
 import yaml
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, field_validator
+from pydantic import (
+    BaseModel,
+    Field,
+    ValidationError,
+    field_validator,
+)
 
+from briefgen.dataspec import DataSpec, Strict, WindowSpec, database_file
 from briefgen.errors import ConfigError
+from briefgen.rows.where import WhereError, parse_where
+
+__all__ = ["BriefSpec", "DataSpec", "EngineSpec", "OutputSpec", "TimeSpec", "WindowSpec"]
+# Every part of the config refuses unknown keys; the old name stays for code written against it.
+_Strict = Strict
 
 Period = Literal["auto", "day", "week", "month", "quarter", "year"]
 
@@ -46,47 +57,6 @@ def fill_tokens(text: str, built_on: str, **extra: str) -> str:
     } | extra
     # A plain substitution, not str.format: a template must not reach attributes.
     return _TOKEN.sub(lambda match: values.get(match.group(1), match.group(0)), text)
-
-
-class _Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
-
-
-# A scheme followed by "//": a database or network address, not a file name.
-_URL = re.compile(r"^([A-Za-z][A-Za-z0-9+.-]*)://")
-_DATABASE_SCHEMES = ("postgres", "mysql", "mariadb", "sqlite", "duckdb", "mssql", "oracle")
-
-
-def refuse_url(path: str) -> str:
-    """Refuse a database URL or network address in ``data.path``, echoing only its scheme.
-
-    The rest of a URL may carry a user name and password, so it is never quoted.
-    """
-    found = _URL.match(path.strip())
-    if not found:
-        return path
-    scheme = found.group(1).lower()
-    if scheme.startswith(_DATABASE_SCHEMES) or "+" in scheme:
-        raise ValueError(
-            f"it is a {scheme}:// database URL, and database sources are not supported yet; "
-            "export the table to a CSV, Parquet or JSON file and name that file here"
-        )
-    raise ValueError(
-        f"it is a {scheme}:// address, and briefgen reads local files only; "
-        "copy the data to a CSV, Parquet or JSON file and name that file here"
-    )
-
-
-class DataSpec(_Strict):
-    """Where the data lives. ``format`` defaults to the file's extension."""
-
-    path: str
-    format: Literal["csv", "parquet", "json"] | None = None
-
-    @field_validator("path")
-    @classmethod
-    def _a_file(cls, value: str) -> str:
-        return refuse_url(value)
 
 
 # A Spark Connect address: sc://host:port, optionally followed by /;key=value settings.
@@ -312,6 +282,9 @@ class BriefSpec(_Strict):
     groups: list[str] = Field(default_factory=list)
     predictors: list[str] = Field(default_factory=list)
     time: TimeSpec | None = None
+    # Which rows the brief covers (briefgen/rows): a filter and a window before the build date.
+    where: str | None = None
+    window: WindowSpec | None = None
     cross: list[tuple[str, str]] | None = None
     labels: dict[str, str] = Field(default_factory=dict)
     log_target: bool = False
@@ -371,6 +344,16 @@ class BriefSpec(_Strict):
             raise ValueError("log_target reports percent changes, which need a ratio scale")
         return value
 
+    @field_validator("where")
+    @classmethod
+    def _where_parses(cls, value: str | None) -> str | None:
+        if value is not None:
+            try:
+                parse_where(value)
+            except WhereError as exc:
+                raise ValueError(str(exc)) from None
+        return value
+
     @field_validator("engine", mode="before")
     @classmethod
     def _engine_shorthand(cls, value: Any) -> Any:
@@ -389,6 +372,9 @@ class BriefSpec(_Strict):
 
     @property
     def data_path(self) -> Path:
+        """The data file; for a database, the file a sqlite:// or duckdb:// URL names."""
+        if self.data.path is None:
+            return database_file(self.data.url or "", self.base_dir)
         path = Path(self.data.path).expanduser()
         return path if path.is_absolute() else Path(os.path.normpath(self.base_dir / path))
 
@@ -396,7 +382,11 @@ class BriefSpec(_Strict):
     def data_format(self) -> str:
         if self.data.format:
             return self.data.format
+        if self.data.url is not None:
+            return "database"
         suffix = self.data_path.suffix.lower().lstrip(".")
+        if suffix in {"xlsx", "xlsm"} or self.data.sheet is not None:
+            return "excel"
         if suffix in {"json", "jsonl", "ndjson"}:
             return "json"
         return "parquet" if suffix in {"parquet", "pq"} else "csv"

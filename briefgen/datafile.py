@@ -15,8 +15,7 @@ from briefgen.errors import DataError
 
 # Extensions of formats people export and briefgen does not read, with what to do instead.
 _OTHER_FORMATS = {
-    "xlsx": "an Excel workbook",
-    "xls": "an Excel workbook",
+    "xls": "an Excel 97-2003 workbook",
     "ods": "a spreadsheet",
 }
 
@@ -39,8 +38,8 @@ def check_readable_file(path: Path, label: str, declared: str | None) -> None:
     kind = _OTHER_FORMATS.get(path.suffix.lower().lstrip("."))
     if kind and declared is None:
         raise DataError(
-            f"{label}: looks like {kind}, which briefgen does not read; export it as CSV "
-            "(.csv), Parquet (.parquet) or JSON (.json, .jsonl), the formats that work."
+            f"{label}: looks like {kind}, which briefgen does not read; save it as .xlsx, or "
+            "export it as CSV (.csv), Parquet (.parquet) or JSON (.json, .jsonl)."
         )
 
 
@@ -58,7 +57,7 @@ def check_not_other_format(path: Path, label: str) -> None:
     start = head.lstrip(b"\xef\xbb\xbf \t\r\n")
     if head.startswith(b"PK\x03\x04") or head.startswith(b"\xd0\xcf\x11\xe0"):
         found = "an Excel workbook (or another zip file)"
-        advice = "export it as CSV (.csv) or Parquet (.parquet), the formats that work"
+        advice = "set data.format: excel or name it .xlsx, or export it as CSV or Parquet"
     elif head.startswith(b"PAR1"):
         found, advice = "a Parquet file", "set data.format: parquet or name it .parquet"
     elif start.startswith((b'{"', b"[{", b"[]")) or start.strip() == b"[":

@@ -15,11 +15,18 @@ import re
 import ibis
 import ibis.expr.types as ir
 
+from briefgen.dialect import backend_name
+
 # C0 controls, DEL and the C1 controls (which no text editor shows either).
 _CONTROL = "\\x{00}-\\x{1f}\\x{7f}-\\x{9f}"
 # Unicode bidirectional formatting characters (UAX #9): LRM and RLM, the embeddings and
 # overrides LRE, RLE, PDF, LRO, RLO, and the isolates LRI, RLI, FSI, PDI.
 _BIDI = "\\x{200e}\\x{200f}\\x{202a}-\\x{202e}\\x{2066}-\\x{2069}"
+
+# The same classes for PostgreSQL, whose regular expressions spell characters \xNN and
+# \uNNNN; its text cannot hold NUL, so the class starts at \x01.
+_PG_CONTROL = "\\x01-\\x1f\\x7f-\\x9f"
+_PG_BIDI = "\\u200e\\u200f\\u202a-\\u202e\\u2066-\\u2069"
 
 _PY_CONTROL = re.compile("[\x00-\x1f\x7f-\x9f]+")
 _PY_BIDI = re.compile("[\u200e\u200f\u202a-\u202e\u2066-\u2069]")
@@ -38,11 +45,14 @@ def engine_clean(column: ir.StringColumn) -> ir.StringColumn:
     Controls at either end are dropped and runs inside become one space; bidi controls
     are dropped wherever they are.
     """
-    without_bidi = column.re_replace(f"[{_BIDI}]", "")
-    trimmed = without_bidi.re_replace(f"^[{_CONTROL}]+|[{_CONTROL}]+$", "")
-    cleaned = trimmed.re_replace(f"[{_CONTROL}]+", " ")
+    control, bidi = (
+        (_PG_CONTROL, _PG_BIDI) if backend_name(column) == "postgres" else (_CONTROL, _BIDI)
+    )
+    without_bidi = column.re_replace(f"[{bidi}]", "")
+    trimmed = without_bidi.re_replace(f"^[{control}]+|[{control}]+$", "")
+    cleaned = trimmed.re_replace(f"[{control}]+", " ")
     # One search per row; the three replacements only where there is something to clean.
-    return ibis.ifelse(column.re_search(f"[{_CONTROL}{_BIDI}]"), cleaned, column)
+    return ibis.ifelse(column.re_search(f"[{control}{bidi}]"), cleaned, column)
 
 
 def excerpt(text: object, limit: int = 40) -> str:

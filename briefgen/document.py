@@ -11,6 +11,7 @@ import re
 from dataclasses import dataclass
 
 from briefgen.config import BriefSpec
+from briefgen.database import where_statistics_run
 from briefgen.deliver.gate import GateResult
 from briefgen.figures.theme import LEAD_HEIGHT_IN, Chart
 from briefgen.history.change import SinceLastTime
@@ -54,6 +55,7 @@ class Document:
     title: str
     subtitle: str
     description: str | None
+    coverage: str | None
     built_on: str
     paper: str
     key_findings: tuple[Finding, ...]
@@ -115,6 +117,11 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
     if stats.target_kind is not None and stats.target_kind.kind == "binary":
         del notes[1:3]  # no boxes, t intervals or Welch tests: kind_note says what ran instead
     notes += [note] if (note := kind_note(stats)) else []
+    if spec.data.url is not None:
+        notes.insert(0, where_statistics_run(spec.data.url))
+    if stats.accounting.covers is not None:
+        notes = [note.replace("over every row;", "over every row it covers;") for note in notes]
+        notes.insert(0, stats.accounting.covers)
     if stats.crosses:
         notes.append(
             f"Two-way combinations with fewer than {spec.min_cell} rows are marked and not ranked."
@@ -242,11 +249,16 @@ def build_document(
     unclear = [f for f in found if f.claim not in SETTLED]
     key = [*clear, *unclear][:MAX_KEY_FINDINGS]
     names = {g: name_for(spec, g) for g in spec.groups}
-    subtitle = f"{words.label} · {rows_label} · {fmt_count(stats.accounting.rows_read)} rows"
+    accounting = stats.accounting
+    rows = fmt_count(accounting.rows_read)
+    if accounting.covers is not None:
+        rows = f"{rows} of {fmt_count(accounting.rows_in_source)}"
+    subtitle = f"{words.label} · {rows_label} · {rows} rows"
     return Document(
         title=spec.title,
         subtitle=subtitle,
         description=spec.description,
+        coverage=accounting.covers,
         built_on=built_on,
         paper=spec.output.paper,
         key_findings=tuple(key),

@@ -83,6 +83,14 @@ def _check_figures(problems: list[str], spec: BriefSpec) -> None:
     )
 
 
+def _rows_label(spec: BriefSpec) -> str:
+    """The source as page 1's subtitle names it: the file's name, or the table's."""
+    data = spec.data
+    if data.path is not None:
+        return Path(data.path).name
+    return data.table if data.table is not None else "a database query"
+
+
 def build_brief(
     spec: BriefSpec,
     out_dir: Path | None = None,
@@ -99,9 +107,8 @@ def build_brief(
     built_on = built_on or build_date()
     folder = spec.output_dir(out_dir, built_on)
     logo = load_logo(spec)  # checked before any work, like the rest of the config
-    stage.info("reading %s", spec.data.path)
-    source = open_source(spec)
-    stage.info("computing statistics")
+    stage.info("reading %s", spec.data.label)
+    source = open_source(spec, built_on)
     with reading(source.label):
         stats = compute(source, spec)
     formats = spec.output.formats
@@ -109,27 +116,30 @@ def build_brief(
     checks = None if skip_checks else spec.checks
     record = None
     if "json" in formats or comparing:
-        stage.info("hashing %s", spec.data.path)
+        stage.info("hashing %s", spec.data.label)
         record = record_run(spec, source.table, stats.accounting.rows_read)
     previous = find_previous(spec, folder, compare) if comparing or checks else None
     since = compare_runs(stats, record, previous) if comparing and record else None
     gate = run_checks(checks, stats, previous) if checks and previous else None
-    stage.info("rendering %s", ", ".join(formats))
     files: dict[str, bytes] = {}
+    stage.info("writing the findings")
     with review.recording() as reviews:
         doc = build_document(
-            stats, spec, built_on, rows_label=Path(spec.data.path).name, since=since, gate=gate
+            stats, spec, built_on, rows_label=_rows_label(spec), since=since, gate=gate
         )
     for note in review.unseen(doc.charts, reviews):
         log.info("not reviewed: %s", note)
     _check_figures(review.failures(doc.charts, reviews), spec)
     if "html" in formats or "pdf" in formats:
+        stage.info("rendering HTML")
         html = render_html(doc, spec, logo)
         if "html" in formats:
             files["brief.html"] = html.encode("utf-8")
         if "pdf" in formats:
+            stage.info("rendering PDF")
             files["brief.pdf"] = render_pdf(html, built_on, spec.base_dir)
     if "json" in formats:
+        stage.info("writing stats.json")
         files["stats.json"] = render_json(
             stats, spec, built_on, doc.findings, doc.family, record, since, gate
         ).encode("utf-8")

@@ -162,7 +162,7 @@ def render_json(
         "briefgen_version": __version__,
         "title": spec.title,
         "built_on": built_on,
-        "data": spec.data.path,
+        "data": spec.data.label,
         "target": spec.target,
         "groups": list(spec.groups),
         "predictors": list(spec.predictors),

@@ -19,6 +19,7 @@ from collections.abc import Iterator
 from contextlib import contextmanager
 from dataclasses import dataclass
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 import duckdb
 import ibis
@@ -27,9 +28,16 @@ import ibis.expr.types as ir
 from ibis.backends import BaseBackend
 
 from briefgen.config import BriefSpec, EngineSpec
+from briefgen.database import open_database
 from briefgen.datafile import check_not_other_format, check_readable_file
 from briefgen.datatext import engine_clean, excerpt
+from briefgen.dialect import is_nan, try_float, try_timestamp
 from briefgen.errors import ConfigError, DataError
+from briefgen.origin import origin_of
+from briefgen.workbook import read_workbook
+
+if TYPE_CHECKING:
+    from briefgen.rows.scope import RowScope
 
 log = logging.getLogger(__name__)
 
@@ -40,10 +48,25 @@ ENGINE_THREADS = os.cpu_count() or 1
 
 @dataclass(frozen=True, slots=True)
 class Source:
-    """The table to analyse and where it came from (for messages and the brief)."""
+    """The table to analyse and where it came from (for messages and the brief).
+
+    ``scope`` says which rows of the source ``table`` keeps (``where`` and ``window``),
+    None when it keeps all; ``origin`` is ``describe()``'s answer.
+    """
 
     table: ir.Table
     label: str
+    scope: RowScope | None = None
+    origin: tuple[tuple[str, str | None], ...] = ()
+
+    def describe(self) -> dict[str, str | None]:
+        """Where the rows came from, for provenance records: never a password.
+
+        ``kind`` is ``file`` (with ``path``, ``format``, ``sheet``) or ``database``
+        (with ``url``, ``table`` or ``query``, and ``statistics_run_in``); ``where``
+        and ``window`` are the row selection in words, None when not configured.
+        """
+        return dict(self.origin)
 
 
 def connect(engine: EngineSpec, base_dir: Path | None = None) -> BaseBackend:
@@ -110,27 +133,45 @@ def materialize(table: ir.Table) -> ir.Table:
     return backend.create_table(ibis.util.gen_name("briefgen_rows"), table)
 
 
-def open_source(spec: BriefSpec) -> Source:
-    """Open the configured file through Ibis on the configured engine and check its columns."""
+def open_source(spec: BriefSpec, built_on: str | None = None) -> Source:
+    """Open the configured file or database table through Ibis, check it, select its rows.
+
+    ``built_on`` is the build date a ``window`` counts back from (default: today, or
+    ``SOURCE_DATE_EPOCH``).
+    """
+    # Imported here: briefgen.rows reads columns with this module's numeric() and category().
+    from briefgen.rows.scope import select_configured
+
+    label = spec.data.label
+    con = connect(spec.engine, spec.base_dir)
+    if spec.data.url is not None:
+        table = open_database(spec, label, con)
+    else:
+        table = _open_file(spec, label, con)
+    with reading(label):
+        if spec.data.url is None and spec.data_format in ("csv", "json"):
+            # Text is parsed once, here, not again by every check and by the accounting;
+            # Parquet is read column by column already, a sheet or a copy is a table.
+            table = materialize(table)
+        check_columns(table, spec, label)
+        table, scope = select_configured(table, spec, built_on, label)
+    log.info("opened %s with %d columns", label, len(table.columns))
+    return Source(table=table, label=label, scope=scope, origin=origin_of(spec, scope))
+
+
+def _open_file(spec: BriefSpec, label: str, con: BaseBackend) -> ir.Table:
     path = spec.data_path
-    label = spec.data.path
     if not path.exists():
         raise DataError(f"{label}: data file not found (looked in {path}); check data.path.")
     check_readable_file(path, label, spec.data.format)
+    if spec.data_format == "excel":
+        return read_workbook(path, spec.data.sheet, label, con)
     if spec.data_format == "csv":
         check_not_other_format(path, label)
-    con = connect(spec.engine, spec.base_dir)
     table = read_table(path, spec.data_format, label, con)
     if spec.data_format == "csv":
         table = _whole_numbers_as_double(path, table, spec, label, con)
-    with reading(label):
-        if spec.data_format != "parquet":
-            # Text is parsed once, here, not again by every check and by the accounting;
-            # Parquet is read column by column already.
-            table = materialize(table)
-        check_columns(table, spec, label)
-    log.info("opened %s with %d columns", label, len(table.columns))
-    return Source(table=table, label=label)
+    return table
 
 
 def read_table(
@@ -336,7 +377,7 @@ def _check_numbers_in_text(table: ir.Table, named: list[tuple[str, str]], label:
     for i, (_, name) in enumerate(named):
         column = table[name]
         given = ~is_missing(table, name)
-        not_number = given & column.strip().try_cast(dt.float64).isnull()
+        not_number = given & try_float(column.strip()).isnull()
         counts[f"given{i}"] = given.sum()
         counts[f"not_number{i}"] = not_number.sum()
         counts[f"example{i}"] = ibis.ifelse(not_number, column, ibis.null(dt.string)).min()
@@ -372,27 +413,30 @@ def time_values(table: ir.Table, name: str) -> ir.TimestampColumn:
         return column
     if kind.is_numeric():
         return _years(column.cast(dt.float64))
-    as_time = column.try_cast(dt.timestamp)
+    as_time = try_timestamp(column)
     if kind.is_string():
         # A text column of years, such as "1990", reads as years too.
-        return as_time.coalesce(_years(column.strip().try_cast(dt.float64)))
+        return as_time.coalesce(_years(try_float(column.strip())))
     return as_time
 
 
 def _years(values: ir.FloatingColumn) -> ir.TimestampColumn:
     low, high = YEAR_RANGE
-    whole = values.notnull() & ~values.isnan() & (values == values.floor())
+    whole = values.notnull() & ~is_nan(values) & (values == values.floor())
     year = whole & values.between(low, high)
     stamp = ibis.date(values.cast(dt.int64), 1, 1).cast(dt.timestamp)
     return ibis.ifelse(year, stamp, ibis.null(dt.timestamp))
 
 
-def check_time_column(table: ir.Table, name: str, label: str) -> None:
-    """Refuse a time column of the wrong type, or one where no value reads as a date."""
+def check_time_column(table: ir.Table, name: str, label: str, key: str = "time") -> None:
+    """Refuse a time column of the wrong type, or one where no value reads as a date.
+
+    ``key`` is the config key that names the column (``time``, ``window.column``, ``where``).
+    """
     kind = table.schema()[name]
     if not (kind.is_temporal() or kind.is_string() or kind.is_numeric()):
         raise DataError(
-            f"{label}: column '{name}' named by 'time' holds {kind}, not dates; name a date, "
+            f"{label}: column '{name}' named by '{key}' holds {kind}, not dates; name a date, "
             "timestamp or year column."
         )
     column = table[name]
@@ -404,14 +448,14 @@ def check_time_column(table: ir.Table, name: str, label: str) -> None:
     row = found.to_pyarrow().to_pylist()[0]
     if int(row["present"] or 0) == 0:
         raise DataError(
-            f"{label}: column '{name}' named by 'time' is empty in every row; check the export."
+            f"{label}: column '{name}' named by '{key}' is empty in every row; check the export."
         )
     if int(row["parsed"] or 0) == 0:
         low, high = YEAR_RANGE
         raise DataError(
-            f"{label}: column '{name}' named by 'time' has no value that reads as a date (one value "
+            f"{label}: column '{name}' named by '{key}' has no value that reads as a date (one value "
             f"is {row['example']!r}); write dates as 2024-03-31 or 2024-03-31 14:05, or years as "
-            f"whole numbers from {low} to {high}, or name another column in 'time'."
+            f"whole numbers from {low} to {high}, or name another column in '{key}'."
         )
 
 
@@ -443,11 +487,9 @@ def numeric(table: ir.Table, name: str) -> ir.FloatingColumn:
     missing markers such as "NA" and anything else that is no number become missing.
     """
     column = table[name]
-    if column.type().is_string():
-        column = column.strip().try_cast(dt.float64)
-    else:
-        column = column.cast(dt.float64)
-    return ibis.ifelse(column.isnan() | column.isinf(), ibis.null(dt.float64), column)
+    text = column.type().is_string()
+    column = try_float(column.strip()) if text else column.cast(dt.float64)
+    return ibis.ifelse(is_nan(column) | column.isinf(), ibis.null(dt.float64), column)
 
 
 def is_missing(table: ir.Table, name: str) -> ir.BooleanColumn:

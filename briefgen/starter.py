@@ -11,15 +11,19 @@ from pathlib import Path
 
 import yaml
 
+from briefgen.config import EngineSpec
 from briefgen.errors import ConfigError
 from briefgen.profile import MAX_GROUP_LEVELS, MAX_LEVELS, ColumnRole, column_roles
-from briefgen.source import read_table
+from briefgen.source import connect, read_table
+from briefgen.workbook import read_workbook
 
 MAX_GROUPS = 3
 MAX_PREDICTORS = 3
 
 
 def _data_format(path: Path) -> str:
+    if path.suffix.lower() in {".xlsx", ".xlsm"}:
+        return "excel"
     if path.suffix.lower() in {".json", ".jsonl", ".ndjson"}:
         return "json"
     return "parquet" if path.suffix.lower() in {".parquet", ".pq"} else "csv"
@@ -68,7 +72,10 @@ def _numeric_role_notes(roles: tuple[ColumnRole, ...], proposal: dict) -> list[s
 def starter_text(data: Path, config: Path, title: str | None = None) -> str:
     """The YAML text of a proposed config for ``data``, written to sit at ``config``."""
     label = str(data)
-    table = read_table(data, _data_format(data), label)
+    if _data_format(data) == "excel":  # the first sheet; data.sheet picks another
+        table = read_workbook(data, None, label, connect(EngineSpec()))
+    else:
+        table = read_table(data, _data_format(data), label)
     roles = column_roles(table)
     proposal = propose(roles)
     if not proposal:

@@ -463,7 +463,15 @@ def slopes_table(stats: BriefStats, labels: dict[str, str], names: dict[str, str
 
 def accounting_table(stats: BriefStats, labels: dict[str, str]) -> Table:
     acc = stats.accounting
-    rows = [("Rows read", fmt_count(acc.rows_read), fmt_percent(1.0))]
+    rows = []
+    if acc.covers is not None:
+        # The rows where and window left out are a choice, not a loss: shares of the source.
+        rows.append(("Rows in the source", fmt_count(acc.rows_in_source), ""))
+        rows += [
+            (f"Left out of {d.analysis}: {d.reason}", fmt_count(d.rows), "") for d in acc.selection
+        ]
+    label = "Rows the brief covers" if acc.covers is not None else "Rows read"
+    rows.append((label, fmt_count(acc.rows_read), fmt_percent(1.0)))
 
     def share(n: int) -> str:
         return fmt_percent(n / acc.rows_read, 1) if acc.rows_read else "–"

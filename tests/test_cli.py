@@ -242,12 +242,12 @@ def test_output_dir_takes_date_tokens(tmp_path, monkeypatch):
     [
         ("/dev/zero", "is not a regular file"),
         (".", "is not a regular file"),
-        ("book.xlsx", "looks like an Excel workbook"),
+        ("book.xls", "looks like an Excel 97-2003 workbook"),
         ("rows.txt", "is read as CSV but looks like JSON"),
     ],
 )
 def test_only_regular_files_in_known_formats_are_read(tmp_path, capsys, path, expected):
-    (tmp_path / "book.xlsx").write_bytes(b"PK\x03\x04")
+    (tmp_path / "book.xls").write_bytes(b"\xd0\xcf\x11\xe0")
     (tmp_path / "rows.txt").write_text('{"a": 1}\n')
     config = _write_case(tmp_path, path=path)
     assert main(["build", str(config)]) == 3

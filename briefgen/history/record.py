@@ -136,7 +136,18 @@ def config_as_used(spec: BriefSpec) -> dict:
 
 
 def record_run(spec: BriefSpec, table: ir.Table, rows: int) -> RunRecord:
-    """The record of this run; hashes the data file (one streamed read)."""
+    """The record of this run; hashes the data file (one streamed read).
+
+    A database source is recorded by its query (a table as ``SELECT * FROM`` it) and
+    the row count, not hashed: its rows live in the server.
+    """
+    source = spec.data
+    if source.url is not None:
+        query = source.query or f"SELECT * FROM {source.table}"
+        data = DataRecord(source.label, "database", None, None, query, rows)
+        return RunRecord(
+            data, schema_of(table), config_as_used(spec), built_with(spec.engine.backend)
+        )
     path = spec.data_path
     data = DataRecord(
         path=spec.data.path,

@@ -36,6 +36,16 @@ from briefgen.stats.trend import Trend, TrendAnalysis
 from briefgen.stats.twoway import CrossAnalysis, CrossTable
 
 log = logging.getLogger(__name__)
+# Stage events for the console (briefgen.pipeline's channel): one per analysis family.
+stage = logging.getLogger("briefgen.stage")
+_FAMILY_WORDS = {
+    "overall": "overall summary",
+    "histogram": "histogram",
+    "groups": "group comparisons",
+    "crosses": "two-way tables",
+    "trend": "trend over time",
+    "relationships": "relationships with predictors",
+}
 
 __all__ = [
     "ANALYSES",
@@ -95,6 +105,7 @@ class BriefStats:
 
 def _run(family, spec: BriefSpec, frame: AnalysisFrame) -> tuple:
     """Every planned analysis of one family, its results flattened in plan order."""
+    stage.info("statistics: %s", _FAMILY_WORDS.get(family.name, family.name))
     results = []
     for analysis in family.plan(spec, frame):
         result = analysis(frame)
@@ -115,6 +126,7 @@ def _sample(frame: AnalysisFrame) -> Sample:
 
 def compute(source: Source, spec: BriefSpec) -> BriefStats:
     """Run the analyses named by ``spec`` on ``source`` in its engine."""
+    stage.info("statistics: typing the columns")
     frame = build_frame(source.table, spec, label=source.label)
     frame = replace(frame, kind=target_kind(frame, spec.target_kind, spec.scale))
     (overall,) = _run(Overall, spec, frame)
@@ -123,13 +135,17 @@ def compute(source: Source, spec: BriefSpec) -> BriefStats:
     # The two-way interaction test leaves the mean scale when a group found the target
     # strongly skewed within its levels (see briefgen.stats.interaction).
     skewed = frozenset(g.variable for g in groups if g.comparison and g.comparison.strongly_skewed)
+    stage.info("statistics: %s", _FAMILY_WORDS["crosses"])
     planned = CrossAnalysis.plan(spec, frame, skewed=skewed, minimum=overall.summary.min)
     crosses = tuple(cross(frame) for cross in planned)
     trend = next(iter(_run(TrendAnalysis, spec, frame)), None)
     (relationships,) = _run(RelationshipAnalysis, spec, frame)
+    stage.info("statistics: row accounting and scatter sample")
     usages = [r.usage for r in (overall, *groups, *crosses)]
     usages += [trend.usage] if trend is not None else []
-    accounting = count_rows(source.table, frame, spec, usages, relationships.references)
+    accounting = count_rows(
+        source.table, frame, spec, usages, relationships.references, scope=source.scope
+    )
     log.info("statistics done: %d rows read", accounting.rows_read)
     return BriefStats(
         target=spec.target,

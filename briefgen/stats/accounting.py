@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import ibis.expr.types as ir
 
 from briefgen.config import BriefSpec
+from briefgen.rows.scope import RowScope, left_out_counts
 from briefgen.source import is_missing
 from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.frame import AnalysisFrame
@@ -27,7 +28,10 @@ class Accounting:
 
     ``used`` maps each analysis (``target``, ``group:<name>``, ``fit:<name>``,
     ``cross:<a> × <b>``, ``trend``) to the rows it used; ``missing_by_column`` counts
-    empty cells in every column of the source, named or not.
+    empty cells in every column of the source, named or not. With ``where`` or
+    ``window`` in the config, ``rows_read`` counts the rows they select,
+    ``rows_in_source`` all rows, and ``selection`` the rows each left out; without,
+    ``rows_in_source`` equals ``rows_read`` and ``selection`` is empty.
     """
 
     rows_read: int
@@ -36,6 +40,9 @@ class Accounting:
     used: dict[str, int]
     dropped: tuple[Dropped, ...]
     missing_by_column: dict[str, int]
+    rows_in_source: int = 0
+    selection: tuple[Dropped, ...] = ()
+    covers: str | None = None
 
 
 def _fit_usages(frame: AnalysisFrame, references: dict) -> list[RowUsage]:
@@ -58,8 +65,13 @@ def count_rows(
     spec: BriefSpec,
     usages: Sequence[RowUsage],
     references: dict,
+    scope: RowScope | None = None,
 ) -> Accounting:
-    """One aggregate query over the raw table; the rest from the results' usages."""
+    """One aggregate query over the raw table; the rest from the results' usages.
+
+    With a row ``scope``, one more query over the source before selection counts the
+    rows ``where`` and ``window`` left out.
+    """
     # A missing marker ("NA") in a target read as text is a missing value, like an empty cell.
     raw_counts = {"rows": raw.count(), "target_null": is_missing(raw, spec.target).sum()}
     raw_counts |= {f"missing_{i}": raw[name].isnull().sum() for i, name in enumerate(raw.columns)}
@@ -80,6 +92,18 @@ def count_rows(
     for u in ordered:
         dropped.extend(u.left_out)
     missing = {name: int(raw_row[f"missing_{i}"]) for i, name in enumerate(raw.columns)}
+    rows_in_source, selection = rows_read, ()
+    if scope is not None:
+        counts = one_row(scope.unselected, left_out_counts(scope))
+        rows_in_source = int(counts["rows_in_source"])
+        selection = tuple(
+            Dropped("the brief", reason, int(counts[key] or 0))
+            for key, reason in (
+                ("outside_where", f"not where {scope.where_words}"),
+                ("outside_window", f"outside {scope.window_words}"),
+            )
+            if key in counts
+        )
     return Accounting(
         rows_read=rows_read,
         target_missing=target_missing,
@@ -87,4 +111,7 @@ def count_rows(
         used={u.analysis: u.rows_used for u in ordered},
         dropped=tuple(dropped),
         missing_by_column=missing,
+        rows_in_source=rows_in_source,
+        selection=selection,
+        covers=scope.words() if scope is not None else None,
     )
