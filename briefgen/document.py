@@ -136,7 +136,8 @@ def _sections(
     """Every analysis as a section in reading order, and the detail tables for the appendix."""
     sections, appendix = group_sections(stats, spec, words, family)
     sections.insert(0, overall_section(stats, words))
-    sections += [cross_section(cross, spec, words, family) for cross in stats.crosses]
+    shown = {g.variable: g.shown for g in stats.groups}
+    sections += [cross_section(cross, spec, words, family, shown) for cross in stats.crosses]
     appendix += [
         cross_cells_table(
             cross,

@@ -108,9 +108,10 @@ def test_points_or_density_threshold():
     [
         (6, 3, "dots"),  # the demo's district × vehicle
         (3, 6, "dots"),  # either way round
-        (7, 7, rules.HEAT_MAP),  # seven series: more than the markers
-        (12, 4, rules.HEAT_MAP),  # 48 cells crowd a dot plot
-        (10, 4, "dots"),  # 40 cells still read
+        (7, 5, rules.HEAT_MAP),  # five series side by side crowd a row
+        (6, 5, rules.HEAT_MAP),  # the fair data's 6 × 5: 30 crowded intervals
+        (12, 3, rules.HEAT_MAP),  # 36 cells crowd a dot plot
+        (6, 4, "dots"),  # 24 cells still read
     ],
 )
 def test_two_way_kind(rows, columns, kind):

@@ -154,10 +154,11 @@ def points_or_density(rows: int, threshold: int = DENSITY_ROWS) -> str:
 
 
 # Common practice, no published source: a dot plot of means with intervals reads with up
-# to six series (one marker and colour each, Okabe–Ito) and about 40 cells; past that the
-# markers crowd and a heat map of the same means reads better.
-MAX_DOT_SERIES = 6
-MAX_DOT_CELLS = 40
+# to four series side by side in a row and about two dozen cells; past that the markers
+# and their intervals crowd (seen on the fair data's 5 × 6 table: 30 overlapping
+# intervals) and a heat map of the same means reads better.
+MAX_DOT_SERIES = 4
+MAX_DOT_CELLS = 24
 
 
 def two_way_kind(rows: int, columns: int) -> str:
