@@ -95,7 +95,9 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
     level = fmt_level(stats.confidence)
     notes = [
         "All statistics were computed by the database engine over every row; charts are drawn from those "
-        "results (scatter plots show a seeded random sample of at most 5,000 points).",
+        "results. A relationship with more than 5,000 rows is drawn as rows counted in 2-D bins "
+        "by the engine; scatter plots show every row up to 5,000, and a seeded random sample of "
+        "5,000 when points are coloured by group.",
         "Quartiles and medians use linear interpolation (Hyndman & Fan 1996, type 7). Box plots follow "
         "Tukey (1977): the box spans the middle half of the values, whiskers reach the most extreme values "
         "within 1.5 × IQR of the box, values beyond are outliers. No value was removed.",
