@@ -104,7 +104,7 @@ def heat_map_chart(
         for i, j in zip(*np.nonzero(small & np.isfinite(means)), strict=True):
             axes.add_patch(
                 mpl.patches.Rectangle(
-                    (j, i), 1, 1, facecolor="white", edgecolor=MUTED, hatch="////", lw=0.0
+                    (j, i), 1, 1, fill=False, edgecolor=MUTED, hatch="////", lw=0.0
                 )
             )
         for i in range(len(rows)):
@@ -112,12 +112,14 @@ def heat_map_chart(
                 if not np.isfinite(means[i, j]):
                     continue
                 if small[i, j]:
-                    text, colour = f"({value(means[i, j])})", INK
+                    text, colour, fill = f"({value(means[i, j])})", INK, "white"
                 else:
                     text = value(means[i, j])
-                    colour = text_colour(to_rgb(colour_map(norm(means[i, j]))))
-                # A small cell's bracketed value sits on a white patch over the hatching.
-                patch = {"boxstyle": "square,pad=0.15", "facecolor": "white", "edgecolor": "none"}
+                    fill = to_rgb(colour_map(norm(means[i, j])))
+                    colour = text_colour(fill)
+                # Each value sits on a patch of its cell's own shade (white over a small cell's
+                # hatching), so it reads the same and the figure review sees its real background.
+                patch = {"boxstyle": "square,pad=0.15", "facecolor": fill, "edgecolor": "none"}
                 axes.text(
                     j + 0.5,
                     i + 0.5,
@@ -126,7 +128,7 @@ def heat_map_chart(
                     va="center",
                     fontsize=8,
                     color=colour,
-                    bbox=patch if small[i, j] else None,
+                    bbox=patch,
                 )
         axes.set_xticks(np.arange(len(columns)) + 0.5, [short_label(c) for c in columns])
         axes.set_yticks(np.arange(len(rows)) + 0.5, [short_label(r) for r in rows])

@@ -32,6 +32,7 @@ from briefgen.stats.relationships import GroupSlopes
 from briefgen.stats.sample import Sample
 
 PANEL_HEIGHT_IN = 1.55
+CONTEXT = "#8c8c8c"  # 3.4:1 on white
 
 
 def multiples_chart(
@@ -62,12 +63,19 @@ def multiples_chart(
                 continue
             level = drawn[index]
             own = finite & (levels == level.level)
+            # The other levels as small hollow rings: context that stays 3:1 on white
+            # (WCAG 2.1, 1.4.11) without competing with the level's own filled points.
             axes.scatter(
-                xs[finite & ~own], ys[finite & ~own], s=3, color="#d9d9d9", linewidths=0,
+                xs[finite & ~own],
+                ys[finite & ~own],
+                s=4,
+                facecolors="none",
+                edgecolors=CONTEXT,
+                linewidths=0.4,
                 rasterized=True,
-            )  # fmt: skip
+            )
             axes.scatter(
-                xs[own], ys[own], s=5, color=LINE, alpha=0.5, linewidths=0, rasterized=True
+                xs[own], ys[own], s=6, color=LINE, alpha=0.75, linewidths=0, rasterized=True
             )
             span = np.array([level.x_min, level.x_max])
             axes.plot(span, level.intercept + level.slope * span, color=LINE, linewidth=2)
@@ -94,7 +102,7 @@ def multiples_chart(
     caption = (
         f"{y_label} against {in_sentence(x_label)}, one panel per level of {group_label} "
         f"(small multiples, same scales in every panel). Blue: the level's points and its "
-        f"least-squares line; grey: the other levels' points; dashed: one line through all rows, "
+        f"least-squares line; grey rings: the other levels' points; dashed: one line through all rows, "
         f"which mixes the levels. Points: {points}."
         + (f" {SHORTENED_NOTE}" if shortened(level.level for level in drawn) else "")
     )
