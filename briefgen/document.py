@@ -97,7 +97,9 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
     level = fmt_level(stats.confidence)
     notes = [
         "All statistics were computed by the database engine over every row; charts are drawn from those "
-        "results (scatter plots show a seeded random sample of at most 5,000 points).",
+        "results. A relationship with more than 5,000 rows is drawn as rows counted in 2-D bins "
+        "by the engine; scatter plots show every row up to 5,000, and a seeded random sample of "
+        "5,000 when points are coloured by group.",
         "Quartiles and medians use linear interpolation (Hyndman & Fan 1996, type 7). Box plots follow "
         "Tukey (1977): the box spans the middle half of the values, whiskers reach the most extreme values "
         "within 1.5 × IQR of the box, values beyond are outliers. No value was removed.",
@@ -143,7 +145,8 @@ def _sections(
     """Every analysis as a section in reading order, and the detail tables for the appendix."""
     sections, appendix = group_sections(stats, spec, words, family)
     sections.insert(0, overall_section(stats, words))
-    sections += [cross_section(cross, spec, words, family) for cross in stats.crosses]
+    shown = {g.variable: g.shown for g in stats.groups}
+    sections += [cross_section(cross, spec, words, family, shown) for cross in stats.crosses]
     appendix += [
         cross_cells_table(
             cross,

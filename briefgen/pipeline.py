@@ -140,8 +140,9 @@ def build_brief(
             files["brief.pdf"] = render_pdf(html, built_on, spec.base_dir)
     if "json" in formats:
         stage.info("writing stats.json")
+        charts = [s.chart for s in doc.sections if s.chart is not None]
         files["stats.json"] = render_json(
-            stats, spec, built_on, doc.findings, doc.family, record, since, gate
+            stats, spec, built_on, doc.findings, doc.family, record, since, gate, charts=charts
         ).encode("utf-8")
     if gate is not None and not gate.passed:
         stage.info("holding the brief: %d checks failed", len(gate.failures))

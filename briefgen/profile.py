@@ -13,6 +13,8 @@ import re
 from dataclasses import dataclass
 from typing import TYPE_CHECKING
 
+from briefgen.figures import rules
+
 if TYPE_CHECKING:
     import ibis.expr.types as ir
 
@@ -21,25 +23,21 @@ if TYPE_CHECKING:
 MAX_LEVELS = (
     12  # common practice (no published source): a dozen levels still fit one chart and table
 )
-_ORDERED = re.compile(r"^\s*[-+]?\d")
 
 
 def has_natural_order(levels: list[str]) -> bool:
     """Levels that all start with a number (time slots, sizes, years) keep their order."""
-    return bool(levels) and all(_ORDERED.match(level) for level in levels)
+    return rules.is_natural_order(levels)
 
 
 def level_order(summaries: tuple[Summary, ...], other_label: str | None = None) -> list[str]:
-    """Natural order if the levels have one, else by median, highest first; "Other" last."""
-    levels = [s.level for s in summaries if s.level != other_label]
-    folded = [other_label] if other_label in {s.level for s in summaries} else []
-    if has_natural_order(levels):
-        return sorted(levels, key=_numeric_key) + folded
-    ranked = sorted(
-        (s for s in summaries if s.level != other_label),
-        key=lambda s: (s.median is None, -(s.median or 0.0), s.level),
-    )
-    return [s.level for s in ranked] + folded
+    """Natural order if the levels have one, else by median, highest first; "Other" last.
+
+    The rule is ``briefgen.figures.rules.level_order``, so tables and charts agree.
+    """
+    levels = [s.level for s in summaries]
+    order, _ = rules.level_order(levels, {s.level: s.median for s in summaries}, False, other_label)
+    return list(order)
 
 
 def natural_sorted(levels) -> list[str]:

@@ -26,6 +26,7 @@ from briefgen.config import BriefSpec
 from briefgen.deliver.gate import GateResult
 from briefgen.document import Document
 from briefgen.errors import RenderError
+from briefgen.figures.theme import Chart
 from briefgen.history.change import SinceLastTime
 from briefgen.history.record import RunRecord
 from briefgen.pdf_artifacts import mark_margin_artifacts
@@ -149,6 +150,7 @@ def render_json(
     made_from: RunRecord | None = None,
     since: SinceLastTime | None = None,
     checks: GateResult | None = None,
+    charts: Sequence[Chart] = (),
 ) -> str:
     """Every number the brief shows, at full precision, with documented names (README).
 
@@ -156,7 +158,8 @@ def render_json(
     readers (the email body, a dashboard, a test) that should not parse the HTML;
     ``family`` the questions behind them with their adjusted p-values; ``made_from``
     what the brief was built from, ``since`` the comparison with the last brief and
-    ``checks`` the publish gate's verdict (None when not asked for).
+    ``checks`` the publish gate's verdict (None when not asked for); ``charts`` the section
+    charts, each with the chart-choice rules that shaped it (``figures.rules``).
     """
     payload = {
         "briefgen_version": __version__,
@@ -174,6 +177,9 @@ def render_json(
         "made_from": _plain(made_from),
         "since": _plain(since),
         "checks": _plain(checks),
+        "figures": [
+            {"key": chart.key, "title": chart.title, "rules": list(chart.rules)} for chart in charts
+        ],
         "stats": _plain(stats),
     }
     # The sampled rows themselves stay out of the JSON; how many were drawn goes in.

@@ -7,6 +7,9 @@ and named in the caption.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
+from briefgen.figures.rules import CATEGORICAL_AXIS, NATURAL_ORDER, level_order
 from briefgen.figures.theme import (
     MUTED,
     OKABE_ITO,
@@ -19,6 +22,8 @@ from briefgen.figures.theme import (
     to_svg,
 )
 from briefgen.numbers import fmt, fmt_level
+from briefgen.present.wording import in_sentence
+from briefgen.stats.core.frame import ShownLevels
 from briefgen.stats.twoway import CrossCell, CrossTable
 
 # The five Okabe-Ito colours that reach 3:1 on white (orange, sky blue and yellow do not,
@@ -33,7 +38,7 @@ SERIES_COLOURS = (
     MUTED,
 )
 SERIES_MARKERS = ("o", "s", "D", "^", "v", "P")
-MAX_SERIES = len(SERIES_MARKERS)
+MAX_SERIES = len(SERIES_MARKERS)  # rules.MAX_DOT_SERIES
 
 
 def _trusted_points(
@@ -80,15 +85,28 @@ def _draw_series(
 
 
 def _caption(
-    cross: CrossTable, label: str, row_name: str, series_name: str, left_out: list[str]
+    cross: CrossTable,
+    label: str,
+    row_name: str,
+    series_name: str,
+    left_out: list[str],
+    order: str,
+    dropped: list[str],
 ) -> str:
-    """What the dots show, and which cells were too small to draw."""
+    """What the dots show, their order, and which cells and rows were too small to draw."""
+    sorted_by = (
+        "Rows are in their natural order."
+        if order == NATURAL_ORDER
+        else "Rows are sorted by their overall mean, highest at the top."
+    )
     caption = (
-        f"Mean {label[:1].lower() + label[1:]} for each combination of {row_name} and {series_name}, with "
-        f"{fmt_level(cross.confidence)} intervals. Rows are sorted by their overall mean."
+        f"Mean {in_sentence(label)} for each combination of {row_name} and {series_name}, with "
+        f"{fmt_level(cross.confidence)} intervals. {sorted_by}"
     )
     if left_out:
         caption += f" Left out, fewer than {cross.min_cell} rows: {', '.join(left_out)}."
+    if dropped:
+        caption += f" Not drawn, no combination large enough: {', '.join(dropped)}."
     if shortened((*cross.rows, *cross.columns)):
         caption += f" {SHORTENED_NOTE}"
     return caption
@@ -101,54 +119,119 @@ def _alt(cross: CrossTable, label: str, decimals: int, row_name: str, series_nam
         key=lambda c: c.mean,
         default=None,
     )
-    alt = f"Dot plot of mean {label.lower()} by {row_name} and {series_name}."
+    alt = f"Dot plot of mean {in_sentence(label)} by {row_name} and {series_name}."
     if top is not None:
         alt += f" Highest: {top.row} with {top.column}, {fmt(top.mean, decimals)}."
     return alt
 
 
-def cross_chart(
-    cross: CrossTable, label: str, decimals: int, names: tuple[str, str]
-) -> Chart | None:
-    """Means with intervals for every trusted cell; the variable with fewer levels becomes the series."""
+def _kind(shown: ShownLevels | None) -> tuple[bool, str | None]:
+    """(numbers in the data, "Other" label) of a group variable, for ``rules.level_order``."""
+    return (shown.numeric, shown.other_label) if shown is not None else (False, None)
+
+
+def _trusted(cell: CrossCell | None) -> bool:
+    return cell is not None and cell.mean is not None and not cell.too_small
+
+
+@dataclass(frozen=True, slots=True)
+class DotLayout:
+    """What a two-way dot plot draws: rows top to bottom, series, and what it leaves out.
+
+    ``order`` is the rule that ordered the rows (``rules.NATURAL_ORDER`` or
+    ``rules.VALUE_ORDER``); ``dropped`` names rows and series with no cell large enough.
+    """
+
+    rows: tuple[str, ...]
+    series: tuple[str, ...]
+    row_name: str
+    series_name: str
+    transpose: bool
+    order: str
+    dropped: tuple[str, ...]
+
+
+def dot_layout(
+    cross: CrossTable,
+    names: tuple[str, str],
+    shown: tuple[ShownLevels | None, ShownLevels | None] = (None, None),
+) -> DotLayout | None:
+    """Rows and series of the dot plot: the variable with fewer levels is the series.
+
+    Rows follow ``rules.level_order``: natural order for numeric or numbered levels
+    (``shown`` says which variables hold numbers in the data, and their "Other"
+    level, which goes last), else by overall mean. A row or series with no trusted
+    cell is not drawn, so no row is empty and the legend lists only series that appear.
+    None when nothing can be drawn or there are more series than markers.
+    """
     rows, series = cross.rows, cross.columns
     row_name, series_name = names
+    row_shown, series_shown = shown
     transpose = len(series) > len(rows)
     if transpose:
         rows, series = series, rows
         row_name, series_name = series_name, row_name
-    if len(series) > MAX_SERIES:
-        return None
+        row_shown, series_shown = series_shown, row_shown
 
     def cell(row: str, serie: str):
         return cross.cell(serie, row) if transpose else cross.cell(row, serie)
 
+    drawn_rows = [r for r in rows if any(_trusted(cell(r, s)) for s in series)]
+    drawn_series = [s for s in series if any(_trusted(cell(r, s)) for r in rows)]
+    if not drawn_rows or len(drawn_series) > MAX_SERIES:
+        return None
+    dropped = [f"{row_name} {r}" for r in rows if r not in drawn_rows]
+    dropped += [f"{series_name} {s}" for s in series if s not in drawn_series]
     margins = {
         m.column if transpose else m.row: m.mean
         for m in (cross.column_margins if transpose else cross.row_margins)
     }
-    ordered = sorted(rows, key=lambda r: -(margins.get(r) or 0.0))
+    ordered, order = level_order(drawn_rows, margins, *_kind(row_shown))
+    # Series keep their natural order, else label order (no values given: ties by label).
+    series_order, _ = level_order(drawn_series, {}, *_kind(series_shown))
+    return DotLayout(ordered, series_order, row_name, series_name, transpose, order, tuple(dropped))
+
+
+def cross_chart(
+    cross: CrossTable,
+    label: str,
+    decimals: int,
+    names: tuple[str, str],
+    shown: tuple[ShownLevels | None, ShownLevels | None] = (None, None),
+) -> Chart | None:
+    """Means with intervals for every trusted cell, laid out by ``dot_layout``."""
+    layout = dot_layout(cross, names, shown)
+    if layout is None:
+        return None
+    ordered, series_order = layout.rows, layout.series
+    row_name, series_name, order = layout.row_name, layout.series_name, layout.order
+    dropped = list(layout.dropped)
+
+    def cell(row: str, serie: str):
+        return cross.cell(serie, row) if layout.transpose else cross.cell(row, serie)
+
+    # First row at the top: matplotlib counts positions upwards from the bottom.
     positions = {row: len(ordered) - i for i, row in enumerate(ordered)}
     # Series sit side by side within a row so their intervals never overlap.
-    offsets = [(i - (len(series) - 1) / 2) * 0.22 for i in range(len(series))]
+    offsets = [(i - (len(series_order) - 1) / 2) * 0.22 for i in range(len(series_order))]
     left_out = []
     with themed():
         figure = new_figure(0.9 + 0.36 * max(len(ordered), 2))
         axes = figure.subplots()
-        for i, serie in enumerate(series):
+        for i, serie in enumerate(series_order):
             cells = [(positions[row] + offsets[i], row, cell(row, serie)) for row in ordered]
             _draw_series(axes, i, serie, _trusted_points(cells, serie, left_out))
         axes.set_yticks([positions[r] for r in ordered], [short_label(r) for r in ordered])
         axes.grid(axis="y", visible=False)
-        axes.set_xlabel(f"Mean {label[:1].lower() + label[1:]}")
+        axes.set_xlabel(f"Mean {in_sentence(label)}")
+        # Outside the plot, so it never covers a dot.
         axes.legend(
             title=series_name,
-            loc="lower right",
+            loc="upper left",
+            bbox_to_anchor=(1.01, 1.0),
             fontsize=8,
             title_fontsize=8,
-            frameon=True,
-            framealpha=0.9,
-            edgecolor="none",
+            frameon=False,
         )
         svg = to_svg(figure)
     return Chart(
@@ -156,5 +239,6 @@ def cross_chart(
         title=f"{label} by {row_name} and {series_name}",
         svg=svg,
         alt=_alt(cross, label, decimals, row_name, series_name),
-        caption=_caption(cross, label, row_name, series_name, left_out),
+        caption=_caption(cross, label, row_name, series_name, left_out, order, dropped),
+        rules=(CATEGORICAL_AXIS, order),
     )

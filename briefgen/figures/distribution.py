@@ -7,6 +7,18 @@ uncertainty of the average for each level on one line. Boxes are drawn with
 
 from __future__ import annotations
 
+import numpy as np
+
+from briefgen.figures import rules
+from briefgen.figures.rules import (
+    CATEGORICAL_AXIS,
+    FOLDED_OTHER,
+    LOG_AXIS,
+    NATURAL_ORDER,
+    VALUE_ORDER,
+    is_natural_order,
+)
+from briefgen.figures.scales import plain_log_ticks
 from briefgen.figures.theme import (
     ACCENT,
     ACCENT_TEXT,
@@ -25,6 +37,7 @@ from briefgen.figures.theme import (
     to_svg,
 )
 from briefgen.numbers import fmt, fmt_count, fmt_level
+from briefgen.present.wording import in_sentence
 from briefgen.stats.core.summary import BoxStats, Summary
 from briefgen.stats.groups import GroupResult
 
@@ -44,41 +57,66 @@ def _bxp_stats(box: BoxStats) -> dict:
     }
 
 
+# Room kept past each end of the box axis for an arrow and its count (share of the range),
+# so the count sits inside the box panel, next to its arrow, and not between the panels.
+_EDGE_ROOM = 0.16
+_PAD = 0.04
+
+
 def _mark_edges(
     axes, boxes: list[BoxStats], positions: list[int], lower: float, upper: float
 ) -> int:
-    """Arrows at the axis edge with the exact count of values past it (counted by the engine)."""
+    """Arrows at the axis edge with the exact count of values past it (counted by the engine).
+
+    The arrow sits on the panel's own edge and its count just inside, on the box's line,
+    in the room kept free of data for it: it reads as part of that box, not of the
+    means panel beside it.
+    """
     marked = 0
     for box, y in zip(boxes, positions, strict=True):
         sides = (
-            (box.beyond_axis_low, lower, "<", "left"),
-            (box.beyond_axis_high, upper, ">", "right"),
+            (box.beyond_axis_low, lower, "<", "left", 5),
+            (box.beyond_axis_high, upper, ">", "right", -5),
         )
-        for count, x, marker, _align in sides:
+        for count, x, marker, align, shift in sides:
             if count:
                 axes.plot([x], [y], marker=marker, color=INK, markersize=4.5, clip_on=False)
                 axes.annotate(
                     f"{count:,}",
                     xy=(x, y),
-                    xytext=(0, 5),
+                    xytext=(shift, 0),
                     textcoords="offset points",
-                    ha="center",
-                    va="bottom",
+                    ha="left" if align == "left" else "right",
+                    va="center",
                     fontsize=8,
                     color=INK,
                     annotation_clip=False,
-                    bbox={"boxstyle": "square,pad=0.1", "facecolor": "white", "edgecolor": "none"},
                 )
                 marked += count
     return marked
 
 
-def _draw_boxes(axes, boxes: list[BoxStats], positions: list[int], label: str) -> int:
-    """Tukey boxes on a shared axis range; returns how many values lie past its edges."""
+def _limits(boxes: list[BoxStats], log: bool) -> tuple[float, float]:
+    """The box axis: the shared range plus room at each end (in log10 on a log axis)."""
+    low, high = boxes[0].axis_low, boxes[0].axis_high
+    if log:
+        low, high = np.log10(low), np.log10(high)
     # A constant target has no range; pad by its magnitude so the axis still has width.
-    span = (boxes[0].axis_high - boxes[0].axis_low) or max(abs(boxes[0].axis_high), 1.0)
-    pad = 0.04 * span
-    lower, upper = boxes[0].axis_low - pad, boxes[0].axis_high + pad
+    span = (high - low) or max(abs(high), 1.0)
+    low_room = _EDGE_ROOM if any(b.beyond_axis_low for b in boxes) else _PAD
+    high_room = _EDGE_ROOM if any(b.beyond_axis_high for b in boxes) else _PAD
+    lower, upper = low - low_room * span, high + high_room * span
+    return (10.0**lower, 10.0**upper) if log else (lower, upper)
+
+
+def _draw_boxes(
+    axes, boxes: list[BoxStats], positions: list[int], label: str, log: bool = False
+) -> int:
+    """Tukey boxes on a shared axis range; returns how many values lie past its edges."""
+    lower, upper = _limits(boxes, log)
+    if log:
+        axes.set_xscale("log")
+        plain_log_ticks(axes.xaxis)
     axes.bxp(
         [_bxp_stats(b) for b in boxes],
         positions=positions,
@@ -143,7 +181,7 @@ def _draw_means(
         fontsize=8,
         color=ACCENT_TEXT,
     )
-    axes.set_xlabel(f"Mean {label.lower()}")
+    axes.set_xlabel(f"Mean {in_sentence(label)}")
     axes.set_title(
         f"Average with {fmt_level(confidence)} interval", fontsize=8.5, fontweight="normal"
     )
@@ -169,7 +207,8 @@ def _outlier_note(boxes: list[BoxStats], beyond_edge: int) -> str:
     if beyond_edge:
         note += (
             f" {fmt_count(beyond_edge)} far-out values (more than 3 × IQR from the box) lie past the "
-            "edge of the axis, which stops there so the boxes stay readable; arrows give their count."
+            "edge of the box axis, which stops there so the boxes stay readable; an arrow at the end "
+            "of a box's line gives the count past that edge."
         )
     return note
 
@@ -192,10 +231,19 @@ def _alt(boxes: list[BoxStats], label: str, decimals: int, name: str) -> str:
     high = max(boxes, key=lambda b: b.median)
     low = min(boxes, key=lambda b: b.median)
     return (
-        f"Box plots and means of {label.lower()} for {len(boxes)} levels of {name}. "
+        f"Box plots and means of {in_sentence(label)} for {len(boxes)} levels of {name}. "
         f"Highest median: {high.level} ({fmt(high.median, decimals)}); lowest: {low.level} "
         f"({fmt(low.median, decimals)})."
     )
+
+
+def log_scale(boxes: list[BoxStats], overall: Summary) -> bool:
+    """Whether the levels need a log axis: all values positive, medians more than tenfold apart.
+
+    ``rules.magnitudes_differ``: such levels never share one linear axis (Cleveland 1985).
+    """
+    positive = overall.min is not None and overall.min > 0
+    return positive and rules.magnitudes_differ([b.median for b in boxes])
 
 
 def distribution_chart(
@@ -212,20 +260,42 @@ def distribution_chart(
     ``row_in`` closes the rows up for page 1 (see ``theme.compact_row_in``).
     """
     boxes = list(group.boxes)
+    levels = [b.level for b in boxes]
+    order = NATURAL_ORDER if is_natural_order(levels, group.shown.numeric) else VALUE_ORDER
+    order_note = (
+        " Levels in their natural order."
+        if order == NATURAL_ORDER
+        else " Levels by median, highest first."
+    )
+    folded = (FOLDED_OTHER,) if group.shown.other_label in levels else ()
+    log = log_scale(boxes, overall)
+    if log:
+        order_note += (
+            f" Both axes are logarithmic: the medians differ more than tenfold "
+            f"({fmt(min(b.median for b in boxes), decimals)} to "
+            f"{fmt(max(b.median for b in boxes), decimals)}), so one linear axis would squash "
+            "the smaller levels."
+        )
     summaries = {s.level: s for s in group.summaries}
     level_summaries = [summaries[b.level] for b in boxes]
     # First level at the top: matplotlib counts positions upwards from the bottom.
     positions = list(range(len(boxes), 0, -1))
     with themed():
         figure = new_figure(rows_height(len(boxes), row_in))
+        # A clear gap between the panels, so nothing at the box panel's edge reads as a mean.
+        figure.get_layout_engine().set(wspace=0.06)
         left, right = figure.subplots(1, 2, sharey=True, width_ratios=(1.35, 1))
-        beyond_edge = _draw_boxes(left, boxes, positions, label)
+        beyond_edge = _draw_boxes(left, boxes, positions, label, log)
         _draw_means(right, level_summaries, positions, overall, label, decimals, confidence)
+        if log:
+            right.set_xscale("log")
+            plain_log_ticks(right.xaxis)
         svg = to_svg(figure)
     return Chart(
         key=f"group-{group.variable}",
         title=f"{label} by {name}",
         svg=svg,
         alt=_alt(boxes, label, decimals, name),
-        caption=_caption(boxes, beyond_edge, label, confidence, name),
+        caption=_caption(boxes, beyond_edge, label, confidence, name) + order_note,
+        rules=(CATEGORICAL_AXIS, order, *folded, *((LOG_AXIS,) if log else ())),
     )

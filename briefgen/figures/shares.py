@@ -7,6 +7,13 @@ is what the chart shows, against a dashed line at the share over all rows.
 
 from __future__ import annotations
 
+from briefgen.figures.rules import (
+    CATEGORICAL_AXIS,
+    FOLDED_OTHER,
+    NATURAL_ORDER,
+    VALUE_ORDER,
+    is_natural_order,
+)
 from briefgen.figures.theme import (
     ACCENT,
     LINE,
@@ -21,6 +28,7 @@ from briefgen.figures.theme import (
     to_svg,
 )
 from briefgen.numbers import fmt_count, fmt_level, fmt_percent
+from briefgen.present.wording import in_sentence
 from briefgen.stats.groups import GroupResult
 from briefgen.stats.proportions import Share
 
@@ -38,6 +46,8 @@ def share_chart(
     ``row_in`` closes the rows up for page 1 (see ``theme.compact_row_in``).
     """
     shares = [s for s in group.shares if s.share is not None]
+    levels = [s.level for s in shares]
+    order = NATURAL_ORDER if is_natural_order(levels, group.shown.numeric) else VALUE_ORDER
     # First level at the top: matplotlib counts positions upwards from the bottom.
     positions = list(range(len(shares), 0, -1))
     with themed():
@@ -78,7 +88,7 @@ def share_chart(
         title=f"{label} by {name}",
         svg=svg,
         alt=(
-            f"Share of rows where {label.lower()} is 1, for {len(shares)} levels of {name}. "
+            f"Share of rows where {in_sentence(label)} is 1, for {len(shares)} levels of {name}. "
             f"Highest: {high.level} ({fmt_percent(high.share, 1)}); "
             f"lowest: {low.level} ({fmt_percent(low.share, 1)})."
         ),
@@ -87,4 +97,5 @@ def share_chart(
             f"score intervals; dashed line: share over all rows. n per level: {counts}."
             + (f" {SHORTENED_NOTE}" if shortened(s.level for s in shares) else "")
         ),
+        rules=(CATEGORICAL_AXIS, order, *((FOLDED_OTHER,) if group.shown.other_label else ())),
     )

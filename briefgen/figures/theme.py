@@ -97,6 +97,8 @@ class Chart:
     svg: str
     alt: str
     caption: str
+    # Names of the chart-choice rules that shaped it (briefgen.figures.rules), for stats.json.
+    rules: tuple[str, ...] = ()
 
     @property
     def data_uri(self) -> str:

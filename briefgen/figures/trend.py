@@ -12,8 +12,10 @@ import datetime as dt
 
 import matplotlib.dates as mdates
 
+from briefgen.figures.rules import TIME_AXIS
 from briefgen.figures.theme import ACCENT, INK, LINE, Chart, new_figure, themed, to_svg
 from briefgen.numbers import fmt, fmt_count, fmt_level
+from briefgen.present.wording import in_sentence
 from briefgen.stats.periods import period_label, runs
 from briefgen.stats.trend import Trend
 
@@ -93,7 +95,7 @@ def _caption(trend: Trend, label: str, confidence: float) -> str:
         else ""
     )
     text = (
-        f"Mean {label[:1].lower() + label[1:]} per {trend.period} {intervals}, "
+        f"Mean {in_sentence(label)} per {trend.period} {intervals}, "
         f"{fmt_count(n)} rows over {len(trend.periods)} {trend.period}s{_every(trend)}.{hollow} "
         "Dashed: least-squares straight line through the period means"
     )
@@ -122,7 +124,7 @@ def _alt(trend: Trend, label: str, decimals: int) -> str:
     means = [p.mean for p in trend.periods]
     first, last = (_named(p.start, trend.period) for p in (trend.periods[0], trend.periods[-1]))
     return (
-        f"Line chart of mean {label.lower()} per {trend.period} from {first} to {last}, "
+        f"Line chart of mean {in_sentence(label)} per {trend.period} from {first} to {last}, "
         f"ranging from {fmt(min(means), decimals)} to {fmt(max(means), decimals)}."
     )
 
@@ -145,7 +147,7 @@ def trend_chart(
         locator = mdates.AutoDateLocator(minticks=4, maxticks=9)
         axes.xaxis.set_major_locator(locator)
         axes.xaxis.set_major_formatter(mdates.ConciseDateFormatter(locator))
-        axes.set_ylabel(f"Mean {label[:1].lower() + label[1:]}")
+        axes.set_ylabel(f"Mean {in_sentence(label)}")
         axes.legend(loc="upper left", ncols=3, fontsize=8)
         axes.margins(y=0.25)
         axes.tick_params(colors=INK)
@@ -156,4 +158,5 @@ def trend_chart(
         svg=svg,
         alt=_alt(trend, label, decimals),
         caption=_caption(trend, label, confidence),
+        rules=(TIME_AXIS,),
     )

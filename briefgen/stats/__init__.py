@@ -19,6 +19,7 @@ from briefgen.stats.compare import GroupComparison
 from briefgen.stats.core.frame import AnalysisFrame, build_frame
 from briefgen.stats.core.summary import BoxStats, Summary
 from briefgen.stats.correlation import Correlation
+from briefgen.stats.density import DensityAnalysis, DensityBins
 from briefgen.stats.groups import GroupAnalysis, GroupResult
 from briefgen.stats.histogram import Histogram, HistogramBins
 from briefgen.stats.overall import Overall
@@ -63,7 +64,15 @@ __all__ = [
 
 # Every analysis family, in the order compute runs them; each has its own module, frozen
 # parameters, a plan from the spec and one call on the frame (see stats.core.analysis).
-ANALYSES = (Overall, Histogram, GroupAnalysis, CrossAnalysis, TrendAnalysis, RelationshipAnalysis)
+ANALYSES = (
+    Overall,
+    Histogram,
+    GroupAnalysis,
+    CrossAnalysis,
+    TrendAnalysis,
+    RelationshipAnalysis,
+    DensityAnalysis,
+)
 
 
 @dataclass(frozen=True, slots=True)
@@ -86,6 +95,11 @@ class BriefStats:
     accounting: Accounting
     target_kind: TargetKind | None = None
     overall_share: Share | None = None
+    # 2-D bin counts per predictor with more rows than a scatter shows (stats.density).
+    densities: tuple[DensityBins, ...] = ()
+
+    def density(self, predictor: str) -> DensityBins | None:
+        return next((d for d in self.densities if d.predictor == predictor), None)
 
     @property
     def comparisons(self) -> tuple[GroupComparison, ...]:
@@ -140,6 +154,7 @@ def compute(source: Source, spec: BriefSpec) -> BriefStats:
     crosses = tuple(cross(frame) for cross in planned)
     trend = next(iter(_run(TrendAnalysis, spec, frame)), None)
     (relationships,) = _run(RelationshipAnalysis, spec, frame)
+    densities = _run(DensityAnalysis, spec, frame)
     stage.info("statistics: row accounting and scatter sample")
     usages = [r.usage for r in (overall, *groups, *crosses)]
     usages += [trend.usage] if trend is not None else []
@@ -164,4 +179,5 @@ def compute(source: Source, spec: BriefSpec) -> BriefStats:
         accounting=accounting,
         target_kind=frame.kind,
         overall_share=overall.share,
+        densities=densities,
     )

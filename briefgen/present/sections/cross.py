@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from briefgen.config import BriefSpec
 from briefgen.figures.cross import cross_chart
+from briefgen.figures.heatmap import heat_map_chart
+from briefgen.figures.rules import HEAT_MAP, two_way_kind
 from briefgen.numbers import (
     fmt_count,
 )
@@ -16,6 +18,7 @@ from briefgen.present.wording import (
     points_text,
     share_text,
 )
+from briefgen.stats.core.frame import ShownLevels
 from briefgen.stats.twoway import CrossTable
 from briefgen.table_fit import fits_across
 from briefgen.tables import (
@@ -121,16 +124,30 @@ def cross_finding(
 MAX_MATRIX_COLUMNS = 7  # level columns that fit across A4 text width at 8.5 pt
 
 
-def cross_section(cross: CrossTable, spec: BriefSpec, words: Wording, family: Family) -> Section:
-    """The two-way means of one pair of groups."""
+def cross_section(
+    cross: CrossTable,
+    spec: BriefSpec,
+    words: Wording,
+    family: Family,
+    shown: dict[str, ShownLevels] | None = None,
+) -> Section:
+    """The two-way means of one pair of groups: dots with intervals, or a heat map when large.
+
+    ``shown`` (group variable ─► its shown levels) gives numeric variables their natural order.
+    """
     label, decimals = words.label, words.unit_decimals
     names = (name_for(spec, cross.row_variable), name_for(spec, cross.column_variable))
     finding = cross_finding(cross, words, *names, family)
+    levels = tuple((shown or {}).get(v) for v in (cross.row_variable, cross.column_variable))
+    if two_way_kind(len(cross.rows), len(cross.columns)) == HEAT_MAP:
+        chart = heat_map_chart(cross, words, names, levels)
+    else:
+        chart = cross_chart(cross, label, decimals, names, levels)
     return Section(
         f"cross-{cross.row_variable}-{cross.column_variable}",
         f"{label} by {names[0]} and {names[1]}",
         finding,
-        cross_chart(cross, label, decimals, names),
+        chart,
         _cross_matrix(cross, words, names),
     )
 

@@ -244,12 +244,15 @@ def fit_section(
         group_label,
     )
     claimed = finding is not None and finding.claim in ("rise", "fall")
-    short = relationship_chart(*common, height=SHORT_HEIGHT_IN) if claimed else None
+    density = stats.density(fit.predictor)
+    short = (
+        relationship_chart(*common, height=SHORT_HEIGHT_IN, density=density) if claimed else None
+    )
     return Section(
         f"fit-{fit.predictor}",
         f"{label} and {x_label}",
         finding,
-        relationship_chart(*common),
+        relationship_chart(*common, density=density),
         None,
         short,
     )

@@ -114,7 +114,7 @@ def kind_note(stats: BriefStats) -> str | None:
 def overall_section(stats: BriefStats, words: Wording) -> Section:
     """The target over all rows: the overall finding, and the histogram when there is one."""
     chart = (
-        histogram_chart(stats.histogram, words.lower, words.unit_decimals)
+        histogram_chart(stats.histogram, words.label, words.unit_decimals)
         if stats.histogram is not None
         else None
     )

@@ -21,6 +21,7 @@ import ibis.expr.datatypes as dt
 import ibis.expr.types as ir
 
 from briefgen.config import BriefSpec
+from briefgen.figures.rules import fold_levels
 from briefgen.source import category, materialize, numeric, time_values
 from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.exact import FixedPoint, as_integer, exact_sum, value_of
@@ -123,8 +124,7 @@ def shown_levels(
         return ShownLevels(variable, len(counted), kept, None, (), rows, 0, numeric)
     distance = _distances_from_mean(present, column)
     ranked = sorted(counted, key=lambda item: (-item[1], -distance.get(item[0], -1.0), item[0]))
-    kept = tuple(level for level, _ in ranked[: max_levels - 1])
-    folded = tuple(level for level, _ in ranked[max_levels - 1 :])
+    kept, folded = fold_levels([level for level, _ in ranked], max_levels)
     folded_rows = sum(n for _, n in ranked[max_levels - 1 :])
     label = f"{OTHER_PREFIX} ({len(folded)} levels)"
     return ShownLevels(variable, len(counted), kept, label, folded, rows, folded_rows, numeric)

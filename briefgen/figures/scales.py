@@ -1,0 +1,17 @@
+"""Axis helpers shared by chart kinds: log ticks written as plain numbers."""
+
+from __future__ import annotations
+
+from matplotlib.ticker import FuncFormatter, LogLocator, NullFormatter, NullLocator
+
+
+def plain_log_ticks(axis) -> None:
+    """Ticks at 1 and 3 per decade, written as plain numbers (10, 30, 100), not as powers.
+
+    The theme turns math text off (level names are data), so matplotlib's default
+    ``10^{2}`` labels would print as markup.
+    """
+    axis.set_major_locator(LogLocator(subs=(1.0, 3.0)))
+    axis.set_minor_locator(NullLocator())
+    axis.set_major_formatter(FuncFormatter(lambda value, _: f"{value:,.10g}"))
+    axis.set_minor_formatter(NullFormatter())
