@@ -135,6 +135,43 @@ def _trusted(cell: CrossCell | None) -> bool:
 
 
 @dataclass(frozen=True, slots=True)
+class Orientation:
+    """A two-way table turned so that the variable with more levels runs down the chart.
+
+    ``down``/``across`` are the levels, ``names`` and ``shown`` follow them; ``cell``
+    reads a cell by (down, across) whichever way the table was stored.
+    """
+
+    cross: CrossTable
+    down: tuple[str, ...]
+    across: tuple[str, ...]
+    names: tuple[str, str]
+    shown: tuple[ShownLevels | None, ShownLevels | None]
+    transpose: bool
+
+    def cell(self, down: str, across: str) -> CrossCell | None:
+        return self.cross.cell(across, down) if self.transpose else self.cross.cell(down, across)
+
+    def margin_means(self) -> dict[str, float | None]:
+        """Mean of each level running down, from the table's margins."""
+        margins = self.cross.column_margins if self.transpose else self.cross.row_margins
+        return {m.column if self.transpose else m.row: m.mean for m in margins}
+
+
+def orient(
+    cross: CrossTable,
+    names: tuple[str, str],
+    shown: tuple[ShownLevels | None, ShownLevels | None] = (None, None),
+) -> Orientation:
+    """The table with its longer variable down: rows read better than a crowded axis."""
+    if len(cross.columns) > len(cross.rows):
+        return Orientation(
+            cross, cross.columns, cross.rows, names[::-1], (shown[1], shown[0]), True
+        )
+    return Orientation(cross, cross.rows, cross.columns, names, shown, False)
+
+
+@dataclass(frozen=True, slots=True)
 class DotLayout:
     """What a two-way dot plot draws: rows top to bottom, series, and what it leaves out.
 
@@ -164,32 +201,21 @@ def dot_layout(
     cell is not drawn, so no row is empty and the legend lists only series that appear.
     None when nothing can be drawn or there are more series than markers.
     """
-    rows, series = cross.rows, cross.columns
-    row_name, series_name = names
-    row_shown, series_shown = shown
-    transpose = len(series) > len(rows)
-    if transpose:
-        rows, series = series, rows
-        row_name, series_name = series_name, row_name
-        row_shown, series_shown = series_shown, row_shown
-
-    def cell(row: str, serie: str):
-        return cross.cell(serie, row) if transpose else cross.cell(row, serie)
-
+    turned = orient(cross, names, shown)
+    rows, series, cell = turned.down, turned.across, turned.cell
+    (row_name, series_name), (row_shown, series_shown) = turned.names, turned.shown
     drawn_rows = [r for r in rows if any(_trusted(cell(r, s)) for s in series)]
     drawn_series = [s for s in series if any(_trusted(cell(r, s)) for r in rows)]
     if not drawn_rows or len(drawn_series) > MAX_SERIES:
         return None
     dropped = [f"{row_name} {r}" for r in rows if r not in drawn_rows]
     dropped += [f"{series_name} {s}" for s in series if s not in drawn_series]
-    margins = {
-        m.column if transpose else m.row: m.mean
-        for m in (cross.column_margins if transpose else cross.row_margins)
-    }
-    ordered, order = level_order(drawn_rows, margins, *_kind(row_shown))
+    ordered, order = level_order(drawn_rows, turned.margin_means(), *_kind(row_shown))
     # Series keep their natural order, else label order (no values given: ties by label).
     series_order, _ = level_order(drawn_series, {}, *_kind(series_shown))
-    return DotLayout(ordered, series_order, row_name, series_name, transpose, order, tuple(dropped))
+    return DotLayout(
+        ordered, series_order, row_name, series_name, turned.transpose, order, tuple(dropped)
+    )
 
 
 def cross_chart(

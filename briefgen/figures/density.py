@@ -22,7 +22,7 @@ from briefgen.figures.rules import (
     LOG_AXIS,
     magnitudes_differ,
 )
-from briefgen.figures.scales import plain_log_ticks
+from briefgen.figures.scales import mark_above, plain_log_ticks
 from briefgen.figures.theme import ACCENT, INK, Chart, new_figure, themed, to_svg
 from briefgen.numbers import fmt, fmt_count, fmt_level
 from briefgen.present.wording import in_sentence
@@ -87,17 +87,7 @@ def density_chart(
         axes.set_xlim(bins.x_edges[0], bins.x_edges[-1])
         axes.set_ylim(bins.y_edges[0], bins.y_edges[-1])
         if bins.y_scale == "clipped" and bins.beyond:
-            axes.annotate(
-                f"▲ {fmt_count(bins.beyond)} rows above",
-                xy=(1.0, 1.0),
-                xycoords="axes fraction",
-                xytext=(0, 2),
-                textcoords="offset points",
-                ha="right",
-                va="bottom",
-                fontsize=8,
-                color=INK,
-            )
+            mark_above(axes, f"{fmt_count(bins.beyond)} rows", INK)
         axes.grid(False)
         axes.set_xlabel(x_label)
         axes.set_ylabel(y_label)

@@ -14,6 +14,7 @@ import matplotlib as mpl
 import numpy as np
 from matplotlib.colors import Normalize, to_rgb
 
+from briefgen.figures.cross import orient
 from briefgen.figures.rules import CATEGORICAL_AXIS, HEAT_MAP, NATURAL_ORDER, level_order
 from briefgen.figures.theme import (
     INK,
@@ -60,22 +61,10 @@ def heat_map_chart(
     shown: tuple[ShownLevels | None, ShownLevels | None] = (None, None),
 ) -> Chart | None:
     """Cells shaded and labelled by their mean; the variable with more levels runs down."""
-    down, across = cross.rows, cross.columns
-    down_name, across_name = names
-    down_shown, across_shown = shown
-    transpose = len(across) > len(down)
-    if transpose:
-        down, across = across, down
-        down_name, across_name = across_name, down_name
-        down_shown, across_shown = across_shown, down_shown
-
-    def cell(row: str, column: str):
-        return cross.cell(column, row) if transpose else cross.cell(row, column)
-
-    margins = {
-        m.column if transpose else m.row: m.mean
-        for m in (cross.column_margins if transpose else cross.row_margins)
-    }
+    turned = orient(cross, names, shown)
+    down, across, cell = turned.down, turned.across, turned.cell
+    (down_name, across_name), (down_shown, across_shown) = turned.names, turned.shown
+    margins = turned.margin_means()
     rows, order = _order(down, margins, down_shown)
     columns, _ = _order(across, {}, across_shown)
     means = np.full((len(rows), len(columns)), np.nan)

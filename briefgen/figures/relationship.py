@@ -22,7 +22,7 @@ from briefgen.figures.rules import (
     overlay_or_multiples,
     value_axis,
 )
-from briefgen.figures.scales import plain_log_ticks
+from briefgen.figures.scales import mark_above, plain_log_ticks
 from briefgen.figures.theme import (
     BAND,
     LINE,
@@ -93,16 +93,7 @@ def _apply_axis(axes, axis: ValueAxis, ys: np.ndarray) -> None:
     elif axis.kind == "clipped":
         low = float(ys.min())
         axes.set_ylim(low - 0.04 * (axis.top - low), axis.top)
-        axes.annotate(
-            f"▲ {fmt_count(axis.beyond)} points above",
-            xy=(1.0, 1.0),
-            xycoords="axes fraction",
-            xytext=(0, 2),
-            textcoords="offset points",
-            ha="right",
-            va="bottom",
-            fontsize=8,
-        )
+        mark_above(axes, f"{fmt_count(axis.beyond)} points")
 
 
 def axis_sentence(axis: ValueAxis, shown: int) -> str:
