@@ -23,11 +23,16 @@ WRAPPER = """
 import logging, os, sys, time
 from briefgen.cli import main
 pause = float(os.environ.get("STEP_PAUSE", "0"))
+gate = os.environ.get("STEP_GATE")
 class Steps(logging.Handler):
     def emit(self, record):
         if record.msg.startswith("publish step"):
             print("STEP", record.args[0], os.getpid(), flush=True)
             time.sleep(pause)
+            # Hold at each step until the test opens the gate (a file), however slow the machine.
+            deadline = time.monotonic() + 300
+            while gate and not os.path.exists(gate) and time.monotonic() < deadline:
+                time.sleep(0.05)
 steps = logging.getLogger("briefgen.deliver.publish")
 steps.setLevel(logging.DEBUG)
 steps.addHandler(Steps())
@@ -59,8 +64,12 @@ def _case(folder: Path, variant: int) -> Path:
     return config
 
 
-def _start(config: Path, *extra: str, pause: float = 0.0) -> subprocess.Popen:
+def _start(
+    config: Path, *extra: str, pause: float = 0.0, gate: Path | None = None
+) -> subprocess.Popen:
     env = os.environ | {"SOURCE_DATE_EPOCH": "1796169600", "STEP_PAUSE": str(pause)}
+    if gate is not None:
+        env["STEP_GATE"] = str(gate)
     return subprocess.Popen(
         [sys.executable, "-c", WRAPPER, "--quiet", "build", str(config), *extra],
         stdout=subprocess.PIPE,
@@ -120,12 +129,17 @@ def test_sigkill_at_twenty_moments_leaves_one_whole_brief(tmp_path):
 def test_a_second_run_exits_at_once_or_waits_and_never_interleaves(tmp_path):
     config = _case(tmp_path, 0)
     assert _start(config).wait() == 0
-    first = _start(config, pause=1.0)
+    # The first run holds at its first publish step until the gate file appears, so the
+    # second run meets the lock however long its start-up takes on a loaded machine.
+    gate = tmp_path / "gate"
+    first = _start(config, gate=gate)
     assert next(iter(first.stdout)).startswith("STEP ")  # holding the lock, mid-publish
     second = _start(config)
     assert second.wait() == 5
     assert "is building into this folder" in " ".join(second.stderr.read().split())
-    waiting = _start(config, "--wait", "60", pause=0.0)
+    waiting = _start(config, "--wait", "300", pause=0.0)
+    time.sleep(2.0)  # give the waiting run time to reach the lock (it passes either way)
+    gate.touch()
     first_rest = first.stdout.read()
     assert first.wait() == 0
     waiting_steps = waiting.stdout.read()
