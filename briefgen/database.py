@@ -3,7 +3,8 @@
 Where the statistics run depends on the database:
 
 - ``duckdb://`` attaches the file read-only to the engine, which runs the statistics on
-  it and keeps its own tables in its private file (a query on a DuckDB file is not read yet).
+  it and keeps its own tables in its private file; a query is run by the file's own
+  DuckDB client (read-only) and its rows copied into the engine in Arrow batches.
 - ``postgresql://`` runs the statistics in PostgreSQL: every query is compiled by
   Ibis and only aggregates come back. The session turns parallel workers off, as one
   DuckDB thread does, so sums combine in one order and builds repeat to the last digit.
@@ -23,6 +24,7 @@ import re
 from pathlib import Path
 from urllib.parse import unquote, urlsplit
 
+import duckdb
 import ibis
 import ibis.expr.types as ir
 from ibis.backends import BaseBackend
@@ -151,19 +153,44 @@ def _copy_into(engine: BaseBackend, table: ir.Table, label: str) -> ir.Table:
     """The rows of ``table`` as a table in ``engine``, copied in Arrow batches."""
     try:
         batches = table.to_pyarrow_batches(chunk_size=COPY_BATCH_ROWS)
-        first = True
+    except Exception as exc:
+        raise DataError(f"{label}: reading the rows failed ({_first_line(exc, None)}).") from None
+    return _insert_batches(engine, table.schema(), batches, label)
+
+
+def _insert_batches(engine: BaseBackend, schema, batches, label: str) -> ir.Table:
+    """Arrow ``batches`` of ``schema`` as one temporary table in ``engine``."""
+    try:
+        engine.create_table(COPIED_TABLE, schema=schema, temp=True)
         for batch in batches:
-            if first:
-                engine.create_table(COPIED_TABLE, schema=table.schema(), temp=True)
-                first = False
-            engine.insert(COPIED_TABLE, batch.to_pandas() if batch.num_rows == 0 else batch)
-        if first:
-            engine.create_table(COPIED_TABLE, schema=table.schema(), temp=True)
-    except DataError:
-        raise
+            if batch.num_rows:
+                engine.insert(COPIED_TABLE, batch)
     except Exception as exc:
         raise DataError(f"{label}: reading the rows failed ({_first_line(exc, None)}).") from None
     return engine.table(COPIED_TABLE)
+
+
+def _duckdb_query(spec: BriefSpec, label: str, engine: BaseBackend) -> ir.Table:
+    """The rows of ``data.query`` on a DuckDB file, copied into the engine.
+
+    The file's own DuckDB client runs the query (read-only): Ibis 12's ``sql`` calls a
+    result method that DuckDB 2 no longer has.
+    """
+    path = database_file(spec.data.url or "", spec.base_dir)
+    if not path.is_file():
+        raise DataError(f"{label}: database file not found (looked in {path}); check data.url.")
+    try:
+        source = duckdb.connect(str(path), read_only=True)
+        reader = source.sql(spec.data.query or "").to_arrow_reader(COPY_BATCH_ROWS)
+    except Exception as exc:
+        raise DataError(
+            f"{label}: the query in data.query failed in the database ({_first_line(exc, None)}); "
+            "check it in the database's own client."
+        ) from None
+    try:
+        return _insert_batches(engine, ibis.Schema.from_pyarrow(reader.schema), reader, label)
+    finally:
+        source.close()
 
 
 def open_database(spec: BriefSpec, label: str, engine: BaseBackend) -> ir.Table:
@@ -172,6 +199,8 @@ def open_database(spec: BriefSpec, label: str, engine: BaseBackend) -> ir.Table:
     scheme = url.split(":", 1)[0].lower()
     if scheme.startswith("postgres"):
         return _table_or_query(_postgres(spec, label), spec, label)
+    if scheme == "duckdb" and spec.data.query is not None:
+        return _duckdb_query(spec, label, engine)
     if scheme == "duckdb" and spec.data.table is not None:
         # Attached read-only to the engine, which keeps its own tables in its private file.
         path = database_file(url, spec.base_dir)

@@ -239,6 +239,22 @@ def test_a_duckdb_file_is_opened_read_only_and_runs_the_statistics(tmp_path, cap
     assert "DuckDB ran the statistics in the database file (opened read-only)" in html
 
 
+def test_a_query_on_a_duckdb_file_reads_its_rows(tmp_path, capsys):
+    # Checked against pandas on the same rows (Palmer penguins, Biscoe island only).
+    _penguins_in_duckdb(tmp_path / "zoo.duckdb")
+    query = "select * from penguins where island = 'Biscoe'"
+    _config(tmp_path, {"url": "duckdb:///zoo.duckdb", "query": query})
+    frame = load_penguins()
+    _matches_pandas(_built(tmp_path, capsys)["stats"], frame[frame["island"] == "Biscoe"])
+
+
+def test_a_query_a_duckdb_file_rejects_is_one_sentence(tmp_path, capsys):
+    _penguins_in_duckdb(tmp_path / "zoo.duckdb")
+    _config(tmp_path, {"url": "duckdb:///zoo.duckdb", "query": "select nope from"})
+    line = _refused(tmp_path, capsys, 3)
+    assert "the query in data.query failed in the database" in line
+
+
 def test_a_sqlite_file_is_copied_into_duckdb_and_says_so(tmp_path, capsys):
     with sqlite3.connect(tmp_path / "zoo.db") as con:
         load_penguins().to_sql("penguins", con, index=False)
