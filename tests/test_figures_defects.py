@@ -185,3 +185,15 @@ def test_four_confounded_levels_get_small_multiples(engine_table):
     chart = relationship_chart(fit, sample, "X", "Y", 2, 0.95, by_group=slopes, group_label="Kind")
     assert rules.SMALL_MULTIPLES in chart.rules
     assert "one panel per level of Kind" in chart.caption
+
+
+def test_alt_text_says_a_falling_slope_as_a_size_and_less():
+    # Constructed: alt text read aloud must not say "-0.3 more" (a double negative in words).
+    from types import SimpleNamespace
+
+    from briefgen.figures.density import line_alt
+
+    falling = line_alt("Scatter plot", "Affairs", "Age", SimpleNamespace(slope=-0.0289), 3)
+    assert "falling" in falling and "0.029 less" in falling and "-" not in falling
+    rising = line_alt("Scatter plot", "Invest", "Value", SimpleNamespace(slope=0.141), 3)
+    assert "rising" in rising and "0.141 more" in rising

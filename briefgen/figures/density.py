@@ -34,6 +34,19 @@ from briefgen.stats.regression import RegressionFit
 COLOUR_MAP = ListedColormap(mpl.colormaps["cividis_r"](np.linspace(0.2, 1.0, 256)))
 
 
+def line_alt(drawing: str, y_label: str, x_label: str, fit, slope_decimals: int) -> str:
+    """Alt text of a chart with a fitted line: its direction and the slope in words.
+
+    The slope is said as a size with "more" or "less", never "-0.3 more".
+    """
+    rising = fit.slope > 0
+    return (
+        f"{drawing} of {in_sentence(y_label)} against {in_sentence(x_label)} with a "
+        f"{'rising' if rising else 'falling'} fitted line; each unit goes with "
+        f"{fmt(abs(fit.slope), slope_decimals)} {'more' if rising else 'less'} on average."
+    )
+
+
 def _draw_line(axes, fit: RegressionFit, confidence: float, log: bool) -> None:
     """The least-squares line and its band; on a log axis only where the line is above zero."""
     grid = np.linspace(fit.x_min, fit.x_max, 120)
@@ -119,11 +132,8 @@ def density_chart(
         f"{fmt_level(confidence)} confidence band of the line. Slope {fmt(fit.slope, slope_decimals)} "
         f"per unit, R² {fmt(fit.r_squared, 2)}.{axis_note}"
     )
-    direction = "rising" if fit.slope > 0 else "falling"
-    alt = (
-        f"Binned density of {in_sentence(y_label)} against {in_sentence(x_label)} over "
-        f"{fmt_count(bins.n)} rows, with a {direction} fitted line; each unit goes with "
-        f"{fmt(fit.slope, slope_decimals)} {'more' if fit.slope > 0 else 'less'} on average."
+    alt = line_alt(
+        f"Binned density over {fmt_count(bins.n)} rows", y_label, x_label, fit, slope_decimals
     )
     return Chart(
         key=f"fit-{fit.predictor}",

@@ -12,7 +12,7 @@ import numpy as np
 from matplotlib.colors import to_rgba
 
 from briefgen.figures.cross import SERIES_COLOURS, SERIES_MARKERS
-from briefgen.figures.density import density_chart
+from briefgen.figures.density import density_chart, line_alt
 from briefgen.figures.multiples import multiples_chart
 from briefgen.figures.rules import (
     CLIP_QUANTILE,
@@ -187,11 +187,7 @@ def relationship_chart(
         f"Slope {fmt(fit.slope, slope_decimals)} per unit, R² {fmt(fit.r_squared, 2)}."
         + axis_sentence(axis, shown)
     )
-    alt = (
-        f"Scatter plot of {in_sentence(y_label)} against {in_sentence(x_label)} with a rising"
-        if fit.slope > 0
-        else f"Scatter plot of {in_sentence(y_label)} against {in_sentence(x_label)} with a falling"
-    ) + f" fitted line; each unit goes with {fmt(fit.slope, slope_decimals)} more on average."
+    alt = line_alt("Scatter plot", y_label, x_label, fit, slope_decimals)
     return Chart(
         key=f"fit-{fit.predictor}",
         title=f"{y_label} against {x_label}",
