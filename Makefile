@@ -6,7 +6,7 @@ BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 TEST_STAMP := $(VENV)/.installed-test
 
-.PHONY: demo test lint bench example system-deps clean
+.PHONY: demo test test-spark lint bench example system-deps clean
 
 # WeasyPrint needs Pango, HarfBuzz's subsetter (repeatable font subsets) and a font; install them with apt when missing (CI and fresh machines run as root).
 # Chromium measures the HTML's width at phone and desktop sizes in tests/test_layout.py.
@@ -49,6 +49,11 @@ lint: $(TEST_STAMP)
 
 test: system-deps $(TEST_STAMP) lint
 	$(BIN)/pytest -q
+
+# The whole statistics suite again on a local Spark session (the fixture's pyspark
+# backend); CI runs it after `make test` (about 3 minutes on 2 cores).
+test-spark: system-deps $(TEST_STAMP)
+	$(BIN)/pytest -q -m slow -k pyspark
 
 # Rebuild the committed example brief with a fixed date, so unchanged output gives unchanged bytes.
 # Copied out of the published run so example_output/ stays three plain files, not run folders.
