@@ -14,6 +14,7 @@ from statsmodels.stats.multitest import multipletests
 from statsmodels.stats.oneway import anova_oneway
 from statsmodels.stats.weightstats import CompareMeans
 
+from briefgen.stats import ranks
 from briefgen.stats.compare import compare_groups
 from briefgen.stats.core.summary import summarise_levels
 from briefgen.stats.ranks import kruskal_wallis, rank_sums, rank_test, within_level_skewness
@@ -534,3 +535,41 @@ def test_overall_welch_uses_exactly_the_levels_with_spread(engine_table, levels)
         )  # reference: statsmodels anova_oneway(use_var="unequal") on the levels with spread
         assert result.statistic == pytest.approx(reference.statistic, rel=1e-9)
         assert result.df2 == pytest.approx(reference.df[1], rel=1e-9)
+
+
+def test_rank_sums_by_counting_equal_the_sorted_ranks_and_scipy(engine_table, monkeypatch):
+    # Constructed: 120,000 whole-number scores (21 distinct values) in three levels, so
+    # the rank sums come from counts of each value rather than a sort of every row.
+    rng = np.random.default_rng(7)
+    levels = {
+        "p": list(rng.binomial(20, 0.50, 50_000).astype(float)),
+        "q": list(rng.binomial(20, 0.52, 40_000).astype(float)),
+        "r": list(rng.binomial(20, 0.49, 30_000).astype(float)) + [math.nan] * 5,
+    }
+    table = engine_table(_frame(levels))
+    counting = []
+    monkeypatch.setattr(ranks, "doubled_ranks_of_values", _spy(counting))
+    counted = rank_sums(table, ["p", "q", "r"], values=120_000)
+    assert counting, "21 distinct values in 120,000 rows should be ranked by counting"
+    sorted_ = rank_sums(table, ["p", "q", "r"])  # no row count given: the window is used
+    assert counted == sorted_
+    values = np.concatenate([_clean(v) for v in levels.values()])
+    average = scipy_stats.rankdata(values)  # reference: scipy.stats.rankdata (average ties)
+    bounds = np.cumsum([0, 50_000, 40_000, 30_000])
+    assert counted.doubled_rank_sums == tuple(
+        int(round(2 * average[a:b].sum())) for a, b in zip(bounds[:-1], bounds[1:], strict=True)
+    )
+    result = kruskal_wallis(counted)
+    reference = scipy_stats.kruskal(*(_clean(v) for v in levels.values()))
+    assert result.statistic == pytest.approx(reference.statistic, rel=1e-10)
+    assert result.p_value == pytest.approx(reference.pvalue, rel=1e-8)
+
+
+def _spy(calls: list):
+    function = ranks.doubled_ranks_of_values
+
+    def spied(*args, **kwargs):
+        calls.append(args)
+        return function(*args, **kwargs)
+
+    return spied

@@ -323,3 +323,34 @@ def test_log_fit_with_multiplicative_effect_matches_statsmodels(engine_table):
     model = sm.OLS(np.log(y), sm.add_constant(x)).fit()  # reference: statsmodels OLS on np.log(y)
     assert fit.percent_change_per_unit == pytest.approx(100 * math.expm1(model.params[1]), rel=1e-9)
     assert fit.geometric_mean == pytest.approx(scipy_stats.gmean(y), rel=1e-12)  # scipy gmean
+
+
+def test_spearman_ranks_a_tied_column_by_counting_and_a_continuous_one_by_sorting(
+    engine_table, monkeypatch
+):
+    # Constructed: x takes 6 values (ranked from counts of each value), y is continuous
+    # (ranked by a sort); missing cells in each, on different rows.
+    from briefgen.stats import correlation
+
+    rng = np.random.default_rng(12)
+    n = 2_000
+    x = rng.integers(0, 6, n).astype(float)
+    y = x * 0.3 + rng.normal(0, 1, n)
+    x[::17], y[::23] = np.nan, np.nan
+    counted = []
+    original = correlation.doubled_ranks_of_values
+    monkeypatch.setattr(
+        correlation,
+        "doubled_ranks_of_values",
+        lambda rows, axis: counted.append(axis) or original(rows, axis),
+    )
+    table = engine_table(pd.DataFrame({"y": y, "x0": x}))
+
+    (result,) = correlate(table, ["x0"], ["x"], CONFIDENCE)
+
+    assert counted == ["x"]
+    used = ~np.isnan(x) & ~np.isnan(y)
+    reference = scipy_stats.spearmanr(x[used], y[used])  # reference: scipy.stats.spearmanr
+    assert result.n == used.sum()
+    assert result.spearman_rho == pytest.approx(reference.statistic, rel=1e-12)
+    assert result.pearson_r == pytest.approx(scipy_stats.pearsonr(x[used], y[used])[0], rel=1e-12)

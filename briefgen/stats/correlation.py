@@ -6,14 +6,14 @@ deviations from those medians (exact on data with a large offset) and, for
 Spearman's rho, from the mean average rank, as exact fixed-point integers
 (``briefgen.stats.core.exact``), so the engine's thread order cannot change a
 digit; Python centres them exactly. Pass 2 is one query per predictor because
-each needs two ordered windows, and DuckDB evaluates several differently ordered
-windows in one query far more slowly than apart (10M rows, 1 GB limit: four
-windows in one query 9.9 s, one window alone 0.85 s).
+each may need two ordered windows, and DuckDB evaluates several differently
+ordered windows in one query far more slowly than apart (10M rows, 1 GB limit:
+four windows in one query 9.9 s, one window alone 0.85 s).
 
-Spearman's rho is Pearson's r on average ranks. The engine ranks the rows with
-window functions, one window per variable, partitioned by "both values present"
-so each predictor is ranked over exactly the rows it is correlated on. The mean
-of average ranks over n rows is exactly (n + 1)/2 whatever the ties.
+Spearman's rho is Pearson's r on average ranks. Each predictor's query ranks x and
+y over exactly the rows with both values: by an ordered window, or, when values
+repeat, from counts of each distinct value (``stats.core.ranking``). The mean of
+average ranks over n rows is exactly (n + 1)/2 whatever the ties.
 """
 
 from __future__ import annotations
@@ -26,7 +26,11 @@ import ibis.expr.types as ir
 from scipy import stats as scipy_stats
 
 from briefgen.stats.core.exact import FixedPoint, exact_sum, value_of
-from briefgen.stats.core.ranking import doubled_average_rank
+from briefgen.stats.core.ranking import (
+    counting_pays,
+    doubled_average_rank,
+    doubled_ranks_of_values,
+)
 from briefgen.stats.core.references import median_references
 
 
@@ -120,9 +124,25 @@ def correlation_p_value(r: float | None, n: int) -> float | None:
     return float(2.0 * scipy_stats.t.sf(abs(t), dof))
 
 
-def _average_rank(column: ir.NumericColumn, both: ir.BooleanColumn, n: int) -> ir.NumericColumn:
-    """Average rank (1-based, ties share the mean of their ranks) among the n rows where ``both``."""
-    return doubled_average_rank(column, n, group_by=both) / 2
+def _ranked_rows(rows: ir.Table, n: int, distinct: dict[str, float | None]) -> tuple:
+    """``rows`` (columns x and y) with each one's average rank as an expression.
+
+    A column whose values repeat enough (``counting_pays``) is ranked from counts of its
+    distinct values, joined back by value; any other by one ordered window over the rows.
+    The ranks are the same integers either way; only the cost differs.
+    """
+    counted = [axis for axis in ("x", "y") if counting_pays(distinct[axis], n)]
+    for axis in counted:
+        ranks = doubled_ranks_of_values(rows, axis).select(
+            **{f"{axis}_value": "value", f"{axis}_doubled": "doubled"}
+        )
+        rows = rows.inner_join(ranks, rows[axis] == ranks[f"{axis}_value"])
+    ranks = {
+        axis: (rows[f"{axis}_doubled"] if axis in counted else doubled_average_rank(rows[axis], n))
+        / 2
+        for axis in ("x", "y")
+    }
+    return rows, ranks
 
 
 def _centred_sums(
@@ -137,18 +157,21 @@ def _centred_sums(
     The sums are exact (fixed point); deviations of average ranks are multiples of
     1/2, which the scale keeps exactly.
     """
-    y = frame.y
-    columns, scales = {}, {}  # per predictor index
+    exact = {}
     for i, column in enumerate(predictors):
         if not references[f"n{i}"]:
             continue
         n = int(references[f"n{i}"])
-        x = frame[column]
-        both = x.notnull() & y.notnull()
+        both = frame.filter(frame[column].notnull() & frame.y.notnull())
+        rows, ranks = _ranked_rows(
+            both.select(x=both[column], y=both.y),
+            n,
+            {"x": references[f"approx_distinct{i}"], "y": references.get(f"y_distinct{i}")},
+        )
         # Mean of average ranks over the n used rows is exactly (n + 1)/2.
         rank_centre = (n + 1) / 2
         rank_scale = FixedPoint.fit(n / 2, n)  # |average rank − (n + 1)/2| ≤ (n − 1)/2
-        scales[i] = {
+        scales = {
             "value": tuple(
                 FixedPoint.around(
                     references[f"{axis}_ref{i}"],
@@ -160,37 +183,31 @@ def _centred_sums(
             ),
             "rank": (rank_scale, rank_scale),
         }
-        (value_x, value_y), (rank_x, rank_y) = scales[i]["value"], scales[i]["rank"]
-        columns[i] = {
-            f"value_x{i}": value_x.quantise(x - references[f"x_ref{i}"], both),
-            f"value_y{i}": value_y.quantise(y - references[f"y_ref{i}"], both),
-            f"rank_x{i}": rank_x.quantise(_average_rank(x, both, n) - rank_centre, both),
-            f"rank_y{i}": rank_y.quantise(_average_rank(y, both, n) - rank_centre, both),
-        }
-    totals = {}
-    for i in scales:
-        shifted = frame.select(**columns[i])
+        (value_x, value_y), (rank_x, rank_y) = scales["value"], scales["rank"]
+        shifted = rows.select(
+            value_x=value_x.quantise(rows.x - references[f"x_ref{i}"]),
+            value_y=value_y.quantise(rows.y - references[f"y_ref{i}"]),
+            rank_x=rank_x.quantise(ranks["x"] - rank_centre),
+            rank_y=rank_y.quantise(ranks["y"] - rank_centre),
+        )
         sums = {}
         for kind in ("value", "rank"):
-            # Null outside the rows with both values, so the sums need no mask.
-            dx, dy = shifted[f"{kind}_x{i}"], shifted[f"{kind}_y{i}"]
+            dx, dy = shifted[f"{kind}_x"], shifted[f"{kind}_y"]
             sums |= {
-                f"{kind}_sx{i}": exact_sum(dx),
-                f"{kind}_sy{i}": exact_sum(dy),
-                f"{kind}_sxx{i}": exact_sum(dx * dx),
-                f"{kind}_sxy{i}": exact_sum(dx * dy),
-                f"{kind}_syy{i}": exact_sum(dy * dy),
+                f"{kind}_sx": exact_sum(dx),
+                f"{kind}_sy": exact_sum(dy),
+                f"{kind}_sxx": exact_sum(dx * dx),
+                f"{kind}_sxy": exact_sum(dx * dy),
+                f"{kind}_syy": exact_sum(dy * dy),
             }
-        totals |= shifted.aggregate(**sums).to_pyarrow().to_pylist()[0]
-    exact = {}
-    for i, kinds in scales.items():
-        for kind, (scale_x, scale_y) in kinds.items():
+        totals = shifted.aggregate(**sums).to_pyarrow().to_pylist()[0]
+        for kind, (scale_x, scale_y) in scales.items():
             exact |= {
-                f"{kind}_sx{i}": value_of(totals[f"{kind}_sx{i}"], scale_x),
-                f"{kind}_sy{i}": value_of(totals[f"{kind}_sy{i}"], scale_y),
-                f"{kind}_sxx{i}": value_of(totals[f"{kind}_sxx{i}"], scale_x, scale_x),
-                f"{kind}_sxy{i}": value_of(totals[f"{kind}_sxy{i}"], scale_x, scale_y),
-                f"{kind}_syy{i}": value_of(totals[f"{kind}_syy{i}"], scale_y, scale_y),
+                f"{kind}_sx{i}": value_of(totals[f"{kind}_sx"], scale_x),
+                f"{kind}_sy{i}": value_of(totals[f"{kind}_sy"], scale_y),
+                f"{kind}_sxx{i}": value_of(totals[f"{kind}_sxx"], scale_x, scale_x),
+                f"{kind}_sxy{i}": value_of(totals[f"{kind}_sxy"], scale_x, scale_y),
+                f"{kind}_syy{i}": value_of(totals[f"{kind}_syy"], scale_y, scale_y),
             }
     return exact
 

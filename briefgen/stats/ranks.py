@@ -26,7 +26,11 @@ import ibis.expr.types as ir
 from scipy import stats as scipy_stats
 
 from briefgen.stats.core.exact import DECIMAL, FixedPoint, as_integer, exact_sum, value_of
-from briefgen.stats.core.ranking import doubled_average_rank
+from briefgen.stats.core.ranking import (
+    counting_pays,
+    doubled_average_rank,
+    doubled_ranks_of_values,
+)
 from briefgen.stats.welch import holm
 
 logger = logging.getLogger(__name__)
@@ -101,6 +105,16 @@ def usable_rows(levels_table: ir.Table, levels: Sequence[str]) -> ir.Table:
     return table.filter(table.y.notnull() & table.level.isin(list(levels))).select("level", "y")
 
 
+# Below this many rows the one sort is quick and an estimate of the distinct values
+# would only add a query (each costs Spark a job).
+COUNT_FROM = 100_000
+
+
+def _distinct(rows: ir.Table) -> int | None:
+    """An estimate (HyperLogLog) of the distinct target values among ``rows``: one cheap scan."""
+    return rows.y.approx_nunique().to_pyarrow().as_py()
+
+
 def rank_sums(
     levels_table: ir.Table, levels: Sequence[str], values: int | None = None
 ) -> RankSums | None:
@@ -110,11 +124,23 @@ def rank_sums(
     ``levels``); it spares the engine a second window that counts them.
     """
     rows = usable_rows(levels_table, levels)
-    counted = rows.count().over() if values is None else values
-    # Twice the average rank is an integer (see stats.core.ranking).
-    ranked = rows.mutate(doubled=doubled_average_rank(rows.y, counted))
-    per_level = ranked.group_by("level").aggregate(n=ranked.count(), doubled=ranked.doubled.sum())
-    tie_groups = rows.group_by("y").aggregate(size=rows.count().cast(DECIMAL))
+    if values is not None and values >= COUNT_FROM and counting_pays(_distinct(rows), values):
+        # Values repeat: rank the distinct values from their counts, then weight by level.
+        cells = rows.group_by(["level", "y"]).aggregate(cell=rows.count())
+        ranked = doubled_ranks_of_values(cells, "y", weight="cell")
+        joined = cells.inner_join(ranked, cells.y == ranked.value)
+        per_level = joined.group_by("level").aggregate(
+            n=joined.cell.sum(), doubled=(joined.cell * joined.doubled).sum()
+        )
+        tie_groups = ranked.select(size=ranked.ties.cast(DECIMAL))
+    else:
+        counted = rows.count().over() if values is None else values
+        # Twice the average rank is an integer (see stats.core.ranking).
+        ranked = rows.mutate(doubled=doubled_average_rank(rows.y, counted))
+        per_level = ranked.group_by("level").aggregate(
+            n=ranked.count(), doubled=ranked.doubled.sum()
+        )
+        tie_groups = rows.group_by("y").aggregate(size=rows.count().cast(DECIMAL))
     # 38-digit integers: t³ overflows int64 once a tie group exceeds ~2 million rows, and a
     # float sum of such terms would depend on the engine's thread order.
     tie_term = exact_sum(tie_groups.size * tie_groups.size * tie_groups.size - tie_groups.size)

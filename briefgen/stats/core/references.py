@@ -14,8 +14,9 @@ from briefgen.stats.core.analysis import one_row
 def median_references(table: ir.Table, predictors: list[str]) -> dict:
     """Per predictor i: rows with both values ``n{i}``, medians ``x_ref{i}``/``y_ref{i}``
     over them, the ranges ``x_min{i}``/``x_max{i}`` and ``y_min{i}``/``y_max{i}`` (they
-    bound the deviations that the exact sums scale), ``approx_distinct{i}``, an estimate
-    (HyperLogLog) of how many distinct predictor values those rows take, and
+    bound the deviations that the exact sums scale), ``approx_distinct{i}`` and
+    ``y_distinct{i}``, estimates (HyperLogLog) of how many distinct predictor and target
+    values those rows take (the second decides how the correlation ranks), and
     ``lacking{i}``, rows with a target value but no predictor value.
 
     The estimate costs nothing beside the medians, where an exact count of distinct
@@ -35,6 +36,7 @@ def median_references(table: ir.Table, predictors: list[str]) -> dict:
             f"y_min{i}": y.min(where=both),
             f"y_max{i}": y.max(where=both),
             f"approx_distinct{i}": x.approx_nunique(where=both),
+            f"y_distinct{i}": y.approx_nunique(where=both),
             f"lacking{i}": (y.notnull() & x.isnull()).sum(),
         }
     return one_row(table, expressions)
