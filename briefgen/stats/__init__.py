@@ -17,6 +17,7 @@ from briefgen.source import Source
 from briefgen.stats.accounting import Accounting, count_rows
 from briefgen.stats.compare import GroupComparison
 from briefgen.stats.core.frame import AnalysisFrame, build_frame
+from briefgen.stats.core.quantiles import quantiles_for
 from briefgen.stats.core.summary import BoxStats, Summary
 from briefgen.stats.correlation import Correlation
 from briefgen.stats.density import DensityAnalysis, DensityBins
@@ -143,6 +144,12 @@ def compute(source: Source, spec: BriefSpec) -> BriefStats:
     stage.info("statistics: typing the columns")
     frame = build_frame(source.table, spec, label=source.label)
     frame = replace(frame, kind=target_kind(frame, spec.target_kind, spec.scale))
+    with quantiles_for(frame.kind.n):
+        return _analyse(source, spec, frame)
+
+
+def _analyse(source: Source, spec: BriefSpec, frame: AnalysisFrame) -> BriefStats:
+    """The analyses on the typed frame, in the order the brief reads them."""
     (overall,) = _run(Overall, spec, frame)
     histogram = next(iter(_run(Histogram, spec, frame)), None)
     groups = _run(GroupAnalysis, spec, frame)

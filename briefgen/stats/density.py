@@ -22,6 +22,7 @@ from briefgen.config import BriefSpec
 from briefgen.figures.rules import CLIP_QUANTILE, DENSITY_ROWS, value_axis
 from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.frame import AnalysisFrame
+from briefgen.stats.core.quantiles import narrowed_quantiles, narrowing
 from briefgen.stats.core.usage import RowUsage
 
 # Common practice, no published source: bins about 4 mm wide across a 6.7 in plot and
@@ -142,8 +143,14 @@ def density_bins(
             "x_high": both[x].max(),
             "y_low": both.y.min(),
             "y_high": both.y.max(),
-            "y_bulk": both.y.quantile(1 - CLIP_QUANTILE),
-            "y_clip": both.y.quantile(CLIP_QUANTILE),
+            **(
+                {}
+                if narrowing()
+                else {
+                    "y_bulk": both.y.quantile(1 - CLIP_QUANTILE),
+                    "y_clip": both.y.quantile(CLIP_QUANTILE),
+                }
+            ),
             "x_fractions": (both[x] != both[x].floor()).sum(),
             "x_distinct": both[x].nunique(),
         },
@@ -151,6 +158,9 @@ def density_bins(
     n = int(first["n"] or 0)
     if n == 0 or n <= more_than:
         return None
+    if narrowing():
+        bulk_clip = narrowed_quantiles(both, "y", (1 - CLIP_QUANTILE, CLIP_QUANTILE))[()]
+        first["y_bulk"], first["y_clip"] = bulk_clip
     axis = value_axis(first["y_low"], first["y_high"], first["y_clip"], first["y_bulk"])
     top = axis.top if axis.kind == "clipped" else first["y_high"]
     whole = not first["x_fractions"] and first["x_high"] - first["x_low"] + 1 <= x_bins

@@ -21,6 +21,7 @@ import numpy as np
 from briefgen.config import BriefSpec
 from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.frame import AnalysisFrame
+from briefgen.stats.core.quantiles import narrowed_quantiles, narrowing
 from briefgen.stats.core.usage import RowUsage
 
 # Common practice (no published source): about 60 bars still read as bars across a
@@ -71,19 +72,16 @@ def histogram_bins(
     mostly zero has IQR 0, where the Freedman–Diaconis rule collapses to one bin.
     """
     values = table[column]
-    first = one_row(
-        table,
-        {
-            "n": values.count(),
-            "low": values.min(),
-            "high": values.max(),
-            # One call for both quartiles: the engine holds the values once.
-            "quartiles": values.quantile([0.25, 0.75]),
-        },
-    )
+    asked = {"n": values.count(), "low": values.min(), "high": values.max()}
+    if not narrowing():
+        # One call for both quartiles: the engine holds the values once.
+        asked["quartiles"] = values.quantile([0.25, 0.75])
+    first = one_row(table, asked)
     n = int(first["n"] or 0)
     if n == 0:
         return None
+    if narrowing():
+        first["quartiles"] = narrowed_quantiles(table, column, (0.25, 0.75))[()]
     first["q1"], first["q3"] = first["quartiles"]
     if whole_numbers and first["high"] - first["low"] + 1 <= max_bins:
         edges = np.arange(first["low"] - 0.5, first["high"] + 1.0, 1.0)

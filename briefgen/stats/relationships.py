@@ -27,6 +27,7 @@ import pyarrow as pa
 from scipy import stats as scipy_stats
 
 from briefgen.stats.core.exact import FixedPoint, exact_sum, quantise, value_of
+from briefgen.stats.core.quantiles import narrowed_quantiles, narrowing
 from briefgen.stats.core.references import median_references
 from briefgen.stats.correlation import Correlation, correlate
 from briefgen.stats.regression import RegressionFit, fit_from_sums, fit_lines
@@ -170,18 +171,29 @@ def _level_sums(frame: ir.Table, group_column: str, predictor_column: str) -> li
     """Per level: n, means, range and centred sums Sxx, Sxy, Syy, sorted by level."""
     x, y, group = frame[predictor_column], frame.y, frame[group_column]
     rows = frame.filter(group.notnull() & x.notnull() & y.notnull()).select(level=group, x=x, y=y)
-    reference = rows.group_by("level").aggregate(
-        n=rows.count(),
-        x_ref=rows.x.quantile(0.5),
-        y_ref=rows.y.quantile(0.5),
-        x_min=rows.x.min(),
-        x_max=rows.x.max(),
-        y_min=rows.y.min(),
-        y_max=rows.y.max(),
-    )
-    # The medians and ranges come back first: they fix each level's fixed-point scales,
-    # and join back as a small literal table (no second sort per level).
-    references = reference.to_pyarrow()
+    ranges = {
+        "n": rows.count(),
+        "x_min": rows.x.min(),
+        "x_max": rows.x.max(),
+        "y_min": rows.y.min(),
+        "y_max": rows.y.max(),
+    }
+    if narrowing():
+        # Too many values for the engine's quantile state: narrow in bounded memory.
+        references = rows.group_by("level").aggregate(**ranges).to_pyarrow()
+        at = [(level,) for level in references["level"].to_pylist()]
+        for axis in ("x", "y"):
+            medians = narrowed_quantiles(rows, axis, (0.5,), ["level"])
+            references = references.append_column(
+                f"{axis}_ref", pa.array([medians[key][0] for key in at], pa.float64())
+            )
+    else:
+        reference = rows.group_by("level").aggregate(
+            **ranges, x_ref=rows.x.quantile(0.5), y_ref=rows.y.quantile(0.5)
+        )
+        # The medians and ranges come back first: they fix each level's fixed-point scales,
+        # and join back as a small literal table (no second sort per level).
+        references = reference.to_pyarrow()
     scales = {
         str(row["level"]): tuple(
             FixedPoint.around(row[f"{v}_ref"], row[f"{v}_min"], row[f"{v}_max"], int(row["n"]))

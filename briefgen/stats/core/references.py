@@ -9,6 +9,7 @@ from __future__ import annotations
 import ibis.expr.types as ir
 
 from briefgen.stats.core.analysis import one_row
+from briefgen.stats.core.quantiles import narrowed_quantiles, narrowing
 
 
 def median_references(table: ir.Table, predictors: list[str]) -> dict:
@@ -29,8 +30,14 @@ def median_references(table: ir.Table, predictors: list[str]) -> dict:
         both = x.notnull() & y.notnull()
         expressions |= {
             f"n{i}": both.sum(),
-            f"x_ref{i}": x.quantile(0.5, where=both),
-            f"y_ref{i}": y.quantile(0.5, where=both),
+            **(
+                {}
+                if narrowing()
+                else {
+                    f"x_ref{i}": x.quantile(0.5, where=both),
+                    f"y_ref{i}": y.quantile(0.5, where=both),
+                }
+            ),
             f"x_min{i}": x.min(where=both),
             f"x_max{i}": x.max(where=both),
             f"y_min{i}": y.min(where=both),
@@ -39,4 +46,12 @@ def median_references(table: ir.Table, predictors: list[str]) -> dict:
             f"y_distinct{i}": y.approx_nunique(where=both),
             f"lacking{i}": (y.notnull() & x.isnull()).sum(),
         }
-    return one_row(table, expressions)
+    found = one_row(table, expressions)
+    if narrowing():
+        # Too many values for the engine's quantile state: narrow in bounded memory.
+        for i, column in enumerate(predictors):
+            rows = table.filter(table[column].notnull() & y.notnull())
+            for axis, name in (("x", column), ("y", "y")):
+                medians = narrowed_quantiles(rows, name, (0.5,))
+                found[f"{axis}_ref{i}"] = medians[()][0] if () in medians else None
+    return found

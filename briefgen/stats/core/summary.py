@@ -25,6 +25,7 @@ import pyarrow as pa
 import pyarrow.compute as pc
 
 from briefgen.stats.core.exact import FixedPoint, exact_sum, quantise, value_of
+from briefgen.stats.core.quantiles import narrowed_quantiles, narrowing
 from briefgen.stats.core.shifted import moments_from_shifted, t_interval
 
 WHISKER_REACH = 1.5  # Tukey (1977): whiskers reach 1.5 IQR beyond the box.
@@ -116,15 +117,19 @@ def order_statistics(table: ir.Table, keys: Sequence[str]) -> pa.Table:
     values once, not once per quartile (a third of the memory, and one selection pass).
     """
     y = table.y
+    counts = {"rows": table.count(), "n": y.count(), "min": y.min(), "max": y.max()}
+    if narrowing():
+        # Too many values for the engine's quantile state: narrow in bounded memory.
+        found = table.group_by(list(keys)).aggregate(**counts).to_pyarrow()
+        quartiles = narrowed_quantiles(table, "y", (0.25, 0.5, 0.75), keys)
+        at = [tuple(row[k] for k in keys) for row in found.select(list(keys)).to_pylist()]
+        for i, name in enumerate(QUARTILES):
+            column = [quartiles[key][i] if key in quartiles else None for key in at]
+            found = found.append_column(name, pa.array(column, pa.float64()))
+        return found
     found = (
         table.group_by(list(keys))
-        .aggregate(
-            rows=table.count(),
-            n=y.count(),
-            min=y.min(),
-            quartiles=y.quantile([0.25, 0.5, 0.75]),
-            max=y.max(),
-        )
+        .aggregate(**counts, quartiles=y.quantile([0.25, 0.5, 0.75]))
         .to_pyarrow()
     )
     quartiles = found.column("quartiles")

@@ -1,0 +1,134 @@
+"""Quantiles by narrowing: the engine's own exact type 7 quantiles in bounded memory.
+
+Above ``NARROW_FROM`` target values the analyses count values in buckets instead of
+handing the engine every value. These checks force narrowing on small data and require
+the same numbers as the engine's quantile (DuckDB ``quantile_cont``, bit for bit) and
+numpy's type 7 (``method="linear"``, Hyndman and Fan 1996 definition 7, to rounding),
+and whole briefs byte-identical with and without it.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from palmerpenguins import load_penguins
+
+from briefgen.config import load_spec
+from briefgen.pipeline import build_brief
+from briefgen.stats.core import quantiles
+from briefgen.stats.core.quantiles import narrowed_quantiles, narrowing, quantiles_for
+
+PROBABILITIES = (0.01, 0.25, 0.5, 0.75, 0.99, 0.0, 1.0)
+
+
+def _skewed(rows: int = 60_000) -> pd.DataFrame:
+    """Constructed: lognormal values with a block of ties at 0, missing cells, a null key."""
+    rng = np.random.default_rng(31)
+    frame = pd.DataFrame(
+        {
+            "y": np.exp(rng.normal(0.0, 2.5, rows)),
+            "g": rng.choice(["north", "south", "east", None], rows),
+            "h": rng.choice(["day", "night"], rows),
+        }
+    )
+    frame.loc[::9, "y"] = 0.0
+    frame.loc[::13, "y"] = np.nan
+    return frame
+
+
+@pytest.mark.parametrize("fetch_up_to", [50_000, 40])  # 40: forces two or more narrowings
+def test_narrowed_quantiles_equal_numpy_type_7(engine_table, monkeypatch, fetch_up_to):
+    monkeypatch.setattr(quantiles, "FETCH_UP_TO", fetch_up_to)
+    frame = _skewed()
+    table = engine_table(frame)
+    found = narrowed_quantiles(table, "y", PROBABILITIES, ["g", "h"])
+    assert len(found) == 8
+    for (g, h), values in found.items():
+        level = frame[(frame.g.isna() if g is None else frame.g == g) & (frame.h == h)]
+        # reference: numpy.quantile(method="linear"), type 7 of Hyndman and Fan (1996)
+        expected = np.quantile(level.y.dropna(), PROBABILITIES, method="linear")
+        assert values == pytest.approx(expected, rel=1e-14, abs=0.0)
+    (overall,) = narrowed_quantiles(table, "y", (0.5,)).values()
+    assert overall[0] == np.median(frame.y.dropna())  # an odd or even count's middle
+
+
+def test_narrowed_quantiles_are_duckdbs_bit_for_bit(monkeypatch):
+    import ibis
+
+    monkeypatch.setattr(quantiles, "FETCH_UP_TO", 40)
+    frame = _skewed()
+    frame["y"] = frame.y + 1e9  # a large offset, where the interpolation's rounding shows
+    table = ibis.duckdb.connect().create_table("values", frame)
+    found = narrowed_quantiles(table, "y", PROBABILITIES, ["g"])
+    present = table.filter(table.y.notnull())
+    # reference: DuckDB quantile_cont, the quantile the analyses use below the threshold
+    engine = present.group_by("g").aggregate(q=present.y.quantile(list(PROBABILITIES)))
+    for row in engine.to_pyarrow().to_pylist():
+        assert found[(row["g"],)] == tuple(row["q"])
+
+
+def test_ties_and_a_single_value_need_no_fetch(engine_table):
+    values = [2.0] * 1000 + [5.0] * 3
+    table = engine_table(pd.DataFrame({"y": values, "g": ["a"] * 1003}))
+    # 0.9975: h = 999.495 lies between the last 2.0 and the first 5.0
+    found = narrowed_quantiles(table, "y", (0.5, 0.9975, 1.0), ["g"])
+    # reference: numpy.quantile(method="linear")
+    expected = np.quantile(values, (0.5, 0.9975, 1.0), method="linear")
+    assert found[("a",)] == pytest.approx(expected, rel=1e-15)
+    assert 2.0 < found[("a",)][1] < 5.0
+    one = engine_table(pd.DataFrame({"y": [7.5], "g": ["b"]}))
+    assert narrowed_quantiles(one, "y", PROBABILITIES, ["g"]) == {("b",): (7.5,) * 7}
+
+
+def test_the_threshold_decides_within_the_block(monkeypatch):
+    monkeypatch.setattr(quantiles, "NARROW_FROM", 100)
+    assert not narrowing()
+    with quantiles_for(99):
+        assert not narrowing()
+    with quantiles_for(100):
+        assert narrowing()
+    assert not narrowing()
+
+
+def _penguins_config(folder: Path) -> Path:
+    load_penguins().to_csv(folder / "penguins.csv", index=False)
+    path = folder / "brief.yaml"
+    path.write_text(
+        "title: Penguins\ndata:\n  path: penguins.csv\n"
+        "target: body_mass_g\ngroups: [species, island, sex]\n"
+        "predictors: [flipper_length_mm, bill_depth_mm]\nlog_target: true\n",
+        encoding="utf-8",
+    )
+    return path
+
+
+def test_a_brief_is_byte_identical_with_narrowed_quantiles(tmp_path, monkeypatch):
+    # Palmer penguins (open dataset, palmerpenguins package): missing cells in the target,
+    # the predictors and a group; every quantile the brief takes goes through narrowing.
+    spec = load_spec(_penguins_config(tmp_path))
+    build_brief(spec, tmp_path / "engine", built_on="2026-12-02")
+    monkeypatch.setattr(quantiles, "NARROW_FROM", 0)
+    monkeypatch.setattr(quantiles, "FETCH_UP_TO", 5)
+    calls = []
+    original = quantiles.narrowed_quantiles
+
+    def counted(*args, **kwargs):
+        calls.append(args[1])
+        return original(*args, **kwargs)
+
+    for module in ("summary", "references", "quantiles"):
+        target = __import__(f"briefgen.stats.core.{module}", fromlist=["x"])
+        if hasattr(target, "narrowed_quantiles"):
+            monkeypatch.setattr(target, "narrowed_quantiles", counted)
+    for module in ("histogram", "density", "relationships"):
+        target = __import__(f"briefgen.stats.{module}", fromlist=["x"])
+        monkeypatch.setattr(target, "narrowed_quantiles", counted)
+    build_brief(spec, tmp_path / "narrowed", built_on="2026-12-02")
+    assert {"y", "x0", "x"} <= set(calls)  # level quartiles, medians, slopes by group
+    for name in ("stats.json", "brief.html"):
+        assert (tmp_path / "narrowed" / name).read_bytes() == (
+            tmp_path / "engine" / name
+        ).read_bytes(), name
