@@ -68,8 +68,8 @@ class EngineSpec(_Strict):
 
     ``threads``: engine threads; None (default) uses every core. The statistics give the
     same bytes on any number (exact sums, ``briefgen.stats.core.exact``).
-    ``memory_limit`` caps what DuckDB holds in memory (its own size syntax, ``1GB``,
-    ``512MB``); beyond it, tables, sorts and joins spill to ``temp_dir`` (default: the
+    ``memory_limit`` caps what DuckDB holds in memory (its own size syntax, ``512MB``
+    (default), ``1GB``); beyond it, tables, sorts and joins spill to ``temp_dir`` (default: the
     system's temporary folder), so data larger than memory still complete.
     ``pyspark`` starts a local Spark session, or with ``connect`` reaches a Spark
     Connect server (``sc://host:15002``), which runs the queries on its cluster.
@@ -77,7 +77,7 @@ class EngineSpec(_Strict):
 
     backend: Literal["duckdb", "pyspark"] = "duckdb"
     threads: int | None = Field(default=None, ge=1)
-    memory_limit: str = Field(default="1GB", pattern=r"(?i)^\s*\d+(\.\d+)?\s*(k|m|g|t)i?b\s*$")
+    memory_limit: str = Field(default="512MB", pattern=r"(?i)^\s*\d+(\.\d+)?\s*(k|m|g|t)i?b\s*$")
     temp_dir: str | None = None
     connect: str | None = None
 

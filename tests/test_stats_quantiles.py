@@ -1,6 +1,6 @@
 """Quantiles by narrowing: the engine's own exact type 7 quantiles in bounded memory.
 
-Above ``NARROW_FROM`` target values the analyses count values in buckets instead of
+Above a threshold set by the engine's memory limit the analyses count values in buckets instead of
 handing the engine every value. These checks force narrowing on small data and require
 the same numbers as the engine's quantile (DuckDB ``quantile_cont``, bit for bit) and
 numpy's type 7 (``method="linear"``, Hyndman and Fan 1996 definition 7, to rounding),
@@ -83,6 +83,14 @@ def test_ties_and_a_single_value_need_no_fetch(engine_table):
     assert narrowed_quantiles(one, "y", PROBABILITIES, ["g"]) == {("b",): (7.5,) * 7}
 
 
+def test_the_threshold_follows_the_memory_limit_and_the_predictors():
+    # 100 bytes a target value with two predictors (four medians in one query), more with more
+    assert quantiles.narrow_from("512MB") == 5_120_000
+    assert quantiles.narrow_from("1GB") == 10_000_000
+    assert quantiles.narrow_from("1GiB", predictors=5) == 2**30 // (16 * 10 + 36)
+    assert quantiles.narrow_from(None) == quantiles.NARROW_FROM  # Spark: no limit to go by
+
+
 def test_the_threshold_decides_within_the_block(monkeypatch):
     monkeypatch.setattr(quantiles, "NARROW_FROM", 100)
     assert not narrowing()
@@ -110,7 +118,7 @@ def test_a_brief_is_byte_identical_with_narrowed_quantiles(tmp_path, monkeypatch
     # the predictors and a group; every quantile the brief takes goes through narrowing.
     spec = load_spec(_penguins_config(tmp_path))
     build_brief(spec, tmp_path / "engine", built_on="2026-12-02")
-    monkeypatch.setattr(quantiles, "NARROW_FROM", 0)
+    monkeypatch.setattr(quantiles, "narrow_from", lambda *limit: 0)
     monkeypatch.setattr(quantiles, "FETCH_UP_TO", 5)
     calls = []
     original = quantiles.narrowed_quantiles

@@ -144,7 +144,8 @@ def compute(source: Source, spec: BriefSpec) -> BriefStats:
     stage.info("statistics: typing the columns")
     frame = build_frame(source.table, spec, label=source.label)
     frame = replace(frame, kind=target_kind(frame, spec.target_kind, spec.scale))
-    with quantiles_for(frame.kind.n):
+    limit = spec.engine.memory_limit if spec.engine.backend == "duckdb" else None
+    with quantiles_for(frame.kind.n, limit, len(frame.predictors)):
         return _analyse(source, spec, frame)
 
 

@@ -3,7 +3,7 @@
 An engine's exact quantile holds every value of its column in memory: DuckDB keeps 8
 bytes a row in a state it cannot spill, so at 100M rows one column needs 800 MB per
 quantile call and a brief's medians of the target and two predictors did not fit in
-its 1 GB limit. Above ``NARROW_FROM`` rows the analyses ask this module instead.
+a 1 GB limit. Above a threshold (``narrow_from``) the analyses ask this module instead.
 
 Narrowing: the values of each key are counted in 4,096 equal buckets between their
 smallest and largest value. Cumulative counts tell which bucket holds the k-th value.
@@ -13,7 +13,8 @@ sorted; a large one is cut into 4,096 buckets again. The bucket of a value is
 exactly those between its smallest and largest value, and each round needs only the
 counts, the smallest and the largest value of each bucket: memory is a few thousand
 rows per key, whatever the table's size. Each round is one engine query for every key
-and every quantile at once.
+and every quantile at once. ``narrow_from`` sets the threshold from DuckDB's memory
+limit (512 MB by default: from 5.1M target values with two predictors).
 
 The quantile is DuckDB's type 7 (Hyndman and Fan 1996, definition 7): with h = (n−1)p,
 k = ⌊h⌋ and d = h − k, x₍ₖ₎·(1 − d) + x₍ₖ₊₁₎·d in DuckDB's own arithmetic, so a brief
@@ -24,6 +25,7 @@ gives the same digits on either side of the threshold (tested against DuckDB's
 from __future__ import annotations
 
 import math
+import re
 from collections import defaultdict
 from collections.abc import Iterator, Sequence
 from contextlib import contextmanager
@@ -34,12 +36,19 @@ import ibis.expr.types as ir
 import numpy as np
 import pyarrow as pa
 
-# Above this many target values the analyses narrow: 20M values are 160 MB per column
-# in an engine's quantile state, well inside the 1 GB default limit with several at once.
+# Without a memory limit to go by (Spark), the analyses narrow above this many values.
 NARROW_FROM = 20_000_000
+# With DuckDB's limit: the engine's own quantiles run while each value fits the limit
+# at this many bytes per quantile state held at once (8 bytes a value in a vector that
+# may double), plus the rest of the query beside them. The widest query holds the
+# medians of the target and of each predictor: two states per predictor. Measured at
+# 10M rows and two predictors (100 bytes a value): a 512 MB limit ran out, 1 GB did not.
+BYTES_PER_STATE = 16
+BYTES_BESIDE = 36
 BUCKETS = 4096
 # A bucket with at most this many values is fetched and sorted in Python (0.4 MB each).
 FETCH_UP_TO = 50_000
+
 
 _narrowing: ContextVar[bool] = ContextVar("briefgen_narrowing", default=False)
 
@@ -49,10 +58,25 @@ def narrowing() -> bool:
     return _narrowing.get()
 
 
+def narrow_from(memory_limit: str | None, predictors: int = 2) -> int:
+    """Target values from which to narrow, for an engine memory limit in DuckDB's syntax."""
+    if memory_limit is None:
+        return NARROW_FROM
+    found = re.fullmatch(r"\s*(\d+(?:\.\d+)?)\s*([kmgt])(i?)b\s*", memory_limit.lower())
+    if found is None:
+        return NARROW_FROM
+    number, unit, binary = found.groups()
+    size = float(number) * (1024 if binary else 1000) ** ("kmgt".index(unit) + 1)
+    states = max(3, 2 * predictors)  # three quartiles of the target, or the medians
+    return int(size // (BYTES_PER_STATE * states + BYTES_BESIDE))
+
+
 @contextmanager
-def quantiles_for(values: int) -> Iterator[None]:
+def quantiles_for(
+    values: int, memory_limit: str | None = None, predictors: int = 2
+) -> Iterator[None]:
     """Within this block, analyses of a frame with ``values`` target values narrow when large."""
-    token = _narrowing.set(values >= NARROW_FROM)
+    token = _narrowing.set(values >= narrow_from(memory_limit, predictors))
     try:
         yield
     finally:
