@@ -166,7 +166,7 @@ def _centred_sums(
         rows, ranks = _ranked_rows(
             both.select(x=both[column], y=both.y),
             n,
-            {"x": references[f"approx_distinct{i}"], "y": references.get(f"y_distinct{i}")},
+            {"x": references[f"approx_distinct{i}"], "y": references[f"y_distinct{i}"]},
         )
         # Mean of average ranks over the n used rows is exactly (n + 1)/2.
         rank_centre = (n + 1) / 2

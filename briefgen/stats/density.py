@@ -135,26 +135,19 @@ def density_bins(
     None unless more than ``more_than`` rows have both values (the first query tells).
     """
     both = table.filter(table.y.notnull() & table[x].notnull())
-    first = one_row(
-        both,
-        {
-            "n": both.count(),
-            "x_low": both[x].min(),
-            "x_high": both[x].max(),
-            "y_low": both.y.min(),
-            "y_high": both.y.max(),
-            **(
-                {}
-                if narrowing()
-                else {
-                    "y_bulk": both.y.quantile(1 - CLIP_QUANTILE),
-                    "y_clip": both.y.quantile(CLIP_QUANTILE),
-                }
-            ),
-            "x_fractions": (both[x] != both[x].floor()).sum(),
-            "x_distinct": both[x].nunique(),
-        },
-    )
+    asked = {
+        "n": both.count(),
+        "x_low": both[x].min(),
+        "x_high": both[x].max(),
+        "y_low": both.y.min(),
+        "y_high": both.y.max(),
+        "x_fractions": (both[x] != both[x].floor()).sum(),
+        "x_distinct": both[x].nunique(),
+    }
+    if not narrowing():
+        asked["y_bulk"] = both.y.quantile(1 - CLIP_QUANTILE)
+        asked["y_clip"] = both.y.quantile(CLIP_QUANTILE)
+    first = one_row(both, asked)
     n = int(first["n"] or 0)
     if n == 0 or n <= more_than:
         return None

@@ -30,14 +30,6 @@ def median_references(table: ir.Table, predictors: list[str]) -> dict:
         both = x.notnull() & y.notnull()
         expressions |= {
             f"n{i}": both.sum(),
-            **(
-                {}
-                if narrowing()
-                else {
-                    f"x_ref{i}": x.quantile(0.5, where=both),
-                    f"y_ref{i}": y.quantile(0.5, where=both),
-                }
-            ),
             f"x_min{i}": x.min(where=both),
             f"x_max{i}": x.max(where=both),
             f"y_min{i}": y.min(where=both),
@@ -46,6 +38,11 @@ def median_references(table: ir.Table, predictors: list[str]) -> dict:
             f"y_distinct{i}": y.approx_nunique(where=both),
             f"lacking{i}": (y.notnull() & x.isnull()).sum(),
         }
+        if not narrowing():
+            expressions |= {
+                f"x_ref{i}": x.quantile(0.5, where=both),
+                f"y_ref{i}": y.quantile(0.5, where=both),
+            }
     found = one_row(table, expressions)
     if narrowing():
         # Too many values for the engine's quantile state: narrow in bounded memory.
