@@ -24,7 +24,7 @@ from briefgen.history.change import SinceLastTime, compare_runs
 from briefgen.history.previous import find_previous
 from briefgen.history.record import record_run
 from briefgen.render import render_html, render_json, render_pdf
-from briefgen.source import open_source, reading
+from briefgen.source import open_source, reading, release
 from briefgen.stats import BriefStats, compute
 
 log = logging.getLogger(__name__)
@@ -118,6 +118,7 @@ def build_brief(
     if "json" in formats or comparing:
         stage.info("hashing %s", spec.data.label)
         record = record_run(spec, source.table, stats.accounting.rows_read)
+    release(source.table)
     previous = find_previous(spec, folder, compare) if comparing or checks else None
     since = compare_runs(stats, record, previous) if comparing and record else None
     gate = run_checks(checks, stats, previous) if checks and previous else None

@@ -10,6 +10,7 @@ import gc
 import pytest
 from test_cli import _write_case
 
+from briefgen import pipeline
 from briefgen.cli import main
 
 
@@ -21,6 +22,24 @@ def test_working_folder_is_made_in_temp_dir_and_removed(tmp_path, capsys):
     gc.collect()
     # The private database file lived in work/briefgen-engine-*/ and went with the build.
     assert list(work.iterdir()) == []
+
+
+def test_engine_is_closed_before_the_document_is_drawn(tmp_path, monkeypatch):
+    # DuckDB keeps cached rows (up to engine.memory_limit) until closed: at 10M rows
+    # the figures and the PDF were drawn on top of them. The folder goes with the close.
+    work = tmp_path / "work"
+    work.mkdir()
+    config = _write_case(tmp_path, config_extra="engine: {backend: duckdb, temp_dir: work}\n")
+    seen = []
+    drawing = pipeline.build_document
+
+    def spy(*args, **kwargs):
+        seen.append(list(work.iterdir()))
+        return drawing(*args, **kwargs)
+
+    monkeypatch.setattr(pipeline, "build_document", spy)
+    assert main(["build", str(config)]) == 0
+    assert seen == [[]]
 
 
 @pytest.mark.parametrize(
