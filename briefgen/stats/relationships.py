@@ -27,7 +27,6 @@ import pyarrow as pa
 from scipy import stats as scipy_stats
 
 from briefgen.stats.core.exact import FixedPoint, exact_sum, quantise, value_of
-from briefgen.stats.core.quantiles import narrowed_quantiles, narrowing
 from briefgen.stats.core.references import median_references
 from briefgen.stats.correlation import Correlation, correlate
 from briefgen.stats.regression import RegressionFit, fit_from_sums, fit_lines
@@ -168,32 +167,32 @@ def slopes_by_group(
 
 
 def _level_sums(frame: ir.Table, group_column: str, predictor_column: str) -> list[dict]:
-    """Per level: n, means, range and centred sums Sxx, Sxy, Syy, sorted by level."""
+    """Per level: n, means, range and centred sums Sxx, Sxy, Syy, sorted by level.
+
+    Each level's deviations are taken from the middle of its range: the exact sums
+    then need the smallest fixed-point bound any reference gives (half the range), and
+    the reference costs one aggregate of counts and extremes. A median per level did
+    the same job for 5.8 s of a 10M-row build's 45 s.
+    """
     x, y, group = frame[predictor_column], frame.y, frame[group_column]
     rows = frame.filter(group.notnull() & x.notnull() & y.notnull()).select(level=group, x=x, y=y)
-    ranges = {
-        "n": rows.count(),
-        "x_min": rows.x.min(),
-        "x_max": rows.x.max(),
-        "y_min": rows.y.min(),
-        "y_max": rows.y.max(),
-    }
-    if narrowing():
-        # Too many values for the engine's quantile state: narrow in bounded memory.
-        references = rows.group_by("level").aggregate(**ranges).to_pyarrow()
-        at = [(level,) for level in references["level"].to_pylist()]
-        for axis in ("x", "y"):
-            medians = narrowed_quantiles(rows, axis, (0.5,), ["level"])
-            references = references.append_column(
-                f"{axis}_ref", pa.array([medians[key][0] for key in at], pa.float64())
-            )
-    else:
-        reference = rows.group_by("level").aggregate(
-            **ranges, x_ref=rows.x.quantile(0.5), y_ref=rows.y.quantile(0.5)
+    references = (
+        rows.group_by("level")
+        .aggregate(
+            n=rows.count(),
+            x_min=rows.x.min(),
+            x_max=rows.x.max(),
+            y_min=rows.y.min(),
+            y_max=rows.y.max(),
         )
-        # The medians and ranges come back first: they fix each level's fixed-point scales,
-        # and join back as a small literal table (no second sort per level).
-        references = reference.to_pyarrow()
+        .to_pyarrow()
+    )
+    for axis in ("x", "y"):
+        lows = references[f"{axis}_min"].to_pylist()
+        highs = references[f"{axis}_max"].to_pylist()
+        # Halved before adding: the sum of two large values could overflow.
+        middles = [low / 2 + high / 2 for low, high in zip(lows, highs, strict=True)]
+        references = references.append_column(f"{axis}_ref", pa.array(middles, pa.float64()))
     scales = {
         str(row["level"]): tuple(
             FixedPoint.around(row[f"{v}_ref"], row[f"{v}_min"], row[f"{v}_max"], int(row["n"]))
