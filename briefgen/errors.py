@@ -48,6 +48,16 @@ class FigureReviewError(RenderError):
     exit_code = 8
 
 
+class EngineError(BriefError):
+    """The engine stopped during the work: its disk filled, or its server went away.
+
+    Not the config's fault and not a bug: a scheduler may retry once the engine's
+    machine is fixed. Nothing is published and the previous brief stays.
+    """
+
+    exit_code = 9
+
+
 class OutputBusyError(BriefError):
     """Another run holds the output folder's lock."""
 

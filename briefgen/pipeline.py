@@ -109,15 +109,15 @@ def build_brief(
     logo = load_logo(spec)  # checked before any work, like the rest of the config
     stage.info("reading %s", spec.data.label)
     source = open_source(spec, built_on)
-    with reading(source.label):
-        stats = compute(source, spec)
     formats = spec.output.formats
     comparing = compare is not None or spec.compare_with is not None
     checks = None if skip_checks else spec.checks
     record = None
-    if "json" in formats or comparing:
-        stage.info("hashing %s", spec.data.label)
-        record = record_run(spec, source.table, stats.accounting.rows_read)
+    with reading(source.label):
+        stats = compute(source, spec)
+        if "json" in formats or comparing:
+            stage.info("hashing %s", spec.data.label)
+            record = record_run(spec, source.table, stats.accounting.rows_read)
     release(source.table)
     previous = find_previous(spec, folder, compare) if comparing or checks else None
     since = compare_runs(stats, record, previous) if comparing and record else None

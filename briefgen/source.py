@@ -32,7 +32,7 @@ from briefgen.database import open_database
 from briefgen.datafile import check_not_other_format, check_readable_file
 from briefgen.datatext import engine_clean, excerpt
 from briefgen.dialect import is_nan, try_float, try_timestamp
-from briefgen.errors import ConfigError, DataError
+from briefgen.errors import ConfigError, DataError, EngineError
 from briefgen.origin import origin_of
 from briefgen.workbook import read_workbook
 
@@ -292,10 +292,16 @@ _CONVERSION = re.compile(
 
 @contextmanager
 def reading(label: str) -> Iterator[None]:
-    """Turn the engine's error for a value that does not fit its column, or for running out
-    of its memory limit, into a sentence."""
+    """Turn the engine's errors that a person can act on into sentences: a value that does
+    not fit its column, its memory limit, a full disk, a server that went away."""
     try:
         yield
+    except duckdb.IOException as exc:
+        raise EngineError(
+            f"{label}: the engine could not write its working files ({_first_line(exc, 400)}); "
+            "free space there or set engine.temp_dir to a folder with room, then run again. "
+            "Nothing was published; the previous brief is unchanged."
+        ) from None
     except duckdb.OutOfMemoryException:
         raise ConfigError(
             f"{label}: the engine needed more memory than engine.memory_limit allows and could "
@@ -312,6 +318,39 @@ def reading(label: str) -> Iterator[None]:
             f"but the rows before it read as {kind}; write missing values as empty cells, "
             "or fix that value."
         ) from None
+    except Exception as exc:  # the engines' client libraries are imported only when used
+        if not _engine_went_away(exc):
+            raise
+        raise EngineError(
+            f"{label}: the engine stopped answering during the work ({_first_line(exc)}); "
+            "check the Spark server (engine.connect) or the database (data.url), then run "
+            "again. Nothing was published; the previous brief is unchanged."
+        ) from None
+
+
+# Client errors that mean a server or an engine process went away mid-run: Spark Connect
+# (its gRPC status), a local Spark's JVM (py4j), PostgreSQL (psycopg).
+_GONE_WORDS = ("UNAVAILABLE", "Connection refused", "Socket closed", "closed the connection")
+
+
+def _engine_went_away(exc: BaseException) -> bool:
+    """True when ``exc`` or an exception behind it says the engine's connection was lost."""
+    seen = 0
+    while exc is not None and seen < 8:
+        kind, module = type(exc).__name__, type(exc).__module__
+        if isinstance(exc, ConnectionError) or kind == "Py4JNetworkError":
+            return True
+        if module.startswith("psycopg") and kind == "OperationalError":
+            return True
+        if kind == "SparkConnectGrpcException" and any(w in str(exc) for w in _GONE_WORDS):
+            return True
+        exc, seen = exc.__cause__ or exc.__context__, seen + 1
+    return False
+
+
+def _first_line(exc: BaseException, most: int = 160) -> str:
+    text = str(exc).strip()
+    return excerpt(text.splitlines()[0], most) if text else type(exc).__name__
 
 
 def _check_header_names(path: Path, columns: list[str], label: str) -> None:

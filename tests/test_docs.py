@@ -198,3 +198,17 @@ def test_every_config_key_is_documented() -> None:
                 continue
             pattern = rf"(?<!\w){re.escape(name)}(?!\w)"
             assert re.search(pattern, code), f"config key {model.__name__}.{name} not in README"
+
+
+def test_readme_lists_every_exit_code():
+    # A scheduler branches on these codes; each error class's code has a row in the table.
+    from briefgen.errors import BriefError
+
+    classes, found = [BriefError], set()
+    while classes:
+        kind = classes.pop()
+        classes.extend(kind.__subclasses__())
+        found.add(kind.exit_code)
+    text = README.read_text(encoding="utf-8")
+    missing = sorted(code for code in found - {1} if f"\n| {code} | " not in text)
+    assert missing == []

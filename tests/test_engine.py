@@ -6,11 +6,14 @@ Constructed cases: a tiny CSV (as in test_cli), built through the command line.
 from __future__ import annotations
 
 import gc
+import subprocess
 
+import pandas as pd
 import pytest
 from test_cli import _write_case
 
 from briefgen import pipeline
+from briefgen import stats as stats_package
 from briefgen.cli import main
 
 
@@ -57,3 +60,109 @@ def test_engine_settings_that_cannot_work_get_a_sentence(tmp_path, capsys, engin
     err = " ".join(capsys.readouterr().err.split())
     assert "Traceback" not in err
     assert expected in err
+
+
+def _published(folder):
+    """The published brief's files and bytes (the stable names in the output folder)."""
+    return {p.name: p.read_bytes() for p in sorted((folder / "out").glob("brief.*"))}
+
+
+@pytest.fixture
+def small_disk(tmp_path):
+    """A 1 MiB tmpfs for the engine's working files; skipped where this user may not mount."""
+    mount_point = tmp_path / "disk"
+    mount_point.mkdir()
+    done = subprocess.run(
+        ["mount", "-t", "tmpfs", "-o", "size=1m", "tmpfs", str(mount_point)], capture_output=True
+    )
+    if done.returncode != 0:
+        pytest.skip(f"cannot mount a tmpfs here: {done.stderr.decode().strip() or 'not allowed'}")
+    yield mount_point
+    subprocess.run(["umount", str(mount_point)], check=False)
+
+
+def test_a_full_engine_disk_is_a_sentence_and_leaves_the_previous_brief(
+    tmp_path, capsys, small_disk
+):
+    # Constructed: 300,000 rows of text, more than the 1 MiB disk holds once the engine
+    # stores them. The first build (default working folder) publishes; the second,
+    # working on the small disk, must stop with exit 9 and leave that brief as it was.
+    config = _write_case(tmp_path)
+    frame = pd.DataFrame(
+        {
+            "site": [f"site {i % 50}" for i in range(300_000)],
+            "distance": [float(i % 977) for i in range(300_000)],
+            "minutes": [10.0 + (i * 7919 % 1009) / 7 for i in range(300_000)],
+            "label": [f"row {i}" for i in range(300_000)],
+        }
+    )
+    frame.to_csv(tmp_path / "data.csv", index=False)
+    assert main(["build", str(config)]) == 0
+    before = _published(tmp_path)
+    capsys.readouterr()
+    text = config.read_text() + f"engine: {{backend: duckdb, temp_dir: {small_disk}}}\n"
+    config.write_text(text)
+    assert main(["build", str(config)]) == 9
+    err = " ".join(capsys.readouterr().err.split())
+    assert "Traceback" not in err and "No space left on device" in err
+    assert "engine.temp_dir" in err and "previous brief is unchanged" in err
+    assert _published(tmp_path) == before
+
+
+def _raising(error):
+    def analysis(*args, **kwargs):
+        raise error
+
+    return analysis
+
+
+def _client_error(name: str, module: str, text: str) -> Exception:
+    """An exception of the engine client's class name and module, without the client."""
+    return type(name, (Exception,), {"__module__": module})(text)
+
+
+@pytest.mark.parametrize(
+    ("error", "code"),
+    [
+        # Spark Connect's gRPC status when the server went away (message shape as PySpark
+        # 4 prints it), a local Spark's JVM gone, PostgreSQL closing the connection.
+        (
+            _client_error(
+                "SparkConnectGrpcException",
+                "pyspark.errors.exceptions.connect",
+                "<_MultiThreadedRendezvous of RPC that terminated with: status = "
+                "StatusCode.UNAVAILABLE details = 'failed to connect to all addresses'>",
+            ),
+            9,
+        ),
+        (_client_error("Py4JNetworkError", "py4j.protocol", "Answer from Java side is empty"), 9),
+        (ConnectionResetError(104, "Connection reset by peer"), 9),
+        (
+            _client_error(
+                "OperationalError", "psycopg", "server closed the connection unexpectedly"
+            ),
+            9,
+        ),
+        # A query the engine refuses is briefgen's fault: an internal error, not exit 9.
+        (
+            _client_error(
+                "AnalysisException",
+                "pyspark.errors.exceptions.connect",
+                "[UNRESOLVED_COLUMN] A column cannot be resolved",
+            ),
+            70,
+        ),
+    ],
+)
+def test_an_engine_that_goes_away_mid_run_is_a_sentence(tmp_path, capsys, monkeypatch, error, code):
+    config = _write_case(tmp_path)
+    assert main(["build", str(config)]) == 0
+    before = _published(tmp_path)
+    capsys.readouterr()
+    monkeypatch.setattr(stats_package, "_sample", _raising(error))
+    assert main(["build", str(config)]) == code
+    err = " ".join(capsys.readouterr().err.split())
+    assert "Traceback" not in err
+    if code == 9:
+        assert "stopped answering" in err and "previous brief is unchanged" in err
+    assert _published(tmp_path) == before
