@@ -61,9 +61,10 @@ def draw_sample(
     Which rows are drawn depends on the target and predictors only, so adding a
     group column never changes the points.
     """
-    usable = frame.filter(frame.y.notnull())
-    available = int(usable.count().to_pyarrow().as_py())
     values = ["y", *predictors]
+    # Only the columns drawn: the window below carries every column it is given.
+    usable = frame.filter(frame.y.notnull()).select(*values, *groups)
+    available = int(usable.count().to_pyarrow().as_py())
     # Identical rows would share a hash and be taken all together or not at all; numbering
     # the copies gives each its own key. Copies are numbered in the order of their groups,
     # so the numbering is the same on any number of engine threads (copies that also share
