@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import itertools
+import subprocess
 from collections.abc import Callable, Iterator
 from pathlib import Path
 
@@ -68,3 +69,17 @@ def engine_table(engine: BaseBackend, tmp_path: Path) -> EngineTable:
         return write_engine_table(engine, frame, tmp_path / f"table_{next(numbers)}.parquet")
 
     return to_engine
+
+
+@pytest.fixture
+def small_disk(tmp_path: Path) -> Iterator[Path]:
+    """A 1 MiB tmpfs, mounted for the test (a real full disk); skipped where this user may not mount."""
+    mount_point = tmp_path / "disk"
+    mount_point.mkdir()
+    done = subprocess.run(
+        ["mount", "-t", "tmpfs", "-o", "size=1m", "tmpfs", str(mount_point)], capture_output=True
+    )
+    if done.returncode != 0:
+        pytest.skip(f"cannot mount a tmpfs here: {done.stderr.decode().strip() or 'not allowed'}")
+    yield mount_point
+    subprocess.run(["umount", str(mount_point)], check=False)

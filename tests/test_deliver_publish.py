@@ -136,22 +136,6 @@ def test_run_names_sort_after_the_previous_even_when_the_clock_steps_back(tmp_pa
     assert name > later
 
 
-@pytest.fixture
-def small_disk(tmp_path):
-    """A 1 MiB tmpfs, mounted for the test; skipped where this user may not mount."""
-    import subprocess
-
-    mount_point = tmp_path / "disk"
-    mount_point.mkdir()
-    done = subprocess.run(
-        ["mount", "-t", "tmpfs", "-o", "size=1m", "tmpfs", str(mount_point)], capture_output=True
-    )
-    if done.returncode != 0:
-        pytest.skip(f"cannot mount a tmpfs here: {done.stderr.decode().strip() or 'not allowed'}")
-    yield mount_point
-    subprocess.run(["umount", str(mount_point)], check=False)
-
-
 def test_a_real_full_disk_leaves_the_previous_brief_and_frees_what_it_wrote(small_disk):
     out = small_disk / "out"
     write_outputs(out, _brief("one"))

@@ -6,7 +6,6 @@ Constructed cases: a tiny CSV (as in test_cli), built through the command line.
 from __future__ import annotations
 
 import gc
-import subprocess
 
 import pandas as pd
 import pytest
@@ -65,20 +64,6 @@ def test_engine_settings_that_cannot_work_get_a_sentence(tmp_path, capsys, engin
 def _published(folder):
     """The published brief's files and bytes (the stable names in the output folder)."""
     return {p.name: p.read_bytes() for p in sorted((folder / "out").glob("brief.*"))}
-
-
-@pytest.fixture
-def small_disk(tmp_path):
-    """A 1 MiB tmpfs for the engine's working files; skipped where this user may not mount."""
-    mount_point = tmp_path / "disk"
-    mount_point.mkdir()
-    done = subprocess.run(
-        ["mount", "-t", "tmpfs", "-o", "size=1m", "tmpfs", str(mount_point)], capture_output=True
-    )
-    if done.returncode != 0:
-        pytest.skip(f"cannot mount a tmpfs here: {done.stderr.decode().strip() or 'not allowed'}")
-    yield mount_point
-    subprocess.run(["umount", str(mount_point)], check=False)
 
 
 def test_a_full_engine_disk_is_a_sentence_and_leaves_the_previous_brief(
