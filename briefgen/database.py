@@ -30,7 +30,7 @@ import ibis.expr.types as ir
 from ibis.backends import BaseBackend
 
 from briefgen.config import BriefSpec, database_file
-from briefgen.datatext import excerpt
+from briefgen.datatext import excerpt, first_line
 from briefgen.errors import ConfigError, DataError
 
 log = logging.getLogger(__name__)
@@ -51,13 +51,6 @@ def where_statistics_run(url: str) -> str:
         "The rows were copied once from SQLite into DuckDB, which ran the statistics "
         "(SQLite has no quantiles or standard deviations)."
     )
-
-
-def _first_line(exc: BaseException, secret: str | None) -> str:
-    text = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
-    if secret:
-        text = text.replace(secret, "***")
-    return excerpt(text, 160)
 
 
 def password(spec: BriefSpec) -> str | None:
@@ -92,7 +85,7 @@ def _postgres(spec: BriefSpec, label: str) -> BaseBackend:
         con.raw_sql("SET TimeZone = 'UTC'")
     except Exception as exc:  # psycopg's errors: refused, unknown host, bad login, no database
         raise DataError(
-            f"{label}: cannot connect to the database ({_first_line(exc, secret)}); check "
+            f"{label}: cannot connect to the database ({first_line(exc, hide=secret)}); check "
             "data.url, that the server is running, and the password in data.password_env."
         ) from None
     return con
@@ -111,8 +104,7 @@ def _file_database(spec: BriefSpec, label: str, scheme: str) -> BaseBackend:
         return ibis.sqlite.connect(path)
     except Exception as exc:  # a file that is not a database of that kind
         raise DataError(
-            f"{label}: cannot be opened as a {scheme} database ({_first_line(exc, None)}); "
-            "check data.url."
+            f"{label}: cannot be opened as a {scheme} database ({first_line(exc)}); check data.url."
         ) from None
 
 
@@ -137,7 +129,7 @@ def _table_or_query(con: BaseBackend, spec: BriefSpec, label: str) -> ir.Table:
         return found
     except Exception as exc:
         raise DataError(
-            f"{label}: the query in data.query failed in the database ({_first_line(exc, None)}); "
+            f"{label}: the query in data.query failed in the database ({first_line(exc)}); "
             "check it in the database's own client."
         ) from None
 
@@ -154,7 +146,7 @@ def _copy_into(engine: BaseBackend, table: ir.Table, label: str) -> ir.Table:
     try:
         batches = table.to_pyarrow_batches(chunk_size=COPY_BATCH_ROWS)
     except Exception as exc:
-        raise DataError(f"{label}: reading the rows failed ({_first_line(exc, None)}).") from None
+        raise DataError(f"{label}: reading the rows failed ({first_line(exc)}).") from None
     return _insert_batches(engine, table.schema(), batches, label)
 
 
@@ -166,7 +158,7 @@ def _insert_batches(engine: BaseBackend, schema, batches, label: str) -> ir.Tabl
             if batch.num_rows:
                 engine.insert(COPIED_TABLE, batch)
     except Exception as exc:
-        raise DataError(f"{label}: reading the rows failed ({_first_line(exc, None)}).") from None
+        raise DataError(f"{label}: reading the rows failed ({first_line(exc)}).") from None
     return engine.table(COPIED_TABLE)
 
 
@@ -184,7 +176,7 @@ def _duckdb_query(spec: BriefSpec, label: str, engine: BaseBackend) -> ir.Table:
         reader = source.sql(spec.data.query or "").to_arrow_reader(COPY_BATCH_ROWS)
     except Exception as exc:
         raise DataError(
-            f"{label}: the query in data.query failed in the database ({_first_line(exc, None)}); "
+            f"{label}: the query in data.query failed in the database ({first_line(exc)}); "
             "check it in the database's own client."
         ) from None
     try:

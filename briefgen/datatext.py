@@ -59,3 +59,15 @@ def excerpt(text: object, limit: int = 40) -> str:
     """A short, cleaned quote of data text for a message: at most ``limit`` characters."""
     shown = clean(str(text))
     return shown if len(shown) <= limit else shown[: limit - 1] + "…"
+
+
+def first_line(exc: BaseException, limit: int = 160, hide: str | None = None) -> str:
+    """The first line of a library's exception, quoted for a message (its class name if empty).
+
+    ``hide`` (a password) is masked before the line is cut, so no part of it shows.
+    """
+    text = str(exc).strip()
+    line = text.splitlines()[0] if text else type(exc).__name__
+    if hide:
+        line = line.replace(hide, "***")
+    return excerpt(line, limit)

@@ -49,7 +49,7 @@ class FigureReviewError(RenderError):
 
 
 class EngineError(BriefError):
-    """The engine stopped during the work: its disk filled, or its server went away.
+    """The engine stopped mid-run: its disk filled, its data file went, or its server left.
 
     Not the config's fault and not a bug: a scheduler may retry once the engine's
     machine is fixed. Nothing is published and the previous brief stays.

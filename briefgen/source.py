@@ -30,7 +30,7 @@ from ibis.backends import BaseBackend
 from briefgen.config import BriefSpec, EngineSpec
 from briefgen.database import open_database
 from briefgen.datafile import check_not_other_format, check_readable_file
-from briefgen.datatext import engine_clean, excerpt
+from briefgen.datatext import engine_clean, excerpt, first_line
 from briefgen.dialect import is_nan, try_float, try_timestamp
 from briefgen.errors import ConfigError, DataError, EngineError
 from briefgen.origin import origin_of
@@ -216,9 +216,8 @@ def read_table(
             table = con.read_csv(path)
         table.schema()
     except Exception as exc:  # the engine's own exception types vary by backend
-        first = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
         raise DataError(
-            f"{label}: cannot be read as {data_format.upper()} ({excerpt(first, 160)}); "
+            f"{label}: cannot be read as {data_format.upper()} ({first_line(exc)}); "
             "check the file, or set data.format to csv, parquet or json."
         ) from None
     if data_format == "csv":
@@ -297,11 +296,7 @@ def reading(label: str) -> Iterator[None]:
     try:
         yield
     except duckdb.IOException as exc:
-        raise EngineError(
-            f"{label}: the engine could not write its working files ({_first_line(exc, 400)}); "
-            "free space there or set engine.temp_dir to a folder with room, then run again. "
-            "Nothing was published; the previous brief is unchanged."
-        ) from None
+        raise EngineError(_file_failure(label, exc)) from None
     except duckdb.OutOfMemoryException:
         raise ConfigError(
             f"{label}: the engine needed more memory than engine.memory_limit allows and could "
@@ -322,10 +317,26 @@ def reading(label: str) -> Iterator[None]:
         if not _engine_went_away(exc):
             raise
         raise EngineError(
-            f"{label}: the engine stopped answering during the work ({_first_line(exc)}); "
+            f"{label}: the engine stopped answering during the work ({first_line(exc)}); "
             "check the Spark server (engine.connect) or the database (data.url), then run "
             "again. Nothing was published; the previous brief is unchanged."
         ) from None
+
+
+def _file_failure(label: str, exc: duckdb.IOException) -> str:
+    """A file the engine could not write (its working files: a full disk) or read (the data)."""
+    text = str(exc)
+    if "write" in text.lower() or "No space left" in text:
+        doing, remedy = (
+            "could not write its working files",
+            "free space there or set engine.temp_dir to a folder with room",
+        )
+    else:
+        doing, remedy = "could not read a file", "check that the data file is still in place"
+    return (
+        f"{label}: the engine {doing} ({first_line(exc, 400)}); {remedy}, then run again. "
+        "Nothing was published; the previous brief is unchanged."
+    )
 
 
 # Client errors that mean a server or an engine process went away mid-run: Spark Connect
@@ -346,11 +357,6 @@ def _engine_went_away(exc: BaseException) -> bool:
             return True
         exc, seen = exc.__cause__ or exc.__context__, seen + 1
     return False
-
-
-def _first_line(exc: BaseException, most: int = 160) -> str:
-    text = str(exc).strip()
-    return excerpt(text.splitlines()[0], most) if text else type(exc).__name__
 
 
 def _check_header_names(path: Path, columns: list[str], label: str) -> None:

@@ -22,6 +22,7 @@ import ibis
 from ibis.backends import BaseBackend
 
 from briefgen.config import EngineSpec
+from briefgen.datatext import first_line
 from briefgen.errors import ConfigError
 
 # Settings of the local session: no web UI, no network beyond loopback, a shuffle
@@ -62,7 +63,7 @@ def spark_backend(engine: EngineSpec) -> BaseBackend:
         return ibis.pyspark.connect(session)
     except Exception as exc:  # Spark's own exception types differ between local and Connect
         raise ConfigError(
-            f"engine: the Spark session did not answer ({_first_line(exc)}); "
+            f"engine: the Spark session did not answer ({first_line(exc)}); "
             "check the engine settings, or set engine: duckdb."
         ) from None
 
@@ -93,7 +94,7 @@ def _local_session(builder_owner, threads: int | None):
             session = builder.getOrCreate()
     except Exception as exc:  # the JVM failed to start: PySparkRuntimeError, RuntimeError
         raise ConfigError(
-            f"engine: the local Spark session did not start ({_first_line(exc)}); "
+            f"engine: the local Spark session did not start ({first_line(exc)}); "
             "check that Java 17 or later is installed (java -version), or set engine: duckdb."
         ) from None
     session.sparkContext.setLogLevel("ERROR")
@@ -128,7 +129,7 @@ def _remote_session(builder_owner, address: str):
     except Exception as exc:  # grpc and PySpark errors
         raise ConfigError(
             f"engine.connect: the Spark Connect server at {host}:{port} refused the session "
-            f"({_first_line(exc)}); check the address and its settings."
+            f"({first_line(exc)}); check the address and its settings."
         ) from None
 
 
@@ -156,8 +157,3 @@ def _java_found() -> bool:
     if home and (Path(home) / "bin" / "java").exists():
         return True
     return shutil.which("java") is not None
-
-
-def _first_line(exc: BaseException) -> str:
-    text = str(exc).strip()
-    return text.splitlines()[0][:160] if text else type(exc).__name__
