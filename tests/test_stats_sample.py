@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 import pandas as pd
 
+from briefgen.stats import sample as sample_module
 from briefgen.stats.sample import draw_sample
 
 
@@ -29,3 +32,85 @@ def test_sample_takes_all_rows_when_few(engine_table):
     table = engine_table(pd.DataFrame({"y": [1.0, 2.0, None], "x0": [1.0, None, 3.0]}))
     sample = draw_sample(table, ["x0"], size=5000)
     assert sample.size == 2 and sample.points("x0") == 1
+
+
+def _reference_sample(frame: pd.DataFrame, values: list[str], groups: list[str], size: int):
+    """The sample's definition in plain Python integers, row by row (no engine).
+
+    Each value is read as its sign code, whole part modulo the prime and five 31-bit
+    chunks of its fraction; the parts are mixed into a key; each row of a repeated value
+    tuple is numbered 0, 1, … in the order of its groups (missing last); key and number
+    are scrambled into the row's place, and the first ``size`` places are drawn.
+    """
+    prime, multiplier = sample_module.PRIME, sample_module.MULTIPLIER
+
+    def parts(v):
+        if v is None:
+            return [2] + [0] * 6
+        size_ = abs(v)
+        whole = math.floor(size_)
+        out = [1 if v < 0 else 0, whole % prime]
+        rest = size_ - whole
+        for _ in range(5):
+            scaled = rest * 2.0**31
+            chunk = math.floor(scaled)
+            out.append(chunk)
+            rest = scaled - chunk
+        return out
+
+    rows = [
+        tuple(
+            None if pd.isna(r[c]) else (float(r[c]) if c in values else r[c])
+            for c in values + groups
+        )
+        for r in frame.to_dict("records")
+        if not pd.isna(r["y"])
+    ]
+
+    def last(v):
+        return (v is None, v)
+
+    rows.sort(key=lambda r: [last(v) for v in r[len(values) :]])
+    copies: dict = {}
+    placed = []
+    for row in rows:
+        tuple_ = tuple(None if v is None else v + 0.0 for v in row[: len(values)])
+        copy = copies.get(tuple_, 0)
+        copies[tuple_] = copy + 1
+        flat = [p for v in tuple_ for p in parts(v)]
+        key = (flat[0] + sample_module.SEED % prime) % prime
+        for part in flat[1:]:
+            key = (key * multiplier + part) % prime
+        place = (key * multiplier + copy) % prime
+        for _ in range(3):
+            place = (place * place + multiplier) % prime
+        placed.append(([place, *[last(v) for v in tuple_], copy], row))
+    placed.sort(key=lambda item: item[0])
+    return [row for _, row in placed[:size]]
+
+
+def test_sample_is_the_defined_rows_with_their_groups(engine_table):
+    # Constructed: a coarse grid (most rows repeat their values, some thousands of times),
+    # negative values and -0.0, missing predictors and missing group levels, so the copy
+    # numbers, the null codes and the level order all decide which rows are drawn.
+    rng = np.random.default_rng(5)
+    n = 20_000
+    x0 = rng.integers(-3, 4, n).astype(float)
+    x0[::7] = np.nan
+    y = np.round(rng.normal(0, 1, n), 1) * 2 - 0.0
+    y[::11] = -0.0
+    frame = pd.DataFrame(
+        {
+            "y": y,
+            "x0": x0,
+            "g0": rng.choice(["north", "south", None], n),
+            "g1": rng.choice(["day", "night"], n),
+        }
+    )
+    table = engine_table(frame)
+    drawn = draw_sample(table, ["x0"], size=700, groups=["g0", "g1"])
+    expected = _reference_sample(frame, ["y", "x0"], ["g0", "g1"], 700)
+    got = list(zip(drawn.y, drawn.x["x0"], drawn.groups["g0"], drawn.groups["g1"], strict=True))
+    assert got == [tuple(None if v is None else v for v in row) for row in expected]
+    # The case tests what it is for: value tuples drawn more than once (copies).
+    assert len(got) == 700 and len(set(zip(drawn.y, drawn.x["x0"], strict=True))) < 600

@@ -13,11 +13,13 @@ integers are mixed modulo a prime small enough that no product leaves 64 bits.
 
 from __future__ import annotations
 
+import bisect
 from dataclasses import dataclass, field
 
 import ibis
 import ibis.expr.datatypes as dt
 import ibis.expr.types as ir
+import pyarrow as pa
 
 SAMPLE_SIZE = 5000
 SEED = 20240917
@@ -62,34 +64,80 @@ def draw_sample(
     group column never changes the points.
     """
     values = ["y", *predictors]
-    # Only the columns drawn: the window below carries every column it is given.
     usable = frame.filter(frame.y.notnull()).select(*values, *groups)
     available = int(usable.count().to_pyarrow().as_py())
-    # Identical rows would share a hash and be taken all together or not at all; numbering
-    # the copies gives each its own key. Copies are numbered in the order of their groups,
-    # so the numbering is the same on any number of engine threads (copies that also share
-    # their groups are interchangeable). The row number is a window function, so Ibis keeps
-    # this projection apart from the next: the squarings then repeat a column name, not the
-    # whole key expression.
-    numbered = usable.mutate(
-        _copy=ibis.row_number().over(
-            group_by=[usable[c] for c in values], order_by=[usable[g] for g in groups]
-        ),
-        _key=_polynomial([part for name in values for part in _exact_parts(usable[name])], seed),
-    )
-    ranked = numbered.mutate(_order=_scrambled(numbered["_key"], numbered["_copy"]))
-    chosen = (
-        ranked.order_by(["_order", "y", *predictors, *groups])
-        .limit(size)
-        .select("y", *predictors, *groups)
-    )
-    columns = chosen.to_pyarrow().to_pydict()
+    chosen = _chosen_copies(usable, values, size, seed).to_pyarrow().to_pylist()
+    levels = _levels_of_copies(usable, values, groups, chosen) if groups else {}
     return Sample(
         rows_available=available,
-        y=tuple(float(v) for v in columns["y"]),
-        x={p: tuple(None if v is None else float(v) for v in columns[p]) for p in predictors},
-        groups={g: tuple(columns[g]) for g in groups},
+        y=tuple(_number(row["y"]) for row in chosen),
+        x={p: tuple(_number(row[p]) for row in chosen) for p in predictors},
+        groups={
+            g: tuple(_levels(levels[_tuple(row, values)], row["_copy"])[i] for row in chosen)
+            for i, g in enumerate(groups)
+        },
     )
+
+
+def _chosen_copies(usable: ir.Table, values: list[str], size: int, seed: int) -> ir.Table:
+    """The first ``size`` copies of value tuples in the seeded order: values and copy number.
+
+    Identical rows would share a hash and be taken all together or not at all, so the
+    n copies of a value tuple are numbered 0 … n−1 and each has its own place in the
+    order. The copies are counted, not numbered row by row: the engine aggregates the
+    distinct tuples (an aggregate spills to disk; a window numbering every row did not
+    fit a 192MB limit at 100 million rows), hashes each tuple once, and expands its
+    copy numbers arithmetically into a top-N that keeps only ``size`` rows.
+    """
+    tuples = usable.group_by(values).aggregate(_rows=usable.count())
+    keyed = tuples.mutate(
+        _key=_polynomial([part for name in values for part in _exact_parts(tuples[name])], seed)
+    )
+    copies = keyed.mutate(_copy=ibis.range(0, keyed["_rows"])).unnest("_copy")
+    ranked = copies.mutate(_order=_scrambled(copies["_key"], copies["_copy"]))
+    return ranked.order_by(["_order", *values, "_copy"]).limit(size).select(*values, "_copy")
+
+
+def _levels_of_copies(
+    usable: ir.Table, values: list[str], groups: list[str], chosen: list[dict]
+) -> dict[tuple, list[tuple[int, tuple]]]:
+    """Per chosen value tuple, its copies' group levels as runs: (copies up to here, levels).
+
+    Copy k of a value tuple is its k-th row when its rows are sorted by their levels
+    (missing last), so the levels drawn are the same on any engine and any number of
+    threads; copies that share their levels too are interchangeable. Only the rows of
+    the chosen tuples are read, and counted once per distinct set of levels.
+    """
+    schema = pa.schema([(f"_k{i}", pa.float64()) for i in range(len(values))])
+    columns = {f"_k{i}": [row[v] for row in chosen] for i, v in enumerate(values)}
+    wanted = ibis.memtable(pa.table(columns, schema=schema)).distinct()
+    same = [usable[v].identical_to(wanted[f"_k{i}"]) for i, v in enumerate(values)]
+    rows = usable.semi_join(wanted, same)
+    counted = rows.group_by([*values, *groups]).aggregate(_n=rows.count()).to_pyarrow()
+    runs: dict[tuple, list[tuple[int, tuple]]] = {}
+    for row in sorted(counted.to_pylist(), key=lambda r: [(r[g] is None, r[g]) for g in groups]):
+        run = runs.setdefault(_tuple(row, values), [])
+        run.append(((run[-1][0] if run else 0) + row["_n"], tuple(row[g] for g in groups)))
+    return runs
+
+
+def _levels(runs: list[tuple[int, tuple]], copy: int) -> tuple:
+    """The levels of copy number ``copy`` (from 0), found in its value tuple's runs."""
+    return runs[bisect.bisect_right([end for end, _ in runs], copy)][1]
+
+
+def _number(value: float | None) -> float | None:
+    """A drawn value as the engine groups it: -0.0 and 0.0 are one value.
+
+    The engine keeps whichever of the two it met first, which depends on its threads;
+    a sum with 0.0 gives 0.0 for both.
+    """
+    return None if value is None else value + 0.0
+
+
+def _tuple(row: dict, values: list[str]) -> tuple:
+    """A row's drawn values as a dictionary key."""
+    return tuple(_number(row[v]) for v in values)
 
 
 # A double's fraction is read in chunks of 31 bits: five reach 2^-155, every bit of any
