@@ -46,7 +46,7 @@ class Accounting:
 
 
 def _fit_usages(frame: AnalysisFrame, references: dict) -> list[RowUsage]:
-    """Rows each predictor's fit used, from the shared median-reference pass."""
+    """Rows each predictor's fit used, from the shared reference pass."""
     return [
         usage(
             f"fit:{name}",

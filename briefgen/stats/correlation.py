@@ -1,8 +1,8 @@
 """Pearson and Spearman correlation between the target and each predictor.
 
 Pass 1, one engine query for every predictor, counts the rows with both values
-and takes the medians of x and y over them. Pass 2, one query per predictor, sums
-deviations from those medians (exact on data with a large offset) and, for
+and the middle of the range of x and of y over them. Pass 2, one query per predictor,
+sums deviations from those (exact on data with a large offset) and, for
 Spearman's rho, from the mean average rank, as exact fixed-point integers
 (``briefgen.stats.core.exact``), so the engine's thread order cannot change a
 digit; Python centres them exactly. Pass 2 is one query per predictor because
@@ -31,7 +31,7 @@ from briefgen.stats.core.ranking import (
     doubled_average_rank,
     doubled_ranks_of_values,
 )
-from briefgen.stats.core.references import median_references
+from briefgen.stats.core.references import shift_references
 
 
 @dataclass(frozen=True, slots=True)
@@ -75,7 +75,7 @@ def correlate(
         return ()
     predictors = list(predictor_columns)
     if references is None:
-        references = median_references(frame_table, predictors)
+        references = shift_references(frame_table, predictors)
     sums = _centred_sums(frame_table, predictors, references)
     results = []
     for i, name in enumerate(names):
@@ -150,9 +150,9 @@ def _centred_sums(
 ) -> dict[str, Fraction]:
     """Pass 2: centred sums of values and of average ranks, one query per predictor.
 
-    Values are shifted by the pass-1 medians, which is exact (Sterbenz) and leaves
-    the shifted mean within one sd of zero (Mallows 1991); the small remaining
-    shift is taken out in :func:`_correlation`. Centring on a mean stored as an
+    Values are shifted by the pass-1 middles of their ranges, which is exact on data
+    with a large offset and a small spread (Sterbenz); the remaining shift, the mean's
+    distance from that middle, is taken out exactly in :func:`_correlation`. Centring on a mean stored as an
     absolute value would not do: near 1e12 its rounding alone biases r by ~1e-7.
     The sums are exact (fixed point); deviations of average ranks are multiples of
     1/2, which the scale keeps exactly.

@@ -1,8 +1,8 @@
 """Ordinary least squares of the target on each predictor, from centred sums.
 
-Three aggregate passes, each one query for all predictors: reference medians (shared
-with the correlations, ``briefgen.stats.core.references``), exact means
-(median-shifted), and centred cross-products. Never Σx² − n·x̄² on raw values: on
+Three aggregate passes, each one query for all predictors: references, the middle of
+each range (shared with the correlations, ``briefgen.stats.core.references``), exact
+means (shifted by them), and centred cross-products. Never Σx² − n·x̄² on raw values: on
 data with a large offset that formula loses every significant digit. Every sum is an
 exact fixed-point integer sum (``briefgen.stats.core.exact``), scaled from the
 predictor's and the target's range, so the engine's thread order cannot change a
@@ -19,7 +19,7 @@ from scipy import stats as scipy_stats
 
 from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.exact import FixedPoint, exact_sum, value_of
-from briefgen.stats.core.references import median_references
+from briefgen.stats.core.references import shift_references
 
 
 @dataclass(frozen=True, slots=True)
@@ -163,11 +163,11 @@ def fit_lines(
 ) -> tuple[RegressionFit, ...]:
     """Fit ``y`` on each predictor column of ``frame`` (columns already float, NaN as null).
 
-    ``references`` are the shared median references of the same table, when already known.
+    ``references`` are the shared shift references of the same table, when already known.
     """
     if not predictors:
         return ()
-    refs = references if references is not None else median_references(frame, predictors)
+    refs = references if references is not None else shift_references(frame, predictors)
     means, centre = _mean_pass(frame, predictors, refs)
     sums = _sums_pass(frame, predictors, refs, means, centre)
     distinct = _distinct_counts(frame, predictors, refs)

@@ -7,9 +7,9 @@
 * :func:`fit_log_target`: the fit of ln(target) on each predictor, reported in
   the target's own units as a percentage change per unit of the predictor.
 
-Per-level sums take two engine passes: each level's medians and ranges, then
-sums of deviations from them joined back. Shifting by the median keeps the sums
-of squares exact on data with large offsets (|mean − median| ≤ sd, Mallows 1991).
+Per-level sums take two engine passes: each level's counts and ranges, then sums
+of deviations from the middle of each range joined back. Shifting by a value inside
+the range keeps the sums of squares exact on data with large offsets.
 The sums are exact fixed-point integers (``briefgen.stats.core.exact``), scaled per
 level from its range, and are centred on the exact level means in Python.
 """
@@ -27,7 +27,7 @@ import pyarrow as pa
 from scipy import stats as scipy_stats
 
 from briefgen.stats.core.exact import FixedPoint, exact_sum, quantise, value_of
-from briefgen.stats.core.references import median_references
+from briefgen.stats.core.references import shift_references
 from briefgen.stats.correlation import Correlation, correlate
 from briefgen.stats.regression import RegressionFit, fit_from_sums, fit_lines
 
@@ -376,7 +376,7 @@ def _log_fit(line: RegressionFit, name: str, confidence: float) -> LogFit:
 class Relationships:
     """Every relation of the target with the predictors, named by predictor.
 
-    ``references`` is the one median-reference pass the fits and correlations share;
+    ``references`` is the one reference pass the fits and correlations share;
     the row accounting reads it to count rows each predictor left out.
     """
 
@@ -407,7 +407,7 @@ class RelationshipAnalysis:
         # Queries run on the frame's x0.. columns; results carry the configured predictor names.
         columns = list(frame.predictors)
         names = [frame.predictors[c] for c in columns]
-        references = median_references(table, columns) if columns else {}
+        references = shift_references(table, columns) if columns else {}
         fits = tuple(
             replace(fit, predictor=frame.predictors[fit.predictor])
             for fit in fit_lines(table, columns, confidence, references)
