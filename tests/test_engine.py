@@ -6,13 +6,15 @@ Constructed cases: a tiny CSV (as in test_cli), built through the command line.
 from __future__ import annotations
 
 import gc
+import subprocess
+import sys
 
 import duckdb
 import pandas as pd
 import pytest
 from test_cli import _write_case
 
-from briefgen import pipeline
+from briefgen import document
 from briefgen import stats as stats_package
 from briefgen.cli import main
 
@@ -34,15 +36,36 @@ def test_engine_is_closed_before_the_document_is_drawn(tmp_path, monkeypatch):
     work.mkdir()
     config = _write_case(tmp_path, config_extra="engine: {backend: duckdb, temp_dir: work}\n")
     seen = []
-    drawing = pipeline.build_document
+    drawing = document.build_document
 
     def spy(*args, **kwargs):
         seen.append(list(work.iterdir()))
         return drawing(*args, **kwargs)
 
-    monkeypatch.setattr(pipeline, "build_document", spy)
+    monkeypatch.setattr(document, "build_document", spy)
     assert main(["build", str(config)]) == 0
     assert seen == [[]]
+
+
+def test_statistics_run_before_the_drawing_libraries_are_loaded(tmp_path):
+    # matplotlib is ~30 MiB resident; loaded with the pipeline it sat under the engine's
+    # memory for the whole statistics stage (the build's peak at 10M rows).
+    config = _write_case(tmp_path)
+    script = (
+        "import sys\n"
+        "from briefgen import pipeline, stats\n"
+        "computed = stats.compute\n"
+        "def spy(*a, **k):\n"
+        "    result = computed(*a, **k)\n"
+        "    print('loaded:', sorted(m for m in ('matplotlib', 'weasyprint') if m in sys.modules))\n"
+        "    return result\n"
+        "pipeline.compute = spy\n"
+        "from briefgen.cli import main\n"
+        f"raise SystemExit(main(['build', {str(config)!r}]))\n"
+    )
+    done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True)
+    assert done.returncode == 0, done.stderr
+    assert "loaded: []" in done.stdout
 
 
 @pytest.mark.parametrize(
