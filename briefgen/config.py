@@ -68,16 +68,17 @@ class EngineSpec(_Strict):
 
     ``threads``: engine threads; None (default) uses every core. The statistics give the
     same bytes on any number (exact sums, ``briefgen.stats.core.exact``).
-    ``memory_limit`` caps what DuckDB holds in memory (its own size syntax, ``512MB``
+    ``memory_limit`` caps what DuckDB holds in memory (its own size syntax, ``192MB``
     (default), ``1GB``); beyond it, tables, sorts and joins spill to ``temp_dir`` (default: the
-    system's temporary folder), so data larger than memory still complete.
+    system's temporary folder), so data larger than memory still complete. The default is
+    the smallest measured to complete 100M rows (README, engine.memory_limit).
     ``pyspark`` starts a local Spark session, or with ``connect`` reaches a Spark
     Connect server (``sc://host:15002``), which runs the queries on its cluster.
     """
 
     backend: Literal["duckdb", "pyspark"] = "duckdb"
     threads: int | None = Field(default=None, ge=1)
-    memory_limit: str = Field(default="512MB", pattern=r"(?i)^\s*\d+(\.\d+)?\s*(k|m|g|t)i?b\s*$")
+    memory_limit: str = Field(default="192MB", pattern=r"(?i)^\s*\d+(\.\d+)?\s*(k|m|g|t)i?b\s*$")
     temp_dir: str | None = None
     connect: str | None = None
 

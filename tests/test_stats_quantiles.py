@@ -16,7 +16,7 @@ import pandas as pd
 import pytest
 from palmerpenguins import load_penguins
 
-from briefgen.config import load_spec
+from briefgen.config import EngineSpec, load_spec
 from briefgen.pipeline import build_brief
 from briefgen.stats.core import quantiles
 from briefgen.stats.core.quantiles import narrowed_quantiles, narrowing, quantiles_for
@@ -98,6 +98,7 @@ def test_ties_and_a_single_value_need_no_fetch(engine_table):
 def test_the_threshold_follows_the_memory_limit_and_the_predictors():
     # 100 bytes a target value with two predictors (four medians in one query), more with more
     assert quantiles.narrow_from("512MB") == 5_120_000
+    assert quantiles.narrow_from(EngineSpec().memory_limit) == 1_920_000  # the default, 192MB
     assert quantiles.narrow_from("1GB") == 10_000_000
     assert quantiles.narrow_from("1GiB", predictors=5) == 2**30 // (16 * 10 + 36)
     assert quantiles.narrow_from(None) == quantiles.NARROW_FROM  # Spark: no limit to go by

@@ -14,7 +14,7 @@ exactly those between its smallest and largest value, and each round needs only 
 counts, the smallest and the largest value of each bucket: memory is a few thousand
 rows per key, whatever the table's size. Each round is one engine query for every key
 and every quantile at once. ``narrow_from`` sets the threshold from DuckDB's memory
-limit (512 MB by default: from 5.1M target values with two predictors).
+limit (192MB by default: from 1.9M target values with two predictors).
 
 The quantile is DuckDB's type 7 (Hyndman and Fan 1996, definition 7): with h = (n−1)p,
 k = ⌊h⌋ and d = h − k, x₍ₖ₎·(1 − d) + x₍ₖ₊₁₎·d in DuckDB's own arithmetic (``type7``), so a brief
