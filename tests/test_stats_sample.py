@@ -6,7 +6,10 @@ import math
 
 import numpy as np
 import pandas as pd
+import pytest
 
+from briefgen.config import EngineSpec
+from briefgen.source import connect
 from briefgen.stats import sample as sample_module
 from briefgen.stats.sample import draw_sample
 
@@ -89,8 +92,10 @@ def _reference_sample(frame: pd.DataFrame, values: list[str], groups: list[str],
     return [row for _, row in placed[:size]]
 
 
-def test_sample_is_the_defined_rows_with_their_groups(engine_table):
-    # Constructed: a coarse grid (most rows repeat their values, some thousands of times),
+@pytest.mark.parametrize("block", [sample_module.COPY_BLOCK, 3])
+def test_sample_is_the_defined_rows_with_their_groups(engine_table, monkeypatch, block):
+    # Copy numbers listed in blocks of 3 as well: block edges fall inside every repeated
+    # tuple. Constructed: a coarse grid (most rows repeat their values, some thousands of times),
     # negative values and -0.0, missing predictors and missing group levels, so the copy
     # numbers, the null codes and the level order all decide which rows are drawn.
     rng = np.random.default_rng(5)
@@ -108,9 +113,27 @@ def test_sample_is_the_defined_rows_with_their_groups(engine_table):
         }
     )
     table = engine_table(frame)
+    monkeypatch.setattr(sample_module, "COPY_BLOCK", block)
     drawn = draw_sample(table, ["x0"], size=700, groups=["g0", "g1"])
     expected = _reference_sample(frame, ["y", "x0"], ["g0", "g1"], 700)
     got = list(zip(drawn.y, drawn.x["x0"], drawn.groups["g0"], drawn.groups["g1"], strict=True))
     assert got == [tuple(None if v is None else v for v in row) for row in expected]
     # The case tests what it is for: value tuples drawn more than once (copies).
     assert len(got) == 700 and len(set(zip(drawn.y, drawn.x["x0"], strict=True))) < 600
+
+
+def test_a_few_tuples_with_millions_of_copies_fit_a_small_memory_limit():
+    # A 0/1 target and no predictor: two value tuples of 2.5 million copies each. Their
+    # copy numbers listed whole (20 MB a list) stopped DuckDB at this limit; in blocks
+    # they fit. DuckDB only: the limit is its setting.
+    engine = connect(EngineSpec(memory_limit="48MB"))
+    engine.raw_sql(
+        "CREATE TABLE outcomes AS SELECT (i % 2)::DOUBLE AS y, "
+        "CASE WHEN i % 3 = 0 THEN 'a' ELSE 'b' END AS g0 FROM range(5000000) r(i)"
+    )
+    drawn = draw_sample(engine.table("outcomes"), [], groups=["g0"])
+    assert drawn.size == 5000 and drawn.rows_available == 5_000_000
+    # A simple random sample's share of ones lies within 4 standard errors of 1/2, and
+    # of level "a" within 4 of 1/3 (normal approximation to the binomial).
+    for share, p in ((np.mean(drawn.y), 1 / 2), (drawn.groups["g0"].count("a") / 5000, 1 / 3)):
+        assert abs(share - p) < 4 * np.sqrt(p * (1 - p) / 5000)

@@ -27,6 +27,8 @@ SEED = 20240917
 # product of two residues stays below 2^62, so no engine overflows or wraps.
 PRIME = 2_147_483_647
 MULTIPLIER = 48_271
+# Copy numbers of one value tuple are listed this many at a time: a few kilobytes a row.
+COPY_BLOCK = 256
 
 
 @dataclass(frozen=True, slots=True)
@@ -93,7 +95,14 @@ def _chosen_copies(usable: ir.Table, values: list[str], size: int, seed: int) ->
     keyed = tuples.mutate(
         _key=_polynomial([part for name in values for part in _exact_parts(tuples[name])], seed)
     )
-    copies = keyed.mutate(_copy=ibis.range(0, keyed["_rows"])).unnest("_copy")
+    # Copy numbers come in blocks of at most COPY_BLOCK: one list of a million copy numbers
+    # (a 0/1 target with no predictor has two tuples) would not fit the engine's memory.
+    blocks = keyed.mutate(
+        _block=ibis.range(0, (keyed["_rows"] + (COPY_BLOCK - 1)) // COPY_BLOCK)
+    ).unnest("_block")
+    start = blocks["_block"] * COPY_BLOCK
+    stop = ibis.least(blocks["_rows"], start + COPY_BLOCK)
+    copies = blocks.mutate(_copy=ibis.range(start, stop)).unnest("_copy")
     ranked = copies.mutate(_order=_scrambled(copies["_key"], copies["_copy"]))
     return ranked.order_by(["_order", *values, "_copy"]).limit(size).select(*values, "_copy")
 
