@@ -84,7 +84,6 @@ def _rendered(
 
     formats = spec.output.formats
     files: dict[str, bytes] = {}
-    stage.info("writing the findings")
     with review.recording() as reviews:
         doc = build_document(
             stats, spec, built_on, rows_label=_rows_label(spec), since=since, gate=gate
@@ -165,6 +164,8 @@ def build_brief(
     previous = find_previous(spec, folder, compare) if comparing or checks else None
     since = compare_runs(stats, record, previous) if comparing and record else None
     gate = run_checks(checks, stats, previous) if checks and previous else None
+    # Announced before the drawing libraries load (half a second), so the stage shows it.
+    stage.info("writing the findings")
     files = _rendered(stats, spec, built_on, logo, record, since, gate)
     if gate is not None and not gate.passed:
         stage.info("holding the brief: %d checks failed", len(gate.failures))
