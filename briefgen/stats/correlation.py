@@ -152,8 +152,9 @@ def _centred_sums(
 
     Values are shifted by the pass-1 middles of their ranges, which is exact on data
     with a large offset and a small spread (Sterbenz); the remaining shift, the mean's
-    distance from that middle, is taken out exactly in :func:`_correlation`. Centring on a mean stored as an
-    absolute value would not do: near 1e12 its rounding alone biases r by ~1e-7.
+    distance from that middle, is taken out exactly in :func:`_correlation`. Centring
+    on a mean stored as an absolute value would not do: near 1e12 its rounding alone
+    biases r by ~1e-7.
     The sums are exact (fixed point); deviations of average ranks are multiples of
     1/2, which the scale keeps exactly.
     """
