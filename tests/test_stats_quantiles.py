@@ -53,6 +53,15 @@ def test_narrowed_quantiles_equal_numpy_type_7(engine_table, monkeypatch, fetch_
         assert values == pytest.approx(expected, rel=1e-14, abs=0.0)
     (overall,) = narrowed_quantiles(table, "y", (0.5,)).values()
     assert overall[0] == np.median(frame.y.dropna())  # an odd or even count's middle
+    # Bounds the caller counted (here pandas) replace the first pass and change nothing;
+    # a key counted 0 has no value.
+    counted = (
+        frame.dropna(subset=["y"]).groupby(["g", "h"], dropna=False).y.agg(["count", "min", "max"])
+    )
+    bounds = {(None if pd.isna(g) else g, h): tuple(row) for (g, h), row in counted.iterrows()} | {
+        ("nowhere", "day"): (0, None, None)
+    }
+    assert narrowed_quantiles(table, "y", PROBABILITIES, ["g", "h"], bounds) == found
 
 
 def test_narrowed_quantiles_are_duckdbs_bit_for_bit(monkeypatch):

@@ -152,7 +152,9 @@ def density_bins(
     if n == 0 or n <= more_than:
         return None
     if narrowing():
-        bulk_clip = narrowed_quantiles(both, "y", (1 - CLIP_QUANTILE, CLIP_QUANTILE))[()]
+        bounds = {(): (n, first["y_low"], first["y_high"])}
+        bulk_clip = narrowed_quantiles(both, "y", (1 - CLIP_QUANTILE, CLIP_QUANTILE), (), bounds)
+        bulk_clip = bulk_clip[()]
         first["y_bulk"], first["y_clip"] = bulk_clip
     axis = value_axis(first["y_low"], first["y_high"], first["y_clip"], first["y_bulk"])
     top = axis.top if axis.kind == "clipped" else first["y_high"]

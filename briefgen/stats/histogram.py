@@ -81,7 +81,8 @@ def histogram_bins(
     if n == 0:
         return None
     if narrowing():
-        first["quartiles"] = narrowed_quantiles(table, column, (0.25, 0.75))[()]
+        bounds = {(): (n, first["low"], first["high"])}
+        first["quartiles"] = narrowed_quantiles(table, column, (0.25, 0.75), (), bounds)[()]
     first["q1"], first["q3"] = first["quartiles"]
     if whole_numbers and first["high"] - first["low"] + 1 <= max_bins:
         edges = np.arange(first["low"] - 0.5, first["high"] + 1.0, 1.0)

@@ -116,27 +116,33 @@ def _ranks(n: int, probabilities: Sequence[float]) -> set[int]:
 
 
 def narrowed_quantiles(
-    table: ir.Table, column: str, probabilities: Sequence[float], keys: Sequence[str] = ()
+    table: ir.Table,
+    column: str,
+    probabilities: Sequence[float],
+    keys: Sequence[str] = (),
+    bounds: dict[tuple, tuple[int, float, float]] | None = None,
 ) -> dict[tuple, tuple[float, ...]]:
     """Type 7 quantiles of ``column`` per combination of ``keys`` (() for the whole table).
 
     Returns {key values: quantiles in the order of ``probabilities``} for every key
     with a value; null values of ``column`` are left out, null keys are a key.
+    ``bounds``: {key values: (count, smallest, largest) of the column's values}, when
+    the caller has counted them already (every caller has: it saves a pass over the
+    rows); a key left out of it, or counted 0, has no value.
     """
     keys = list(keys)
     rows = table.filter(table[column].notnull())
-    value = rows[column]
-    stats = {"_n": rows.count(), "_lo": value.min(), "_hi": value.max()}
-    bounds = rows.group_by(keys).aggregate(**stats) if keys else rows.aggregate(**stats)
-    found = bounds.to_pyarrow().to_pylist()
+    if bounds is None:
+        bounds = _bounds(rows, column, keys)
     # target (key, rank) -> [lo, hi, rank within the interval]
     pending: dict[tuple[tuple, int], list] = {}
     sizes = {}
-    for row in found:
-        key = tuple(row[k] for k in keys)
-        sizes[key] = int(row["_n"])
+    for key, (n, lo, hi) in bounds.items():
+        if not n:
+            continue
+        sizes[key] = int(n)
         for rank in _ranks(sizes[key], probabilities):
-            pending[(key, rank)] = [row["_lo"], row["_hi"], rank]
+            pending[(key, rank)] = [lo, hi, rank]
     known: dict[tuple[tuple, int], float] = {}
     while pending:
         fetch = {}
@@ -165,6 +171,17 @@ def narrowed_quantiles(
     for (key, rank), value in known.items():
         at[key][rank] = value
     return {key: tuple(type7(at[key], n, p) for p in probabilities) for key, n in sizes.items()}
+
+
+def _bounds(rows: ir.Table, column: str, keys: list[str]) -> dict[tuple, tuple[int, float, float]]:
+    """(count, smallest, largest) of ``column`` per key of ``rows``, one query."""
+    value = rows[column]
+    stats = {"_n": rows.count(), "_lo": value.min(), "_hi": value.max()}
+    found = rows.group_by(keys).aggregate(**stats) if keys else rows.aggregate(**stats)
+    return {
+        tuple(row[k] for k in keys): (row["_n"], row["_lo"], row["_hi"])
+        for row in found.to_pyarrow().to_pylist()
+    }
 
 
 def _holding(buckets: list[tuple[int, float, float]], rank: int) -> tuple[int, float, float, int]:

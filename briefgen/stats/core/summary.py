@@ -121,8 +121,12 @@ def order_statistics(table: ir.Table, keys: Sequence[str]) -> pa.Table:
     if narrowing():
         # Too many values for the engine's quantile state: narrow in bounded memory.
         found = table.group_by(list(keys)).aggregate(**counts).to_pyarrow()
-        quartiles = narrowed_quantiles(table, "y", (0.25, 0.5, 0.75), keys)
         at = [tuple(row[k] for k in keys) for row in found.select(list(keys)).to_pylist()]
+        bounds = {
+            key: (row["n"], row["min"], row["max"])
+            for key, row in zip(at, found.select(["n", "min", "max"]).to_pylist(), strict=True)
+        }
+        quartiles = narrowed_quantiles(table, "y", (0.25, 0.5, 0.75), keys, bounds)
         for i, name in enumerate(QUARTILES):
             column = [quartiles[key][i] if key in quartiles else None for key in at]
             found = found.append_column(name, pa.array(column, pa.float64()))
