@@ -20,7 +20,9 @@ import scipy.stats
 import statsmodels.api as sm
 from vega_datasets import local_data
 
-from briefgen.stats.regression import RegressionFit, fit_lines
+from briefgen.stats.core.references import shift_references
+from briefgen.stats.correlation import centred_sums
+from briefgen.stats.regression import RegressionFit, fit_lines, value_sums
 
 NORRIS = Path(os.path.dirname(scipy.__file__)) / "stats/tests/data/nist_linregress/Norris.dat"
 
@@ -240,6 +242,24 @@ def test_large_offsets_keep_digits(
     intercept_se = float(at_zero.se_mean[0])
     assert abs(fit.intercept - float(intercept)) <= 1e-6 * intercept_se
     assert fit.intercept_se == pytest.approx(intercept_se, rel=1e-10)
+
+
+def test_fits_from_the_correlations_sums_are_the_fits_of_their_own_pass(engine_table):
+    """A brief fits lines from the sums the correlations' pass takes (one query fewer).
+
+    Constructed case: two predictors with different missing rows, at an offset of 1e9,
+    so the sums, scales and masks of both passes must agree to the last bit.
+    """
+    data = generated_data()
+    data[["y", "x0"]] += 1e9
+    table = engine_table(data)
+    references = shift_references(table, ["x0", "x1"])
+    shared = centred_sums(table, ["x0", "x1"], references)
+    own = value_sums(table, ["x0", "x1"], references)
+    assert own == {key: value for key, value in shared.items() if key.startswith("value_")}
+    assert fit_lines(table, ["x0", "x1"], 0.95, references, shared) == fit_lines(
+        table, ["x0", "x1"], 0.95
+    )
 
 
 # ---------------------------------------------------------------- edge cases

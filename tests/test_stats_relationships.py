@@ -20,6 +20,7 @@ from briefgen.stats.relationships import (
     LogSkipped,
     correlate,
     fit_log_target,
+    level_sums,
     slopes_by_group,
 )
 
@@ -354,3 +355,24 @@ def test_spearman_ranks_a_tied_column_by_counting_and_a_continuous_one_by_sortin
     assert result.n == used.sum()
     assert result.spearman_rho == pytest.approx(reference.statistic, rel=1e-12)
     assert result.pearson_r == pytest.approx(scipy_stats.pearsonr(x[used], y[used])[0], rel=1e-12)
+
+
+def test_per_level_sums_of_several_predictors_equal_one_at_a_time(engine_table):
+    """A brief takes every predictor's per-level sums of one group in one pair of queries.
+
+    Constructed from Palmer penguins with extra holes in one predictor and a level
+    (Torgersen) where another has no value at all: each predictor's sums must be those
+    of its own rows, bit for bit.
+    """
+    frame = _penguins()
+    rng = np.random.default_rng(5)
+    frame.loc[rng.random(len(frame)) < 0.2, "x1"] = np.nan
+    frame.loc[frame.g2 == "Torgersen", "x2"] = np.nan
+    table = engine_table(frame)
+    together = level_sums(table, "g2", ["x0", "x1", "x2"])
+    for column in ("x0", "x1", "x2"):
+        assert together[column] == level_sums(table, "g2", [column])[column]
+    assert [level["level"] for level in together["x2"]] == ["Biscoe", "Dream"]
+    # reference: pandas counts of rows with the target, the predictor and the group
+    counts = frame.dropna(subset=["y", "x1", "g2"]).groupby("g2").size()
+    assert {level["level"]: level["n"] for level in together["x1"]} == counts.to_dict()

@@ -32,6 +32,7 @@ from briefgen.stats.core.ranking import (
     doubled_ranks_of_values,
 )
 from briefgen.stats.core.references import shift_references
+from briefgen.stats.regression import reference_scales
 
 
 @dataclass(frozen=True, slots=True)
@@ -64,10 +65,12 @@ def correlate(
     names: list[str],
     confidence: float,
     references: dict | None = None,
+    sums: dict[str, Fraction] | None = None,
 ) -> tuple[Correlation, ...]:
     """Pearson and Spearman correlation of ``y`` with each predictor column.
 
-    ``names`` are the user's names for ``predictor_columns``, in the same order.
+    ``names`` are the user's names for ``predictor_columns``, in the same order;
+    ``references`` and ``sums`` (``centred_sums``) are taken when already known.
     """
     if len(names) != len(predictor_columns):
         raise ValueError("names and predictor_columns must have the same length")
@@ -76,7 +79,8 @@ def correlate(
     predictors = list(predictor_columns)
     if references is None:
         references = shift_references(frame_table, predictors)
-    sums = _centred_sums(frame_table, predictors, references)
+    if sums is None:
+        sums = centred_sums(frame_table, predictors, references)
     results = []
     for i, name in enumerate(names):
         n = int(references[f"n{i}"] or 0)
@@ -145,10 +149,13 @@ def _ranked_rows(rows: ir.Table, n: int, distinct: dict[str, float | None]) -> t
     return rows, ranks
 
 
-def _centred_sums(
+def centred_sums(
     frame: ir.Table, predictors: list[str], references: dict[str, float | int | None]
 ) -> dict[str, Fraction]:
     """Pass 2: centred sums of values and of average ranks, one query per predictor.
+
+    The value sums are the integers ``briefgen.stats.regression.value_sums`` takes, so
+    the line fits read them from here instead of a pass of their own.
 
     Values are shifted by the pass-1 middles of their ranges, which is exact on data
     with a large offset and a small spread (Sterbenz); the remaining shift, the mean's
@@ -172,18 +179,7 @@ def _centred_sums(
         # Mean of average ranks over the n used rows is exactly (n + 1)/2.
         rank_centre = (n + 1) / 2
         rank_scale = FixedPoint.fit(n / 2, n)  # |average rank − (n + 1)/2| ≤ (n − 1)/2
-        scales = {
-            "value": tuple(
-                FixedPoint.around(
-                    references[f"{axis}_ref{i}"],
-                    references[f"{axis}_min{i}"],
-                    references[f"{axis}_max{i}"],
-                    n,
-                )
-                for axis in ("x", "y")
-            ),
-            "rank": (rank_scale, rank_scale),
-        }
+        scales = {"value": reference_scales(references, i), "rank": (rank_scale, rank_scale)}
         (value_x, value_y), (rank_x, rank_y) = scales["value"], scales["rank"]
         shifted = rows.select(
             value_x=value_x.quantise(rows.x - references[f"x_ref{i}"]),

@@ -1,18 +1,22 @@
 """Ordinary least squares of the target on each predictor, from centred sums.
 
-Three aggregate passes, each one query for all predictors: references, the middle of
-each range (shared with the correlations, ``briefgen.stats.core.references``), exact
-means (shifted by them), and centred cross-products. Never Σx² − n·x̄² on raw values: on
-data with a large offset that formula loses every significant digit. Every sum is an
-exact fixed-point integer sum (``briefgen.stats.core.exact``), scaled from the
-predictor's and the target's range, so the engine's thread order cannot change a
-digit, and the residual sum of squares Syy − Sxy²/Sxx follows from them exactly.
-"""
+Two aggregate passes, each one query for all predictors: references, the middle of
+each range (shared with the correlations, ``briefgen.stats.core.references``), and
+exact sums of deviations from them (``value_sums``; in a brief the correlations'
+pass sums the same integers, so the fits take theirs). Never Σx² − n·x̄² on raw
+values: on data with a large offset that formula loses every significant digit. Every
+sum is an exact fixed-point integer sum (``briefgen.stats.core.exact``), scaled from
+the predictor's and the target's range, so the engine's thread order cannot change a
+digit, and the means, the centred sums and the residual sum of squares
+Syy − Sxy²/Sxx follow from them exactly, with one rounding each. (A pass of means and
+a second of deviations from them, the earlier form, cost a query and added a rounding
+per value.)"""
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from fractions import Fraction
 
 import ibis.expr.types as ir
 from scipy import stats as scipy_stats
@@ -70,73 +74,24 @@ class RegressionFit:
         return fitted - half, fitted + half
 
 
-def _columns(frame: ir.Table, predictor: str):
-    x, y = frame[predictor], frame.y
-    both = x.notnull() & y.notnull()
-    return x, y, both
+def value_sums(frame: ir.Table, predictors: list[str], refs: dict) -> dict[str, Fraction]:
+    """Exact sums of deviations from the references, one query for every predictor.
 
-
-def _deviations(frame: ir.Table, predictor: str, i: int, refs: dict, means: dict):
-    """Centred x and y of one predictor's rows, and the mask of rows with both values."""
-    # Deviation from the mean as (value − reference) − mean shift: the reference is a data
-    # value, so the first difference is exact, and the rounded mean never meets the offset.
-    x, y, both = _columns(frame, predictor)
-    dx = (x - refs[f"x_ref{i}"]) - means[f"dx{i}"]
-    dy = (y - refs[f"y_ref{i}"]) - means[f"dy{i}"]
-    return dx, dy, both
-
-
-def _scales(refs: dict, i: int, means: dict | None = None) -> tuple[FixedPoint, FixedPoint]:
-    """Fixed-point scales of predictor i's x and y deviations (from the references, or centred)."""
-    n = int(refs[f"n{i}"])
-    shift_x = means[f"dx{i}"] if means is not None else 0.0
-    shift_y = means[f"dy{i}"] if means is not None else 0.0
-    return (
-        FixedPoint.around(refs[f"x_ref{i}"], refs[f"x_min{i}"], refs[f"x_max{i}"], n, shift_x),
-        FixedPoint.around(refs[f"y_ref{i}"], refs[f"y_min{i}"], refs[f"y_max{i}"], n, shift_y),
-    )
-
-
-def _mean_pass(
-    frame: ir.Table, predictors: list[str], refs: dict
-) -> tuple[dict, dict[int, tuple[float, float]]]:
-    """Pass 2: mean shifts from the references, and the exact (x̄, ȳ) of each fittable predictor."""
-    means_expr, scales = {}, {}
-    for i, p in enumerate(predictors):
-        x, y, both = _columns(frame, p)
-        if refs[f"n{i}"]:
-            scales[i] = scale_x, scale_y = _scales(refs, i)
-            # Null outside the rows with both values: the bounds hold only over those.
-            means_expr[f"dx{i}"] = exact_sum(scale_x.quantise(x - refs[f"x_ref{i}"], both))
-            means_expr[f"dy{i}"] = exact_sum(scale_y.quantise(y - refs[f"y_ref{i}"], both))
-    sums = one_row(frame, means_expr)
-    means = {}
-    for i, (scale_x, scale_y) in scales.items():
-        n = int(refs[f"n{i}"])
-        means[f"dx{i}"] = float(value_of(sums[f"dx{i}"], scale_x) / n)
-        means[f"dy{i}"] = float(value_of(sums[f"dy{i}"], scale_y) / n)
-    centre = {
-        i: (refs[f"x_ref{i}"] + means[f"dx{i}"], refs[f"y_ref{i}"] + means[f"dy{i}"])
-        for i in range(len(predictors))
-        if refs[f"n{i}"]
-    }
-    return means, centre
-
-
-def _sums_pass(
-    frame: ir.Table, predictors: list[str], refs: dict, means: dict, centre: dict
-) -> dict:
-    """Pass 3: centred sums of squares and cross-products Sxx, Sxy, Syy, and the SSE.
-
-    The sums are exact, so Python removes what is left of the (rounded) mean shift and
-    forms the residual sum of squares SSE = Syy − Sxy²/Sxx without cancelling a digit:
-    one rounding each, where summing float residuals in a fourth pass rounded every row.
+    For predictor i, over the rows with both values: ``value_sx{i}``, ``value_sy{i}``,
+    ``value_sxx{i}``, ``value_sxy{i}`` and ``value_syy{i}`` of d = value − reference, as
+    exact ``Fraction``s (the correlations sum the same integers beside their ranks, so
+    the fits can take theirs: ``briefgen.stats.correlation.centred_sums``).
     """
     sums_expr, scales = {}, {}
-    for i in centre:
-        dx, dy, both = _deviations(frame, predictors[i], i, refs, means)
-        scales[i] = scale_x, scale_y = _scales(refs, i, means)
-        qx, qy = scale_x.quantise(dx, both), scale_y.quantise(dy, both)
+    for i, predictor in enumerate(predictors):
+        if not refs[f"n{i}"]:
+            continue
+        x, y = frame[predictor], frame.y
+        both = x.notnull() & y.notnull()
+        scales[i] = scale_x, scale_y = reference_scales(refs, i)
+        # Null outside the rows with both values: the bounds hold only over those.
+        qx = scale_x.quantise(x - refs[f"x_ref{i}"], both)
+        qy = scale_y.quantise(y - refs[f"y_ref{i}"], both)
         sums_expr |= {
             f"sx{i}": exact_sum(qx),
             f"sy{i}": exact_sum(qy),
@@ -144,46 +99,82 @@ def _sums_pass(
             f"sxy{i}": exact_sum(qx * qy),
             f"syy{i}": exact_sum(qy * qy),
         }
-    sums = one_row(frame, sums_expr)
-    result = {}
+    totals = one_row(frame, sums_expr)
+    exact = {}
     for i, (scale_x, scale_y) in scales.items():
-        n = int(refs[f"n{i}"])
-        sx, sy = value_of(sums[f"sx{i}"], scale_x), value_of(sums[f"sy{i}"], scale_y)
-        sxx = value_of(sums[f"sxx{i}"], scale_x, scale_x) - sx * sx / n
-        sxy = value_of(sums[f"sxy{i}"], scale_x, scale_y) - sx * sy / n
-        syy = value_of(sums[f"syy{i}"], scale_y, scale_y) - sy * sy / n
-        result |= {f"sxx{i}": float(sxx), f"sxy{i}": float(sxy), f"syy{i}": float(syy)}
-        if sxx > 0:
-            result[f"sse{i}"] = float(syy - sxy * sxy / sxx)
-    return result
+        exact |= {
+            f"value_sx{i}": value_of(totals[f"sx{i}"], scale_x),
+            f"value_sy{i}": value_of(totals[f"sy{i}"], scale_y),
+            f"value_sxx{i}": value_of(totals[f"sxx{i}"], scale_x, scale_x),
+            f"value_sxy{i}": value_of(totals[f"sxy{i}"], scale_x, scale_y),
+            f"value_syy{i}": value_of(totals[f"syy{i}"], scale_y, scale_y),
+        }
+    return exact
+
+
+def reference_scales(refs: dict, i: int) -> tuple[FixedPoint, FixedPoint]:
+    """Fixed-point scales of predictor i's x and y deviations from their references."""
+    n = int(refs[f"n{i}"])
+    return (
+        FixedPoint.around(refs[f"x_ref{i}"], refs[f"x_min{i}"], refs[f"x_max{i}"], n),
+        FixedPoint.around(refs[f"y_ref{i}"], refs[f"y_min{i}"], refs[f"y_max{i}"], n),
+    )
+
+
+def _centred(sums: dict[str, Fraction], refs: dict, i: int) -> dict[str, float] | None:
+    """Means, centred sums Sxx, Sxy, Syy and the SSE of predictor i, from its exact sums.
+
+    The sums are exact, so centring (Σd² − (Σd)²/n) and SSE = Syy − Sxy²/Sxx cancel
+    nothing: one rounding each. The mean is the reference plus the mean deviation.
+    """
+    n = int(refs[f"n{i}"] or 0)
+    if not n:
+        return None
+    sx, sy = sums[f"value_sx{i}"], sums[f"value_sy{i}"]
+    sxx = sums[f"value_sxx{i}"] - sx * sx / n
+    sxy = sums[f"value_sxy{i}"] - sx * sy / n
+    syy = sums[f"value_syy{i}"] - sy * sy / n
+    centred = {
+        "x_mean": refs[f"x_ref{i}"] + float(sx / n),
+        "y_mean": refs[f"y_ref{i}"] + float(sy / n),
+        "sxx": float(sxx),
+        "sxy": float(sxy),
+        "syy": float(syy),
+        "sse": None,
+    }
+    if sxx > 0:
+        centred["sse"] = float(syy - sxy * sxy / sxx)
+    return centred
 
 
 def fit_lines(
-    frame: ir.Table, predictors: list[str], confidence: float, references: dict | None = None
+    frame: ir.Table,
+    predictors: list[str],
+    confidence: float,
+    references: dict | None = None,
+    sums: dict[str, Fraction] | None = None,
 ) -> tuple[RegressionFit, ...]:
     """Fit ``y`` on each predictor column of ``frame`` (columns already float, NaN as null).
 
-    ``references`` are the shared shift references of the same table, when already known.
+    ``references`` are the shared shift references of the same table and ``sums`` the
+    exact sums of deviations from them (``value_sums``), when already known.
     """
     if not predictors:
         return ()
     refs = references if references is not None else shift_references(frame, predictors)
-    means, centre = _mean_pass(frame, predictors, refs)
-    sums = _sums_pass(frame, predictors, refs, means, centre)
+    if sums is None:
+        sums = value_sums(frame, predictors, refs)
     distinct = _distinct_counts(frame, predictors, refs)
     fits = []
     for i, predictor in enumerate(predictors):
-        x_mean, y_mean = centre.get(i, (None, None))
+        centred = _centred(sums, refs, i) or dict.fromkeys(
+            ("x_mean", "y_mean", "sxx", "sxy", "syy", "sse")
+        )
         fits.append(
             fit_from_sums(
                 predictor,
                 n=int(refs[f"n{i}"] or 0),
-                x_mean=x_mean,
-                y_mean=y_mean,
-                sxx=sums.get(f"sxx{i}"),
-                sxy=sums.get(f"sxy{i}"),
-                syy=sums.get(f"syy{i}"),
-                sse=sums.get(f"sse{i}"),
+                **centred,
                 x_min=refs[f"x_min{i}"],
                 x_max=refs[f"x_max{i}"],
                 confidence=confidence,
