@@ -107,6 +107,11 @@ class Measured:
         )
 
 
+ENTRY = (
+    "import sys, briefgen.cli as cli; cli.run() if hasattr(cli, 'run') else sys.exit(cli.main())"
+)
+
+
 def load() -> str:
     return " ".join(Path("/proc/loadavg").read_text().split()[:3])
 
@@ -125,15 +130,17 @@ def measure(
         config = work / "brief.yaml"
         config.write_text(CONFIG.format(path=path, work=work), encoding="utf-8")
         env = dict(os.environ, SOURCE_DATE_EPOCH=BUILT_ON_EPOCH)
-        briefgen = str(Path(python).with_name("briefgen"))
+        # What the installed ``briefgen`` command runs, with the tree on PYTHONPATH: an older
+        # tree (``--before``) has no ``run`` and exits through ``main``, as its command did.
+        briefgen = [python, "-c", ENTRY]
         build, earlier, floor, hand = [], [], [], []
         for round_number in range(1, repeat + 1):
             log(f"{rows:,} {data_format}, round {round_number}/{repeat} (load {load()}): build")
-            build.append(run_child([briefgen, "--quiet", "build", str(config)], env))
+            build.append(run_child([*briefgen, "--quiet", "build", str(config)], env))
             if before is not None:
                 log(f"{rows:,} {data_format}: build with {before}")
                 older = dict(env, PYTHONPATH=str(before))
-                earlier.append(run_child([briefgen, "--quiet", "build", str(config)], older))
+                earlier.append(run_child([*briefgen, "--quiet", "build", str(config)], older))
             log(f"{rows:,} {data_format}: floor")
             floor.append(run_child([python, str(HERE / "floor.py"), str(path)]))
             if with_hand:

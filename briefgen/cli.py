@@ -8,10 +8,14 @@ as plain text, never parsed as console markup.
 from __future__ import annotations
 
 import argparse
+import atexit
+import contextlib
 import datetime as dt
 import logging
+import os
 import signal
 import sys
+import threading
 import time
 from dataclasses import dataclass
 from importlib import resources
@@ -403,5 +407,26 @@ def main(argv: list[str] | None = None) -> int:
     return 0
 
 
+def run() -> None:
+    """The ``briefgen`` command: ``main``, then leave without tearing the modules down.
+
+    After the exit handlers (the engine's temporary folders, a Spark session, logging)
+    and a flush, nothing is left for the interpreter's own shutdown to do but free the
+    modules of pandas, scipy, Ibis, matplotlib and WeasyPrint one object at a time: 0.8
+    to 1.1 s after every build, measured at 10,000 rows (a tenth of a small build).
+    The process's exit frees the same memory at once.
+    """
+    code = main()
+    for thread in threading.enumerate():  # what the interpreter would wait for
+        if thread is not threading.main_thread() and not thread.daemon:
+            thread.join()
+    atexit._run_exitfuncs()
+    for stream in (sys.stdout, sys.stderr):
+        # A closed pipe or stream: nothing more can be said on it.
+        with contextlib.suppress(OSError, ValueError):
+            stream.flush()
+    os._exit(code)
+
+
 if __name__ == "__main__":
-    sys.exit(main())
+    run()

@@ -262,3 +262,41 @@ def test_data_roots_are_enforced_when_set(tmp_path, capsys, monkeypatch):
     assert "BRIEFGEN_DATA_ROOTS" in capsys.readouterr().err
     monkeypatch.setenv("BRIEFGEN_DATA_ROOTS", os.pathsep.join(["/nonexistent", str(tmp_path)]))
     assert main(["check", str(config)]) == 0
+
+
+@pytest.mark.parametrize("good", [True, False])
+def test_the_command_runs_exit_handlers_and_keeps_its_exit_code(tmp_path, good):
+    """``briefgen`` skips the interpreter's module teardown, never the exit handlers.
+
+    A handler registered before the command runs must still run (temporary folders,
+    Spark sessions and logging close through them), output must reach the pipe, and
+    the exit code must be the command's: 0 for a build, 2 for a missing config.
+    """
+    import subprocess
+    import sys
+
+    config = _write_case(tmp_path) if good else tmp_path / "missing.yaml"
+    script = (
+        "import atexit, sys\n"
+        "atexit.register(lambda: print('handler ran', flush=True))\n"
+        "sys.argv = ['briefgen', 'build', sys.argv[1]]\n"
+        "from briefgen.cli import run\n"
+        "run()\n"
+    )
+    scratch = tmp_path / "scratch"
+    scratch.mkdir()
+    done = subprocess.run(
+        [sys.executable, "-c", script, str(config)],
+        capture_output=True,
+        text=True,
+        timeout=300,
+        env=dict(os.environ, TMPDIR=str(scratch)),
+    )
+    assert not list(scratch.iterdir())  # the engine's working folder went with the process
+    assert done.returncode == (0 if good else 2)
+    assert done.stdout.rstrip().endswith("handler ran")
+    if good:
+        assert "brief built" in done.stdout
+        assert any(tmp_path.rglob("brief.html"))
+    else:
+        assert "config file not found" in done.stderr
