@@ -23,8 +23,8 @@ from dataclasses import dataclass
 from fractions import Fraction
 
 import ibis.expr.types as ir
-from scipy import stats as scipy_stats
 
+from briefgen.stats.core.distributions import norm_ppf, t_sf
 from briefgen.stats.core.exact import FixedPoint, exact_sum, value_of
 from briefgen.stats.core.ranking import (
     counting_pays,
@@ -113,7 +113,7 @@ def fisher_interval(
         # A perfect sample correlation: atanh is infinite and the interval collapses.
         return r, r
     z = math.atanh(r)
-    half = scipy_stats.norm.ppf(0.5 + confidence / 2) / math.sqrt(n - 3)
+    half = norm_ppf(0.5 + confidence / 2) / math.sqrt(n - 3)
     return math.tanh(z - half), math.tanh(z + half)
 
 
@@ -125,7 +125,7 @@ def correlation_p_value(r: float | None, n: int) -> float | None:
         return 0.0
     dof = n - 2
     t = r * math.sqrt(dof / ((1.0 + r) * (1.0 - r)))
-    return float(2.0 * scipy_stats.t.sf(abs(t), dof))
+    return float(2.0 * t_sf(abs(t), dof))
 
 
 def _ranked_rows(rows: ir.Table, n: int, distinct: dict[str, float | None]) -> tuple:

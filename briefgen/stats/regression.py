@@ -19,9 +19,9 @@ from dataclasses import dataclass
 from fractions import Fraction
 
 import ibis.expr.types as ir
-from scipy import stats as scipy_stats
 
 from briefgen.stats.core.analysis import one_row
+from briefgen.stats.core.distributions import t_ppf, t_sf
 from briefgen.stats.core.exact import FixedPoint, exact_sum, value_of
 from briefgen.stats.core.references import shift_references
 
@@ -64,12 +64,12 @@ class RegressionFit:
             return None
         if self.slope_se == 0:  # an exact line: any slope but 0 is certain
             return 0.0 if self.slope else 1.0
-        return float(2 * scipy_stats.t.sf(abs(self.slope / self.slope_se), self.n - 2))
+        return float(2 * t_sf(abs(self.slope / self.slope_se), self.n - 2))
 
     def band(self, x: float, confidence: float) -> tuple[float, float]:
         """Confidence interval of the fitted mean at ``x``."""
         fitted = self.intercept + self.slope * x
-        t = float(scipy_stats.t.ppf(0.5 + confidence / 2, self.n - 2))
+        t = float(t_ppf(0.5 + confidence / 2, self.n - 2))
         half = t * self.residual_sd * math.sqrt(1 / self.n + (x - self.x_mean) ** 2 / self.sxx)
         return fitted - half, fitted + half
 
@@ -257,7 +257,7 @@ def fit_from_sums(
     residual_sd = math.sqrt(max(sse, 0.0) / (n - 2))
     slope_se = residual_sd / math.sqrt(sxx)
     intercept_se = residual_sd * math.sqrt(1 / n + x_mean * x_mean / sxx)
-    t = float(scipy_stats.t.ppf(0.5 + confidence / 2, n - 2))
+    t = float(t_ppf(0.5 + confidence / 2, n - 2))
     return RegressionFit(
         **base,
         slope=slope,

@@ -24,8 +24,8 @@ from typing import TYPE_CHECKING, ClassVar
 import ibis
 import ibis.expr.types as ir
 import pyarrow as pa
-from scipy import stats as scipy_stats
 
+from briefgen.stats.core.distributions import f_sf, t_ppf, t_sf
 from briefgen.stats.core.exact import FixedPoint, exact_sum, quantise, value_of
 from briefgen.stats.core.references import shift_references
 from briefgen.stats.correlation import Correlation, centred_sums, correlate
@@ -319,8 +319,8 @@ def _common_slope_inference(
     se = math.sqrt(sse / df / pooled_sxx)
     if se <= 0:
         return se, common_slope, common_slope, 0.0 if common_slope else 1.0
-    half = float(scipy_stats.t.ppf(0.5 + confidence / 2, df)) * se
-    p_value = float(2 * scipy_stats.t.sf(abs(common_slope / se), df))
+    half = float(t_ppf(0.5 + confidence / 2, df)) * se
+    p_value = float(2 * t_sf(abs(common_slope / se), df))
     return se, common_slope - half, common_slope + half, p_value
 
 
@@ -351,7 +351,7 @@ def _parallel_test(
         logger.debug("separate lines fit every level exactly; no F-test")
         return common_slope, None, None, None, None
     f_statistic = (extra / df_between) / (sse_separate / df_within)
-    p_value = float(scipy_stats.f.sf(f_statistic, df_between, df_within))
+    p_value = float(f_sf(f_statistic, df_between, df_within))
     return common_slope, f_statistic, df_between, df_within, p_value
 
 

@@ -16,7 +16,7 @@ from collections.abc import Sequence
 from fractions import Fraction
 from typing import Protocol
 
-from scipy import stats as scipy_stats
+from briefgen.stats.core.distributions import t_ppf
 
 
 class Anchored(Protocol):
@@ -77,7 +77,7 @@ def moments_from_shifted(
 
 def t_quantile(confidence: float, df: float) -> float:
     """Two-sided Student t quantile for ``confidence`` on ``df`` degrees of freedom."""
-    return float(scipy_stats.t.ppf(0.5 + confidence / 2, df))
+    return float(t_ppf(0.5 + confidence / 2, df))
 
 
 def t_interval(
