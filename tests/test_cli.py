@@ -264,24 +264,31 @@ def test_data_roots_are_enforced_when_set(tmp_path, capsys, monkeypatch):
     assert main(["check", str(config)]) == 0
 
 
-@pytest.mark.parametrize("good", [True, False])
-def test_the_command_runs_exit_handlers_and_keeps_its_exit_code(tmp_path, good):
+@pytest.mark.parametrize("good, pool", [(True, False), (False, False), (True, True)])
+def test_the_command_runs_exit_handlers_and_keeps_its_exit_code(tmp_path, good, pool):
     """``briefgen`` skips the interpreter's module teardown, never the exit handlers.
 
     A handler registered before the command runs must still run (temporary folders,
     Spark sessions and logging close through them), output must reach the pipe, and
-    the exit code must be the command's: 0 for a build, 2 for a missing config.
+    the exit code must be the command's: 0 for a build, 2 for a missing config. With
+    a thread pool still alive (as a Spark Connect client leaves one) the command must
+    still end: joining its idle worker without telling the pool to stop hung.
     """
     import subprocess
     import sys
 
     config = _write_case(tmp_path) if good else tmp_path / "missing.yaml"
     script = (
-        "import atexit, sys\n"
-        "atexit.register(lambda: print('handler ran', flush=True))\n"
-        "sys.argv = ['briefgen', 'build', sys.argv[1]]\n"
-        "from briefgen.cli import run\n"
-        "run()\n"
+        "import atexit, sys, concurrent.futures\n"
+        + (
+            "pool = concurrent.futures.ThreadPoolExecutor(1)\npool.submit(int).result()\n"
+            if pool
+            else ""
+        )
+        + "atexit.register(lambda: print('handler ran', flush=True))\n"
+        + "sys.argv = ['briefgen', 'build', sys.argv[1]]\n"
+        + "from briefgen.cli import run\n"
+        + "run()\n"
     )
     scratch = tmp_path / "scratch"
     scratch.mkdir()
