@@ -16,8 +16,14 @@ from statsmodels.stats.weightstats import CompareMeans
 
 from briefgen.stats import ranks
 from briefgen.stats.compare import compare_groups
-from briefgen.stats.core.summary import summarise_levels
-from briefgen.stats.ranks import kruskal_wallis, rank_sums, rank_test, within_level_skewness
+from briefgen.stats.core.summary import summarise, summarise_levels
+from briefgen.stats.ranks import (
+    kruskal_wallis,
+    pooled_skewness,
+    rank_sums,
+    rank_test,
+    within_level_skewness,
+)
 from briefgen.stats.welch import classical_anova, holm, welch_anova, welch_pair
 
 RELATIVE = 1e-10  # both sides compute in float64 from the same few dozen values
@@ -192,22 +198,45 @@ def test_kruskal_wallis_with_ties_matches_scipy(engine_table):
     assert result.p_value == pytest.approx(reference.pvalue, rel=1e-9)
 
 
-def test_skewness_of_residuals_matches_scipy(engine_table):
-    table, summaries = _prepared(engine_table, TIED_THREE)
-    result = within_level_skewness(table, {s.level: s.mean for s in summaries})
+def _skewness(engine_table, groups: dict[str, list[float]], how: str) -> float | None:
+    """The within-level skewness by its own query, or from the summaries' pass (a brief's way)."""
+    table, summaries = _prepared(engine_table, groups)
+    if how == "query":
+        return within_level_skewness(table, {s.level: s.mean for s in summaries})
+    keyed = summarise(table, ["level"], 0.95, third_moments=True)
+    return pooled_skewness(keyed.centred[(s.level,)] for s in summaries)
+
+
+@pytest.mark.parametrize("how", ["query", "summaries"])
+def test_skewness_of_residuals_matches_scipy(engine_table, how):
+    result = _skewness(engine_table, TIED_THREE, how)
     residuals = np.concatenate([np.subtract(v, np.mean(v)) for v in TIED_THREE.values()])
     # reference: scipy.stats.skew(bias=True), the sample skewness g1
     assert result == pytest.approx(scipy_stats.skew(residuals, bias=True), rel=1e-12)
 
 
-def test_skewness_survives_a_large_offset(engine_table):
+@pytest.mark.parametrize("how, rel", [("query", 1e-6), ("summaries", 1e-12)])
+def test_skewness_survives_a_large_offset(engine_table, how, rel):
     shifted = {level: [1e12 + v for v in values] for level, values in TIED_THREE.items()}
-    table, summaries = _prepared(engine_table, shifted)
-    result = within_level_skewness(table, {s.level: s.mean for s in summaries})
+    result = _skewness(engine_table, shifted, how)
     residuals = np.concatenate([np.subtract(v, np.mean(v)) for v in TIED_THREE.values()])
     # reference: scipy.stats.skew(bias=True) on the unshifted data (skewness ignores offsets);
-    # the data are integers, exactly representable at 1e12, so only the means round.
-    assert result == pytest.approx(scipy_stats.skew(residuals, bias=True), rel=1e-6)
+    # the data are integers, exactly representable at 1e12. The query's rounded level means
+    # cost it digits there; the summaries centre each level exactly.
+    assert result == pytest.approx(scipy_stats.skew(residuals, bias=True), rel=rel)
+
+
+def test_skewed_lognormal_levels_agree_both_ways(engine_table):
+    """Constructed: strongly skewed levels of unequal size, where the choice of test turns."""
+    rng = np.random.default_rng(11)
+    groups = {name: list(rng.lognormal(0, 1.5, size)) for name, size in (("a", 300), ("b", 45))}
+    by_query = _skewness(engine_table, groups, "query")
+    residuals = np.concatenate([np.subtract(v, np.mean(v)) for v in groups.values()])
+    # reference: scipy.stats.skew(bias=True)
+    assert _skewness(engine_table, groups, "summaries") == pytest.approx(
+        scipy_stats.skew(residuals, bias=True), rel=1e-12
+    )
+    assert by_query == pytest.approx(scipy_stats.skew(residuals, bias=True), rel=1e-12)
 
 
 def test_strong_skew_leans_on_the_rank_test(engine_table):

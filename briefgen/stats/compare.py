@@ -30,14 +30,22 @@ levels use deviations from one common reference, the first level's median.
 from __future__ import annotations
 
 import logging
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from fractions import Fraction
 
 import ibis.expr.types as ir
 
 from briefgen.stats.core.shifted import deviations, pooled_mean
 from briefgen.stats.core.summary import Summary
-from briefgen.stats.ranks import STRONG_SKEW, RankTest, lean_on, rank_test, within_level_skewness
+from briefgen.stats.ranks import (
+    STRONG_SKEW,
+    RankTest,
+    lean_on,
+    pooled_skewness,
+    rank_test,
+    within_level_skewness,
+)
 from briefgen.stats.welch import (
     ClassicalAnova,
     PairwiseComparison,
@@ -236,12 +244,15 @@ def compare_groups(
     *,
     variable: str | None = None,
     fold: str | None = None,
+    centred: Mapping[object, tuple[int, Fraction, Fraction]] | None = None,
 ) -> GroupComparison | None:
     """Compare the target across levels; None when fewer than two levels have n ≥ 2.
 
     ``levels_table`` has columns ``level`` and ``y``; ``summaries`` come from
     ``summarise_levels`` on the same table. ``fold`` is the label of the folded
     levels, if any, which is tested like a level but never made the reference.
+    ``centred``: each level's centred sums of squares and cubes, when the summaries'
+    pass took them (``summarise(..., third_moments=True)``); else a query takes them.
     """
     tested = [s for s in summaries if s.n >= 2 and s.mean is not None and s.sd is not None]
     tested_names = {s.level for s in tested}
@@ -256,11 +267,14 @@ def compare_groups(
     welch, undefined_reason, (test, statistic, df1, df2, p_value) = _overall_welch(
         tested, pairwise, notes
     )
-    skewness = within_level_skewness(
-        levels_table,
-        {s.level: s.mean for s in tested},
-        {s.level: (s.min, s.max, s.n) for s in tested},
-    )
+    if centred is not None:
+        skewness = pooled_skewness(centred[s.level] for s in tested)
+    else:
+        skewness = within_level_skewness(
+            levels_table,
+            {s.level: s.mean for s in tested},
+            {s.level: (s.min, s.max, s.n) for s in tested},
+        )
     strongly_skewed = skewness is not None and abs(skewness) > STRONG_SKEW
     # Ranks are defined with ties, so the rank test stands in when Welch's cannot run.
     needs_ranks = strongly_skewed or undefined_reason is not None

@@ -71,7 +71,8 @@ class GroupAnalysis:
     def __call__(self, frame: AnalysisFrame) -> GroupResult:
         column = frame.group_column(self.variable)
         table = frame.table.select(level=frame.table[column], y=frame.table.y)
-        result = summarise(table, ["level"], self.confidence)
+        # The skewness the comparison needs comes from the same pass (a query fewer).
+        result = summarise(table, ["level"], self.confidence, third_moments=not frame.binary)
         without = result.summaries.get((None,))
         summaries = tuple(s for key, s in result.summaries.items() if key[0] is not None)
         shown = frame.shown[self.variable]
@@ -97,6 +98,7 @@ class GroupAnalysis:
                 self.confidence,
                 variable=self.variable,
                 fold=shown.other_label,
+                centred={key[0]: sums for key, sums in result.centred.items()},
             )
         used = sum(s.n for s in ordered)
         return GroupResult(

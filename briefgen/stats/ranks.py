@@ -17,8 +17,9 @@ from __future__ import annotations
 
 import logging
 import math
-from collections.abc import Mapping, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, replace
+from fractions import Fraction
 from itertools import combinations
 
 import ibis
@@ -255,6 +256,24 @@ def lean_on(skewness: float | None, ranks: RankTest | None, *, welch_runs: bool)
     if not rank_defined:
         return "welch", "strongly skewed, but the rank test is undefined (all values tied)"
     return "rank", f"residuals strongly skewed (|skewness| {abs(skewness):.2f} > 1)"
+
+
+def pooled_skewness(centred: Iterable[tuple[int, Fraction, Fraction]]) -> float | None:
+    """Sample skewness g1 of the residuals y − (mean of its level), from each level's
+    (n, Σ(y − ȳ)², Σ(y − ȳ)³) (``summarise(..., third_moments=True)``): no query.
+
+    The residuals of every level have mean 0, so g1 = (ΣS3/N) / (ΣS2/N)^1.5. None
+    with fewer than three values or no spread at all, as ``within_level_skewness``.
+    """
+    levels = list(centred)
+    n = sum(level[0] for level in levels)
+    if n < 3:
+        return None
+    m2 = sum((level[1] for level in levels), Fraction(0)) / n
+    m3 = sum((level[2] for level in levels), Fraction(0)) / n
+    if m2 <= 0:
+        return None
+    return float(m3) / float(m2) ** 1.5
 
 
 def within_level_skewness(

@@ -17,7 +17,8 @@ from __future__ import annotations
 
 import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+from fractions import Fraction
 
 import ibis
 import ibis.expr.types as ir
@@ -160,18 +161,32 @@ def _joined(table: ir.Table, quartiles: ir.Table, keys: Sequence[str]) -> ir.Tab
 
 
 def shifted_moments(
-    table: ir.Table, quartiles: ir.Table, keys: Sequence[str], axis: tuple[float, float]
+    table: ir.Table,
+    quartiles: ir.Table,
+    keys: Sequence[str],
+    axis: tuple[float, float],
+    cubes: bool = False,
 ) -> ir.Table:
     """Pass 2: sums of deviations from the median, whiskers and outlier counts per key.
 
     ``quartiles`` carries each key's fixed-point ``scale`` (2^k, see ``deviation_scale``);
-    ``sum_d`` and ``sum_d2`` are exact integer sums of the scaled deviations.
+    ``sum_d`` and ``sum_d2`` are exact integer sums of the scaled deviations. With
+    ``cubes``, also ``sum_d3``, Σ d²·d with d² quantised on the key's ``square_scale``
+    (a product of two fixed-point values keeps the bits of a square, where a cube of one
+    would keep a third of the budget each).
     """
     joined = _joined(table, quartiles, keys)
-    deviation = quantise(joined.y - joined.median, joined.scale)
+    difference = joined.y - joined.median
+    deviation = quantise(difference, joined.scale)
+    if cubes:
+        square = quantise(difference * difference, joined.square_scale)
+        third = {"sum_d3": exact_sum(square * deviation)}
+    else:
+        third = {}
     reach = WHISKER_REACH * (joined.q3 - joined.q1)
     low_fence, high_fence = joined.q1 - reach, joined.q3 + reach
     return joined.group_by(list(keys)).aggregate(
+        **third,
         sum_d=exact_sum(deviation),
         sum_d2=exact_sum(deviation * deviation),
         whisker_low=joined.y.min(where=joined.y >= low_fence),
@@ -189,6 +204,16 @@ def deviation_scale(first: dict) -> FixedPoint:
     if not first["n"] or first["median"] is None:
         return FixedPoint.fit(0.0, 0)
     return FixedPoint.around(first["median"], first["min"], first["max"], int(first["n"]))
+
+
+def square_scale(first: dict) -> FixedPoint:
+    """Fixed-point scale of one key's squared deviations from its median."""
+    if not first["n"] or first["median"] is None:
+        return FixedPoint.fit(0.0, 0)
+    median, low, high = first["median"], first["min"], first["max"]
+    # Float subtraction is monotone: no deviation lies beyond those of the min and max.
+    bound = max(high - median, median - low)
+    return FixedPoint.fit(bound * bound, int(first["n"]))
 
 
 def extreme_outliers(
@@ -219,21 +244,32 @@ def extreme_outliers(
 
 @dataclass(frozen=True, slots=True)
 class KeyedSummaries:
-    """Summaries (and boxes, when asked for) of ``y`` per key tuple, in key order."""
+    """Summaries (and boxes, when asked for) of ``y`` per key tuple, in key order.
+
+    ``centred``, when asked for: per key (n, Σ(y − mean)², Σ(y − mean)³) as exact
+    ``Fraction``s (the cube sum from quantised squares), for the skewness of residuals.
+    """
 
     keys: tuple[str, ...]
     summaries: dict[Key, Summary]
     boxes: dict[Key, BoxStats]
+    centred: dict[Key, tuple[int, Fraction, Fraction]] = field(default_factory=dict)
 
 
 def summarise(
-    table: ir.Table, keys: Sequence[str], confidence: float, list_outliers: bool = True
+    table: ir.Table,
+    keys: Sequence[str],
+    confidence: float,
+    list_outliers: bool = True,
+    third_moments: bool = False,
 ) -> KeyedSummaries:
     """Summaries and boxes of ``y`` for every combination of the ``keys`` columns.
 
     ``list_outliers=False`` skips the query that fetches the most extreme values, for
-    callers that draw no box plot (two-way cells, periods). A key tuple with a
-    missing part is summarised like any other.
+    callers that draw no box plot (two-way cells, periods). ``third_moments`` adds the
+    centred sums of squares and cubes per key (``KeyedSummaries.centred``) to the same
+    pass, for the group comparison's skewness of residuals. A key tuple with a missing
+    part is summarised like any other.
     """
     keys = list(keys)
     pass1_arrow = order_statistics(table, keys)
@@ -241,19 +277,29 @@ def summarise(
     # Later passes join this small result back as a literal table, so the engine does not
     # recompute the quantiles (a sort per key) inside every later query.
     scales = [deviation_scale(row) for row in pass1]
-    quartiles = ibis.memtable(
-        pass1_arrow.select([*keys, *QUARTILES]).append_column(
-            "scale", pa.array([scale.factor for scale in scales], pa.float64())
-        )
+    quartiles_arrow = pass1_arrow.select([*keys, *QUARTILES]).append_column(
+        "scale", pa.array([scale.factor for scale in scales], pa.float64())
     )
+    squares = [square_scale(row) for row in pass1] if third_moments else []
+    if third_moments:
+        factors = pa.array([scale.factor for scale in squares], pa.float64())
+        quartiles_arrow = quartiles_arrow.append_column("square_scale", factors)
+    quartiles = ibis.memtable(quartiles_arrow)
     scale_of = {
         tuple(row[k] for k in keys): scale for row, scale in zip(pass1, scales, strict=True)
     }
     axis = axis_range(pass1)
     pass2 = {
         tuple(row[k] for k in keys): row
-        for row in shifted_moments(table, quartiles, keys, axis).to_pyarrow().to_pylist()
+        for row in shifted_moments(table, quartiles, keys, axis, third_moments)
+        .to_pyarrow()
+        .to_pylist()
     }
+    centred = {}
+    for row, square in zip(pass1, squares, strict=True) if third_moments else ():
+        key = tuple(row[k] for k in keys)
+        if key in pass2 and row["n"]:
+            centred[key] = _centred_powers(int(row["n"]), pass2[key], scale_of[key], square)
     extremes = extreme_outliers(table, quartiles, keys) if list_outliers else {}
     summaries, boxes = {}, {}
     for first in sorted(pass1, key=lambda r: tuple((r[k] is None, r[k]) for k in keys)):
@@ -265,7 +311,21 @@ def summarise(
         summaries[key] = summary
         if box is not None:
             boxes[key] = box
-    return KeyedSummaries(tuple(keys), summaries, boxes)
+    return KeyedSummaries(tuple(keys), summaries, boxes, centred)
+
+
+def _centred_powers(
+    n: int, second: dict, scale: FixedPoint, square: FixedPoint
+) -> tuple[int, Fraction, Fraction]:
+    """(n, Σ(y − ȳ)², Σ(y − ȳ)³) from the sums of d = y − median, d² and d²·d.
+
+    With m = Σd/n, exactly: Σ(d − m)² = Σd² − n·m² and Σ(d − m)³ = Σd³ − 3m·Σd² + 2n·m³.
+    """
+    s1 = value_of(second["sum_d"], scale)
+    s2 = value_of(second["sum_d2"], scale, scale)
+    s3 = value_of(second["sum_d3"], square, scale)
+    m = s1 / n
+    return n, s2 - n * m * m, s3 - 3 * m * s2 + 2 * n * m**3
 
 
 def summarise_levels(
