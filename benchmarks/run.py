@@ -132,7 +132,9 @@ def measure(
         env = dict(os.environ, SOURCE_DATE_EPOCH=BUILT_ON_EPOCH)
         # What the installed ``briefgen`` command runs, with the tree on PYTHONPATH: an older
         # tree (``--before``) has no ``run`` and exits through ``main``, as its command did.
-        briefgen = [python, "-c", ENTRY]
+        # -P: without it ``-c`` puts the working folder first on sys.path, and run from a
+        # checkout that folder's package would shadow the ``--before`` tree.
+        briefgen = [python, "-P", "-c", ENTRY]
         build, earlier, floor, hand = [], [], [], []
         for round_number in range(1, repeat + 1):
             log(f"{rows:,} {data_format}, round {round_number}/{repeat} (load {load()}): build")
