@@ -25,7 +25,7 @@ from fractions import Fraction
 import ibis.expr.types as ir
 
 from briefgen.stats.core.distributions import norm_ppf, t_sf
-from briefgen.stats.core.exact import FixedPoint, exact_sum, value_of
+from briefgen.stats.core.exact import FixedPoint, pair_sums, pair_values
 from briefgen.stats.core.ranking import (
     counting_pays,
     doubled_average_rank,
@@ -189,23 +189,11 @@ def centred_sums(
         )
         sums = {}
         for kind in ("value", "rank"):
-            dx, dy = shifted[f"{kind}_x"], shifted[f"{kind}_y"]
-            sums |= {
-                f"{kind}_sx": exact_sum(dx),
-                f"{kind}_sy": exact_sum(dy),
-                f"{kind}_sxx": exact_sum(dx * dx),
-                f"{kind}_sxy": exact_sum(dx * dy),
-                f"{kind}_syy": exact_sum(dy * dy),
-            }
+            sums |= pair_sums(shifted[f"{kind}_x"], shifted[f"{kind}_y"], f"{kind}_")
         totals = shifted.aggregate(**sums).to_pyarrow().to_pylist()[0]
         for kind, (scale_x, scale_y) in scales.items():
-            exact |= {
-                f"{kind}_sx{i}": value_of(totals[f"{kind}_sx"], scale_x),
-                f"{kind}_sy{i}": value_of(totals[f"{kind}_sy"], scale_y),
-                f"{kind}_sxx{i}": value_of(totals[f"{kind}_sxx"], scale_x, scale_x),
-                f"{kind}_sxy{i}": value_of(totals[f"{kind}_sxy"], scale_x, scale_y),
-                f"{kind}_syy{i}": value_of(totals[f"{kind}_syy"], scale_y, scale_y),
-            }
+            values = pair_values(totals, f"{kind}_", scale_x, scale_y)
+            exact |= {f"{kind}_{name}{i}": value for name, value in values.items()}
     return exact
 
 

@@ -22,7 +22,7 @@ import ibis.expr.types as ir
 
 from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.distributions import t_ppf, t_sf
-from briefgen.stats.core.exact import FixedPoint, exact_sum, value_of
+from briefgen.stats.core.exact import FixedPoint, pair_sums, pair_values
 from briefgen.stats.core.references import shift_references
 
 
@@ -92,23 +92,12 @@ def value_sums(frame: ir.Table, predictors: list[str], refs: dict) -> dict[str, 
         # Null outside the rows with both values: the bounds hold only over those.
         qx = scale_x.quantise(x - refs[f"x_ref{i}"], both)
         qy = scale_y.quantise(y - refs[f"y_ref{i}"], both)
-        sums_expr |= {
-            f"sx{i}": exact_sum(qx),
-            f"sy{i}": exact_sum(qy),
-            f"sxx{i}": exact_sum(qx * qx),
-            f"sxy{i}": exact_sum(qx * qy),
-            f"syy{i}": exact_sum(qy * qy),
-        }
+        sums_expr |= pair_sums(qx, qy, f"p{i}_")
     totals = one_row(frame, sums_expr)
     exact = {}
     for i, (scale_x, scale_y) in scales.items():
-        exact |= {
-            f"value_sx{i}": value_of(totals[f"sx{i}"], scale_x),
-            f"value_sy{i}": value_of(totals[f"sy{i}"], scale_y),
-            f"value_sxx{i}": value_of(totals[f"sxx{i}"], scale_x, scale_x),
-            f"value_sxy{i}": value_of(totals[f"sxy{i}"], scale_x, scale_y),
-            f"value_syy{i}": value_of(totals[f"syy{i}"], scale_y, scale_y),
-        }
+        values = pair_values(totals, f"p{i}_", scale_x, scale_y)
+        exact |= {f"value_{name}{i}": value for name, value in values.items()}
     return exact
 
 

@@ -26,7 +26,12 @@ import ibis.expr.types as ir
 import pyarrow as pa
 
 from briefgen.stats.core.distributions import f_sf, t_ppf, t_sf
-from briefgen.stats.core.exact import FixedPoint, exact_sum, quantise, value_of
+from briefgen.stats.core.exact import (
+    FixedPoint,
+    pair_sums,
+    pair_values,
+    quantise,
+)
 from briefgen.stats.core.references import shift_references
 from briefgen.stats.correlation import Correlation, centred_sums, correlate
 from briefgen.stats.regression import RegressionFit, fit_from_sums, fit_lines
@@ -231,13 +236,7 @@ def level_sums(
         has = joined[f"_x{i}"].notnull()
         dx = quantise(joined[f"_x{i}"] - joined[f"x_ref{i}"], joined[f"x_scale{i}"], has)
         dy = quantise(joined.y - joined[f"y_ref{i}"], joined[f"y_scale{i}"], has)
-        sums |= {
-            f"sum_dx{i}": exact_sum(dx),
-            f"sum_dy{i}": exact_sum(dy),
-            f"sum_dxx{i}": exact_sum(dx * dx),
-            f"sum_dxy{i}": exact_sum(dx * dy),
-            f"sum_dyy{i}": exact_sum(dy * dy),
-        }
+        sums |= pair_sums(dx, dy, f"p{i}_")
     totals = {
         str(row["level"]): row
         for row in joined.group_by("level").aggregate(**sums).to_pyarrow().to_pylist()
@@ -249,13 +248,8 @@ def level_sums(
             level, n = str(row["level"]), int(row[f"n{i}"] or 0)
             if not n:  # no row of this level has the predictor
                 continue
-            total = totals[level]
-            scale_x, scale_y = scales[(level, i)]
-            sum_dx = value_of(total[f"sum_dx{i}"], scale_x)
-            sum_dy = value_of(total[f"sum_dy{i}"], scale_y)
-            sum_dxx = value_of(total[f"sum_dxx{i}"], scale_x, scale_x)
-            sum_dxy = value_of(total[f"sum_dxy{i}"], scale_x, scale_y)
-            sum_dyy = value_of(total[f"sum_dyy{i}"], scale_y, scale_y)
+            sums_of = pair_values(totals[level], f"p{i}_", *scales[(level, i)])
+            sum_dx, sum_dy = sums_of["sx"], sums_of["sy"]
             # Exact centring: the sums are exact, so nothing cancels; one rounding each.
             result[column].append(
                 {
@@ -265,9 +259,9 @@ def level_sums(
                     "y_mean": row[f"y_ref{i}"] + float(sum_dy / n),
                     "x_min": row[f"x_min{i}"],
                     "x_max": row[f"x_max{i}"],
-                    "sxx": float(sum_dxx - sum_dx * sum_dx / n),
-                    "sxy": float(sum_dxy - sum_dx * sum_dy / n),
-                    "syy": float(sum_dyy - sum_dy * sum_dy / n),
+                    "sxx": float(sums_of["sxx"] - sum_dx * sum_dx / n),
+                    "sxy": float(sums_of["sxy"] - sum_dx * sum_dy / n),
+                    "syy": float(sums_of["syy"] - sum_dy * sum_dy / n),
                 }
             )
     return result

@@ -146,3 +146,24 @@ def value_of(total: Decimal | int | None, *scales: FixedPoint) -> Fraction:
     if exponent >= 0:
         return Fraction(integer, 1 << exponent)
     return Fraction(integer << -exponent)
+
+
+# The five sums a straight line or a correlation needs from a pair of deviations.
+PAIR_SUMS = ("sx", "sy", "sxx", "sxy", "syy")
+
+
+def pair_sums(dx: ir.NumericValue, dy: ir.NumericValue, tag: str) -> dict[str, ir.DecimalScalar]:
+    """Exact Σdx, Σdy, Σdx², Σdx·dy, Σdy² of two quantised deviations, named ``tag`` + sum."""
+    products = (dx, dy, dx * dx, dx * dy, dy * dy)
+    return {f"{tag}{name}": exact_sum(term) for name, term in zip(PAIR_SUMS, products, strict=True)}
+
+
+def pair_values(
+    totals: dict, tag: str, scale_x: FixedPoint, scale_y: FixedPoint
+) -> dict[str, Fraction]:
+    """The real values of ``pair_sums``' totals, by sum name (``sx`` … ``syy``), exact."""
+    scales = ((scale_x,), (scale_y,), (scale_x, scale_x), (scale_x, scale_y), (scale_y, scale_y))
+    return {
+        name: value_of(totals[f"{tag}{name}"], *factors)
+        for name, factors in zip(PAIR_SUMS, scales, strict=True)
+    }
