@@ -256,7 +256,7 @@ def test_fits_from_the_correlations_sums_are_the_fits_of_their_own_pass(engine_t
     references = shift_references(table, ["x0", "x1"])
     shared = centred_sums(table, ["x0", "x1"], references)
     own = value_sums(table, ["x0", "x1"], references)
-    assert own == {key: value for key, value in shared.items() if key.startswith("value_")}
+    assert own == {key: value for key, value in shared.items() if key.startswith("value")}
     assert fit_lines(table, ["x0", "x1"], 0.95, references, shared) == fit_lines(
         table, ["x0", "x1"], 0.95
     )

@@ -25,7 +25,7 @@ from fractions import Fraction
 import ibis.expr.types as ir
 
 from briefgen.stats.core.distributions import norm_ppf, t_sf
-from briefgen.stats.core.exact import FixedPoint, pair_sums, pair_values
+from briefgen.stats.core.exact import FixedPoint, centred_pair, pair_sums, pair_values
 from briefgen.stats.core.ranking import (
     counting_pays,
     doubled_average_rank,
@@ -65,7 +65,7 @@ def correlate(
     names: list[str],
     confidence: float,
     references: dict | None = None,
-    sums: dict[str, Fraction] | None = None,
+    sums: dict[str, dict[str, Fraction]] | None = None,
 ) -> tuple[Correlation, ...]:
     """Pearson and Spearman correlation of ``y`` with each predictor column.
 
@@ -125,7 +125,7 @@ def correlation_p_value(r: float | None, n: int) -> float | None:
         return 0.0
     dof = n - 2
     t = r * math.sqrt(dof / ((1.0 + r) * (1.0 - r)))
-    return float(2.0 * t_sf(abs(t), dof))
+    return 2.0 * t_sf(abs(t), dof)
 
 
 def _ranked_rows(rows: ir.Table, n: int, distinct: dict[str, float | None]) -> tuple:
@@ -151,8 +151,8 @@ def _ranked_rows(rows: ir.Table, n: int, distinct: dict[str, float | None]) -> t
 
 def centred_sums(
     frame: ir.Table, predictors: list[str], references: dict[str, float | int | None]
-) -> dict[str, Fraction]:
-    """Pass 2: centred sums of values and of average ranks, one query per predictor.
+) -> dict[str, dict[str, Fraction]]:
+    """Pass 2: sums of values and of average ranks (``value{i}``, ``rank{i}``), a query each predictor.
 
     The value sums are the integers ``briefgen.stats.regression.value_sums`` takes, so
     the line fits read them from here instead of a pass of their own.
@@ -192,22 +192,18 @@ def centred_sums(
             sums |= pair_sums(shifted[f"{kind}_x"], shifted[f"{kind}_y"], f"{kind}_")
         totals = shifted.aggregate(**sums).to_pyarrow().to_pylist()[0]
         for kind, (scale_x, scale_y) in scales.items():
-            values = pair_values(totals, f"{kind}_", scale_x, scale_y)
-            exact |= {f"{kind}_{name}{i}": value for name, value in values.items()}
+            exact[f"{kind}{i}"] = pair_values(totals, f"{kind}_", scale_x, scale_y)
     return exact
 
 
-def _correlation(sums: dict[str, Fraction], kind: str, i: int, n: int) -> float | None:
+def _correlation(sums: dict[str, dict[str, Fraction]], kind: str, i: int, n: int) -> float | None:
     """r from exact shifted sums: S = Σd² − (Σd)²/n removes what is left of the shift.
 
     The centring and r² = Sxy²/(Sxx·Syy) are exact; r rounds once, at the square root.
     """
     if n < 3:
         return None
-    sx, sy = sums[f"{kind}_sx{i}"], sums[f"{kind}_sy{i}"]
-    sxx = sums[f"{kind}_sxx{i}"] - sx * sx / n
-    syy = sums[f"{kind}_syy{i}"] - sy * sy / n
-    sxy = sums[f"{kind}_sxy{i}"] - sx * sy / n
+    sxx, sxy, syy = centred_pair(sums[f"{kind}{i}"], n)
     if sxx <= 0 or syy <= 0:
         return None
     r = math.copysign(math.sqrt(sxy * sxy / (sxx * syy)), sxy)

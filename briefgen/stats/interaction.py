@@ -124,7 +124,7 @@ def interaction_test(
         return replace(empty, **adjusted)
     ss_interaction = sse_additive - ss_within
     f = (ss_interaction / df_interaction) / (ss_within / df_within)
-    p = float(f_sf(f, df_interaction, df_within))
+    p = f_sf(f, df_interaction, df_within)
     return InteractionTest(scale, len(cells), f, df_interaction, df_within, p, **adjusted)
 
 
@@ -156,7 +156,7 @@ def _given(
         return _UNDEFINED
     ss_effect = max(sse_other - sse_additive, 0.0)
     f = (ss_effect / df_effect) / (sse_additive / df_residual)
-    p = float(f_sf(f, df_effect, df_residual))
+    p = f_sf(f, df_effect, df_residual)
     return AdjustedTest(
         f, df_effect, df_residual, p, ss_effect / ss_alone if ss_alone > 0 else None
     )

@@ -84,7 +84,7 @@ class ProportionComparison:
 
 def normal_quantile(confidence: float) -> float:
     """Two-sided standard normal quantile for ``confidence``."""
-    return float(norm_ppf(0.5 + confidence / 2))
+    return norm_ppf(0.5 + confidence / 2)
 
 
 def wilson_interval(events: int, n: int, confidence: float = 0.95) -> tuple[float, float]:
@@ -130,7 +130,7 @@ def two_proportion_z(
     if variance <= 0:
         return None, None
     z = (events_a / n_a - events_b / n_b) / math.sqrt(variance)
-    return z, float(2 * norm_sf(abs(z)))
+    return z, 2 * norm_sf(abs(z))
 
 
 def chi_square_homogeneity(shares: Sequence[Share]) -> tuple[float | None, int, float | None]:
@@ -148,7 +148,7 @@ def chi_square_homogeneity(shares: Sequence[Share]) -> tuple[float | None, int, 
         ):
             expected = s.n * column_total / total_n
             statistic += (observed - expected) ** 2 / expected
-    return statistic, df, float(chi2_sf(statistic, df))
+    return statistic, df, chi2_sf(statistic, df)
 
 
 def pairwise_shares(shares: Sequence[Share], confidence: float) -> tuple[ShareDifference, ...]:

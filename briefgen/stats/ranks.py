@@ -173,7 +173,7 @@ def mann_whitney(sums: RankSums) -> RankTest:
     z = p_value = None
     if variance > 0:
         z = (abs(doubled_offset) / 2 - 0.5) / math.sqrt(variance)
-        p_value = min(1.0, 2 * float(norm_sf(z)))
+        p_value = min(1.0, 2 * norm_sf(z))
     return RankTest(
         test="mann_whitney", levels=sums.levels, statistic=u1, z=z, df=None, p_value=p_value
     )
@@ -197,7 +197,7 @@ def kruskal_wallis(sums: RankSums) -> RankTest:
     if correction <= 0:
         return RankTest("kruskal_wallis", sums.levels, h, None, df, None)
     h /= correction
-    p_value = float(chi2_sf(h, df))
+    p_value = chi2_sf(h, df)
     return RankTest("kruskal_wallis", sums.levels, h, None, df, p_value)
 
 
@@ -216,7 +216,7 @@ def dunn_pairs(sums: RankSums) -> tuple[RankPair, ...]:
         z = p_value = None
         if scale > 0:
             z = (rank_a - rank_b) / math.sqrt(scale * (1 / sums.counts[i] + 1 / sums.counts[j]))
-            p_value = min(1.0, 2 * float(norm_sf(abs(z))))
+            p_value = min(1.0, 2 * norm_sf(abs(z)))
         pairs.append([sums.levels[i], sums.levels[j], rank_a, rank_b, z, p_value, p_value])
     defined = [k for k, pair in enumerate(pairs) if pair[5] is not None]
     for k, adjusted in zip(defined, holm([pairs[k][5] for k in defined]), strict=True):

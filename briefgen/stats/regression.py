@@ -22,7 +22,7 @@ import ibis.expr.types as ir
 
 from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.distributions import t_ppf, t_sf
-from briefgen.stats.core.exact import FixedPoint, pair_sums, pair_values
+from briefgen.stats.core.exact import FixedPoint, centred_pair, pair_sums, pair_values
 from briefgen.stats.core.references import shift_references
 
 
@@ -64,21 +64,23 @@ class RegressionFit:
             return None
         if self.slope_se == 0:  # an exact line: any slope but 0 is certain
             return 0.0 if self.slope else 1.0
-        return float(2 * t_sf(abs(self.slope / self.slope_se), self.n - 2))
+        return 2 * t_sf(abs(self.slope / self.slope_se), self.n - 2)
 
     def band(self, x: float, confidence: float) -> tuple[float, float]:
         """Confidence interval of the fitted mean at ``x``."""
         fitted = self.intercept + self.slope * x
-        t = float(t_ppf(0.5 + confidence / 2, self.n - 2))
+        t = t_ppf(0.5 + confidence / 2, self.n - 2)
         half = t * self.residual_sd * math.sqrt(1 / self.n + (x - self.x_mean) ** 2 / self.sxx)
         return fitted - half, fitted + half
 
 
-def value_sums(frame: ir.Table, predictors: list[str], refs: dict) -> dict[str, Fraction]:
+def value_sums(
+    frame: ir.Table, predictors: list[str], refs: dict
+) -> dict[str, dict[str, Fraction]]:
     """Exact sums of deviations from the references, one query for every predictor.
 
-    For predictor i, over the rows with both values: ``value_sx{i}``, ``value_sy{i}``,
-    ``value_sxx{i}``, ``value_sxy{i}`` and ``value_syy{i}`` of d = value − reference, as
+    For predictor i, over the rows with both values: ``value{i}``, the sums ``sx``,
+    ``sy``, ``sxx``, ``sxy`` and ``syy`` of d = value − reference (``pair_values``), as
     exact ``Fraction``s (the correlations sum the same integers beside their ranks, so
     the fits can take theirs: ``briefgen.stats.correlation.centred_sums``).
     """
@@ -96,8 +98,7 @@ def value_sums(frame: ir.Table, predictors: list[str], refs: dict) -> dict[str, 
     totals = one_row(frame, sums_expr)
     exact = {}
     for i, (scale_x, scale_y) in scales.items():
-        values = pair_values(totals, f"p{i}_", scale_x, scale_y)
-        exact |= {f"value_{name}{i}": value for name, value in values.items()}
+        exact[f"value{i}"] = pair_values(totals, f"p{i}_", scale_x, scale_y)
     return exact
 
 
@@ -110,7 +111,7 @@ def reference_scales(refs: dict, i: int) -> tuple[FixedPoint, FixedPoint]:
     )
 
 
-def _centred(sums: dict[str, Fraction], refs: dict, i: int) -> dict[str, float] | None:
+def _centred(sums: dict[str, dict[str, Fraction]], refs: dict, i: int) -> dict | None:
     """Means, centred sums Sxx, Sxy, Syy and the SSE of predictor i, from its exact sums.
 
     The sums are exact, so centring (Σd² − (Σd)²/n) and SSE = Syy − Sxy²/Sxx cancel
@@ -119,13 +120,11 @@ def _centred(sums: dict[str, Fraction], refs: dict, i: int) -> dict[str, float] 
     n = int(refs[f"n{i}"] or 0)
     if not n:
         return None
-    sx, sy = sums[f"value_sx{i}"], sums[f"value_sy{i}"]
-    sxx = sums[f"value_sxx{i}"] - sx * sx / n
-    sxy = sums[f"value_sxy{i}"] - sx * sy / n
-    syy = sums[f"value_syy{i}"] - sy * sy / n
+    values = sums[f"value{i}"]
+    sxx, sxy, syy = centred_pair(values, n)
     centred = {
-        "x_mean": refs[f"x_ref{i}"] + float(sx / n),
-        "y_mean": refs[f"y_ref{i}"] + float(sy / n),
+        "x_mean": refs[f"x_ref{i}"] + float(values["sx"] / n),
+        "y_mean": refs[f"y_ref{i}"] + float(values["sy"] / n),
         "sxx": float(sxx),
         "sxy": float(sxy),
         "syy": float(syy),
@@ -141,7 +140,7 @@ def fit_lines(
     predictors: list[str],
     confidence: float,
     references: dict | None = None,
-    sums: dict[str, Fraction] | None = None,
+    sums: dict[str, dict[str, Fraction]] | None = None,
 ) -> tuple[RegressionFit, ...]:
     """Fit ``y`` on each predictor column of ``frame`` (columns already float, NaN as null).
 
@@ -246,7 +245,7 @@ def fit_from_sums(
     residual_sd = math.sqrt(max(sse, 0.0) / (n - 2))
     slope_se = residual_sd / math.sqrt(sxx)
     intercept_se = residual_sd * math.sqrt(1 / n + x_mean * x_mean / sxx)
-    t = float(t_ppf(0.5 + confidence / 2, n - 2))
+    t = t_ppf(0.5 + confidence / 2, n - 2)
     return RegressionFit(
         **base,
         slope=slope,

@@ -28,6 +28,7 @@ import pyarrow as pa
 from briefgen.stats.core.distributions import f_sf, t_ppf, t_sf
 from briefgen.stats.core.exact import (
     FixedPoint,
+    centred_pair,
     pair_sums,
     pair_values,
     quantise,
@@ -249,19 +250,19 @@ def level_sums(
             if not n:  # no row of this level has the predictor
                 continue
             sums_of = pair_values(totals[level], f"p{i}_", *scales[(level, i)])
-            sum_dx, sum_dy = sums_of["sx"], sums_of["sy"]
+            sxx, sxy, syy = centred_pair(sums_of, n)
             # Exact centring: the sums are exact, so nothing cancels; one rounding each.
             result[column].append(
                 {
                     "level": level,
                     "n": n,
-                    "x_mean": row[f"x_ref{i}"] + float(sum_dx / n),
-                    "y_mean": row[f"y_ref{i}"] + float(sum_dy / n),
+                    "x_mean": row[f"x_ref{i}"] + float(sums_of["sx"] / n),
+                    "y_mean": row[f"y_ref{i}"] + float(sums_of["sy"] / n),
                     "x_min": row[f"x_min{i}"],
                     "x_max": row[f"x_max{i}"],
-                    "sxx": float(sums_of["sxx"] - sum_dx * sum_dx / n),
-                    "sxy": float(sums_of["sxy"] - sum_dx * sum_dy / n),
-                    "syy": float(sums_of["syy"] - sum_dy * sum_dy / n),
+                    "sxx": float(sxx),
+                    "sxy": float(sxy),
+                    "syy": float(syy),
                 }
             )
     return result
@@ -318,8 +319,8 @@ def _common_slope_inference(
     se = math.sqrt(sse / df / pooled_sxx)
     if se <= 0:
         return se, common_slope, common_slope, 0.0 if common_slope else 1.0
-    half = float(t_ppf(0.5 + confidence / 2, df)) * se
-    p_value = float(2 * t_sf(abs(common_slope / se), df))
+    half = t_ppf(0.5 + confidence / 2, df) * se
+    p_value = 2 * t_sf(abs(common_slope / se), df)
     return se, common_slope - half, common_slope + half, p_value
 
 
@@ -350,7 +351,7 @@ def _parallel_test(
         logger.debug("separate lines fit every level exactly; no F-test")
         return common_slope, None, None, None, None
     f_statistic = (extra / df_between) / (sse_separate / df_within)
-    p_value = float(f_sf(f_statistic, df_between, df_within))
+    p_value = f_sf(f_statistic, df_between, df_within)
     return common_slope, f_statistic, df_between, df_within, p_value
 
 

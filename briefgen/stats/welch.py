@@ -66,8 +66,8 @@ def welch_pair(a: Summary, b: Summary, confidence: float = 0.95) -> PairwiseComp
     # Welch–Satterthwaite degrees of freedom.
     df = variance**2 / (share_a**2 / (a.n - 1) + share_b**2 / (b.n - 1))
     t = difference / standard_error
-    p_value = float(2 * t_sf(abs(t), df))
-    half = float(t_ppf(0.5 + confidence / 2, df)) * standard_error
+    p_value = 2 * t_sf(abs(t), df)
+    half = t_ppf(0.5 + confidence / 2, df) * standard_error
     return PairwiseComparison(
         a.level, b.level, difference, difference - half, difference + half, t, df, p_value, p_value
     )
@@ -93,7 +93,7 @@ def welch_anova(summaries: Sequence[Summary]) -> tuple[float, float, float, floa
     )
     f = between / (1 + 2 * (k - 2) / (k**2 - 1) * lam)
     df2 = (k**2 - 1) / (3 * lam)
-    return f, float(k - 1), df2, float(f_sf(f, k - 1, df2))
+    return f, float(k - 1), df2, f_sf(f, k - 1, df2)
 
 
 def classical_anova(summaries: Sequence[Summary]) -> ClassicalAnova:
@@ -111,7 +111,7 @@ def classical_anova(summaries: Sequence[Summary]) -> ClassicalAnova:
         residual_sd = math.sqrt(mean_square_within)
         if mean_square_within > 0 and df_between > 0:
             f = (ss_between / df_between) / mean_square_within
-            p_value = float(f_sf(f, df_between, df_within))
+            p_value = f_sf(f, df_between, df_within)
     if ss_between + ss_within > 0:
         r_squared = ss_between / (ss_between + ss_within)
     return ClassicalAnova(

@@ -167,3 +167,12 @@ def pair_values(
         name: value_of(totals[f"{tag}{name}"], *factors)
         for name, factors in zip(PAIR_SUMS, scales, strict=True)
     }
+
+
+def centred_pair(values: dict[str, Fraction], n: int) -> tuple[Fraction, Fraction, Fraction]:
+    """Exact Sxx, Sxy, Syy about the means, from ``pair_values``' sums over ``n`` ≥ 1 rows.
+
+    Σd² − (Σd)²/n on exact sums cancels nothing, whatever the shift the deviations share.
+    """
+    sx, sy = values["sx"], values["sy"]
+    return values["sxx"] - sx * sx / n, values["sxy"] - sx * sy / n, values["syy"] - sy * sy / n

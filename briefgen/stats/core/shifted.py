@@ -77,7 +77,7 @@ def moments_from_shifted(
 
 def t_quantile(confidence: float, df: float) -> float:
     """Two-sided Student t quantile for ``confidence`` on ``df`` degrees of freedom."""
-    return float(t_ppf(0.5 + confidence / 2, df))
+    return t_ppf(0.5 + confidence / 2, df)
 
 
 def t_interval(

@@ -280,8 +280,8 @@ def summarise(
     quartiles_arrow = pass1_arrow.select([*keys, *QUARTILES]).append_column(
         "scale", pa.array([scale.factor for scale in scales], pa.float64())
     )
-    squares = [square_scale(row) for row in pass1] if third_moments else []
     if third_moments:
+        squares = [square_scale(row) for row in pass1]
         factors = pa.array([scale.factor for scale in squares], pa.float64())
         quartiles_arrow = quartiles_arrow.append_column("square_scale", factors)
     quartiles = ibis.memtable(quartiles_arrow)
@@ -296,10 +296,11 @@ def summarise(
         .to_pylist()
     }
     centred = {}
-    for row, square in zip(pass1, squares, strict=True) if third_moments else ():
-        key = tuple(row[k] for k in keys)
-        if key in pass2 and row["n"]:
-            centred[key] = _centred_powers(int(row["n"]), pass2[key], scale_of[key], square)
+    if third_moments:
+        for row, square in zip(pass1, squares, strict=True):
+            key = tuple(row[k] for k in keys)
+            if key in pass2 and row["n"]:
+                centred[key] = _centred_powers(int(row["n"]), pass2[key], scale_of[key], square)
     extremes = extreme_outliers(table, quartiles, keys) if list_outliers else {}
     summaries, boxes = {}, {}
     for first in sorted(pass1, key=lambda r: tuple((r[k] is None, r[k]) for k in keys)):
