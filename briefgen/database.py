@@ -40,6 +40,18 @@ COPY_BATCH_ROWS = 65_536
 COPIED_TABLE = "briefgen_source_rows"
 
 
+def quiet(connection: duckdb.DuckDBPyConnection) -> duckdb.DuckDBPyConnection:
+    """``connection`` without DuckDB's own progress bar.
+
+    DuckDB draws one on stdout for any query over two seconds, terminal or not: in a
+    nightly job's log or mail it was lines of bar characters, and on a terminal it
+    fought the build's progress lines. A session setting: the connect-time config
+    refuses it.
+    """
+    connection.execute("SET enable_progress_bar = false")
+    return connection
+
+
 def where_statistics_run(url: str) -> str:
     """The engine that runs the statistics for this URL, in words (for the brief's method)."""
     scheme = url.split(":", 1)[0].lower()
@@ -100,7 +112,9 @@ def _file_database(spec: BriefSpec, label: str, scheme: str) -> BaseBackend:
         )
     try:
         if scheme == "duckdb":
-            return ibis.duckdb.connect(path, read_only=True, threads=1)
+            con = ibis.duckdb.connect(path, read_only=True, threads=1)
+            quiet(con.con)
+            return con
         return ibis.sqlite.connect(path)
     except Exception as exc:  # a file that is not a database of that kind
         raise DataError(
@@ -172,7 +186,7 @@ def _duckdb_query(spec: BriefSpec, label: str, engine: BaseBackend) -> ir.Table:
     if not path.is_file():
         raise DataError(f"{label}: database file not found (looked in {path}); check data.url.")
     try:
-        source = duckdb.connect(str(path), read_only=True)
+        source = quiet(duckdb.connect(str(path), read_only=True))
         reader = source.sql(spec.data.query or "").to_arrow_reader(COPY_BATCH_ROWS)
     except Exception as exc:
         raise DataError(

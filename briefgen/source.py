@@ -28,7 +28,7 @@ import ibis.expr.types as ir
 from ibis.backends import BaseBackend
 
 from briefgen.config import BriefSpec, EngineSpec
-from briefgen.database import open_database
+from briefgen.database import open_database, quiet
 from briefgen.datafile import check_not_other_format, check_readable_file
 from briefgen.datatext import engine_clean, excerpt, first_line
 from briefgen.dialect import is_nan, try_float, try_timestamp
@@ -115,6 +115,7 @@ def _duckdb(engine: EngineSpec, base_dir: Path | None) -> BaseBackend:
     # The file is thrown away with the connection: writing its tables back at close (a
     # checkpoint) cost 1.2 s and 200 MiB at 10M rows for nothing.
     con.con.execute("PRAGMA disable_checkpoint_on_shutdown")
+    quiet(con.con)
     _RELEASES[con] = weakref.finalize(con, _close_and_remove, con.con, folder)
     return con
 

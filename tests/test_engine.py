@@ -6,6 +6,7 @@ Constructed cases: a tiny CSV (as in test_cli), built through the command line.
 from __future__ import annotations
 
 import gc
+import json
 import subprocess
 import sys
 
@@ -179,3 +180,55 @@ def test_an_engine_that_goes_away_mid_run_is_a_sentence(tmp_path, capsys, monkey
         said = "could not read a file" if "No files found" in str(error) else "stopped answering"
         assert said in err
     assert _published(tmp_path) == before
+
+
+# Run as the command runs: under pytest DuckDB starts with its bar off anyway.
+PROGRESS_BARS = """
+import json, sys
+import duckdb
+from briefgen import database
+from briefgen.config import EngineSpec, load_spec
+from briefgen.source import connect, open_source
+
+def bar(connection):
+    return connection.execute("SELECT current_setting('enable_progress_bar')").fetchall()[0][0]
+
+engine = connect(EngineSpec())
+seen = {"default": bar(duckdb.connect()), "engine": bar(engine.con)}
+table = open_source(load_spec(sys.argv[1])).table
+seen["duckdb file"] = bar(table.get_backend().con)
+quieted = database.quiet
+def spy(connection):
+    seen.setdefault("query", []).append(bar(quieted(connection)))
+    return connection
+database.quiet = spy
+open_source(load_spec(sys.argv[2]))
+print(json.dumps(seen))
+"""
+
+
+def test_duckdb_draws_no_progress_bar_of_its_own(tmp_path):
+    # DuckDB's default draws a bar on stdout for any query over two seconds, terminal or
+    # not (seen at 10M rows: bar characters in a nightly job's log). The engine and both
+    # ways of reading a duckdb:// file turn it off for their session.
+    case = _write_case(tmp_path)
+    with duckdb.connect(str(tmp_path / "rows.duckdb")) as con:
+        con.execute(f"CREATE TABLE rows AS SELECT * FROM read_csv('{tmp_path / 'data.csv'}')")
+    by_table = tmp_path / "table.yaml"
+    by_table.write_text(
+        case.read_text().replace("path: data.csv", "url: duckdb:///rows.duckdb\n  table: rows")
+    )
+    by_query = tmp_path / "query.yaml"
+    by_query.write_text(by_table.read_text().replace("table: rows", "query: select * from rows"))
+    run = subprocess.run(
+        [sys.executable, "-c", PROGRESS_BARS, str(by_table), str(by_query)],
+        capture_output=True,
+        text=True,
+        check=True,
+    )
+    assert json.loads(run.stdout) == {
+        "default": True,  # what this guards against
+        "engine": False,
+        "duckdb file": False,
+        "query": [False],  # the file's own client, which runs data.query
+    }
