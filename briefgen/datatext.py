@@ -39,6 +39,11 @@ def clean(text: str) -> str:
     return _PY_CONTROL.sub(" ", text)
 
 
+def needs_cleaning(text: str) -> bool:
+    """True when ``text`` holds a character ``clean`` and ``engine_clean`` change."""
+    return clean(text) != text
+
+
 def engine_clean(column: ir.StringColumn) -> ir.StringColumn:
     """``clean`` as an engine expression, so levels are cleaned in the one scan that types them.
 

@@ -565,17 +565,18 @@ def is_missing(table: ir.Table, name: str) -> ir.BooleanColumn:
     return column.isnull()
 
 
-def category(table: ir.Table, name: str) -> ir.StringColumn:
+def category(table: ir.Table, name: str, clean: bool = True) -> ir.StringColumn:
     """A grouping column as text, so numbers-as-codes group like labels.
 
     Whole numbers stored as floats (a CSV column of codes with one gap reads as
     float) print as "5", not "5.0": a code's label should look like the code.
-    Text loses its control and bidirectional characters (``datatext.engine_clean``).
+    Text loses its control and bidirectional characters (``datatext.engine_clean``)
+    unless ``clean`` is False: the analysis frame cleans only columns that need it.
     """
     column = table[name]
     if column.type().is_string():
         # Control and bidi characters would break the SVG and reorder the finding's numbers.
-        return engine_clean(column)
+        return engine_clean(column) if clean else column
     if column.type().is_floating():
         whole = column.notnull() & (column == column.round(0)) & (column.abs() < 1e15)
         return ibis.ifelse(whole, column.cast(dt.int64).cast(dt.string), column.cast(dt.string))

@@ -14,6 +14,7 @@ import pytest
 from scipy import stats as scipy_stats
 
 from briefgen.config import parse_spec
+from briefgen.datatext import clean
 from briefgen.errors import ConfigError
 from briefgen.present.cautions import cautions, level_cautions
 from briefgen.present.family import build_family
@@ -23,6 +24,7 @@ from briefgen.profile import column_roles
 from briefgen.source import open_source, read_table
 from briefgen.starter import propose
 from briefgen.stats import compute
+from briefgen.stats.core import frame as frame_module
 from briefgen.stats.regression import EXACT_DISTINCT_UP_TO
 from briefgen.tables import effects_table, fold_note, group_table
 
@@ -113,6 +115,30 @@ def test_fold_rule_holds_at_a_large_offset(tmp_path):
     stats = _stats(frame, tmp_path, "groups: [site]\nmax_levels: 5\n")
     # Overall mean 1e12 + 0.055: farthest are s00 and s11 (0.055), then s01 and s10 (0.045).
     assert set(stats.groups[0].shown.kept) == {"s00", "s11", "s01", "s10"}
+
+
+def test_levels_are_counted_after_cleaning_and_clean_columns_are_copied_once(tmp_path, monkeypatch):
+    # "L01" and "L01" with a bidi mark, "L02" and "L02" with a trailing tab are one level
+    # each once cleaned (datatext.clean, recomputed in pandas here), so the fold ranks
+    # them with their merged sizes: 80 rows beat the other levels' 40.
+    frame = _twelve_equal_levels()
+    dirty = frame.site.map({"L03": "L01\u200e", "L04": "L02\t"}).fillna(frame.site)
+    copies = []
+    stored = frame_module.materialize
+    monkeypatch.setattr(frame_module, "materialize", lambda t: copies.append(1) or stored(t))
+    stats = _stats(frame.assign(site=dirty), tmp_path, "groups: [site]\nmax_levels: 8\n")
+    cleaned = frame.assign(site=dirty.map(clean))
+    shown = stats.groups[0].shown
+    assert shown.levels_in_data == 10 and shown.rows == len(frame)
+    assert list(shown.kept) == _expected_kept(cleaned, 7)
+    assert shown.kept[:2] == ("L01", "L02")  # merged: 80 rows each
+    sizes = {s.level: s.n for s in stats.groups[0].summaries}
+    assert sizes["L01"] == sizes["L02"] == 80
+    assert len(copies) == 2  # the typed copy, then the cleaned one
+
+    copies.clear()
+    _stats(frame, tmp_path, "groups: [site]\nmax_levels: 8\n")
+    assert len(copies) == 1  # nothing to clean: no second copy
 
 
 def test_ties_in_size_and_distance_fall_to_the_name_and_row_order_does_not_matter(tmp_path):
