@@ -588,6 +588,9 @@ def test_rank_sums_by_counting_equal_the_sorted_ranks_and_scipy(engine_table, mo
     assert counted.doubled_rank_sums == tuple(
         int(round(2 * average[a:b].sum())) for a, b in zip(bounds[:-1], bounds[1:], strict=True)
     )
+    # The tie term Σ(t³ − t) over groups of t equal values, from numpy's counts of each value.
+    sizes = np.unique(values, return_counts=True)[1].astype(object)
+    assert counted.tie_term == float(sum(sizes**3 - sizes))
     result = kruskal_wallis(counted)
     reference = scipy_stats.kruskal(*(_clean(v) for v in levels.values()))
     assert result.statistic == pytest.approx(reference.statistic, rel=1e-10)

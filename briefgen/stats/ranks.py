@@ -29,7 +29,7 @@ from briefgen.stats.core.distributions import chi2_sf, norm_sf
 from briefgen.stats.core.exact import DECIMAL, FixedPoint, as_integer, exact_sum, value_of
 from briefgen.stats.core.ranking import (
     counting_pays,
-    doubled_average_rank,
+    doubled_rank_and_ties,
     doubled_ranks_of_values,
 )
 from briefgen.stats.welch import holm
@@ -125,26 +125,31 @@ def rank_sums(
     ``levels``); it spares the engine a second window that counts them.
     """
     rows = usable_rows(levels_table, levels)
+    # The tie term Σ(t³ − t) over groups of t tied values is Σ(t² − 1) over their rows,
+    # so each level's rows add their share beside their rank sum. 38-digit integers: t³
+    # overflows int64 once a tie group exceeds ~2 million rows, and a float sum of such
+    # terms would depend on the engine's thread order.
     if values is not None and values >= COUNT_FROM and counting_pays(_distinct(rows), values):
         # Values repeat: rank the distinct values from their counts, then weight by level.
         cells = rows.group_by(["level", "y"]).aggregate(cell=rows.count())
         ranked = doubled_ranks_of_values(cells, "y", weight="cell")
         joined = cells.inner_join(ranked, cells.y == ranked.value)
+        ties = joined.ties.cast(DECIMAL)
         per_level = joined.group_by("level").aggregate(
-            n=joined.cell.sum(), doubled=(joined.cell * joined.doubled).sum()
+            n=joined.cell.sum(),
+            doubled=(joined.cell * joined.doubled).sum(),
+            ties=exact_sum(joined.cell.cast(DECIMAL) * (ties * ties - 1)),
         )
-        tie_groups = ranked.select(size=ranked.ties.cast(DECIMAL))
     else:
         counted = rows.count().over() if values is None else values
         # Twice the average rank is an integer (see stats.core.ranking).
-        ranked = rows.mutate(doubled=doubled_average_rank(rows.y, counted))
+        doubled, tied = doubled_rank_and_ties(rows.y, counted)
+        ranked = rows.mutate(doubled=doubled, tied=tied.cast(DECIMAL))
         per_level = ranked.group_by("level").aggregate(
-            n=ranked.count(), doubled=ranked.doubled.sum()
+            n=ranked.count(),
+            doubled=ranked.doubled.sum(),
+            ties=exact_sum(ranked.tied * ranked.tied - 1),
         )
-        tie_groups = rows.group_by("y").aggregate(size=rows.count().cast(DECIMAL))
-    # 38-digit integers: t³ overflows int64 once a tie group exceeds ~2 million rows, and a
-    # float sum of such terms would depend on the engine's thread order.
-    tie_term = exact_sum(tie_groups.size * tie_groups.size * tie_groups.size - tie_groups.size)
     found = {row["level"]: row for row in per_level.to_pyarrow().to_pylist()}
     present = [level for level in levels if level in found]
     if len(present) < 2:
@@ -153,7 +158,7 @@ def rank_sums(
         levels=tuple(present),
         counts=tuple(int(found[level]["n"]) for level in present),
         doubled_rank_sums=tuple(int(found[level]["doubled"]) for level in present),
-        tie_term=float(as_integer(tie_term.to_pyarrow().as_py())),
+        tie_term=float(sum(as_integer(row["ties"]) for row in found.values())),
     )
 
 

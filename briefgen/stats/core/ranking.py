@@ -31,10 +31,30 @@ def doubled_average_rank(
     partition that is used. CUME_DIST() is a fraction of ``rows``: multiplied back and
     rounded it is exact for fewer than 2^52 rows.
     """
+    lowest, at_or_below = _rank_bounds(column, rows, group_by)
+    return (lowest + at_or_below).cast("int64")
+
+
+def doubled_rank_and_ties(
+    column: ir.Column, rows: int | ir.IntegerValue
+) -> tuple[ir.IntegerValue, ir.IntegerValue]:
+    """``doubled_average_rank`` and the size of each row's tie group, from the same window.
+
+    A tie group spans ranks lowest … at_or_below, so it holds at_or_below − lowest + 1
+    rows: the rank tests' tie term needs no pass of its own.
+    """
+    lowest, at_or_below = _rank_bounds(column, rows)
+    return (lowest + at_or_below).cast("int64"), (at_or_below - lowest + 1).cast("int64")
+
+
+def _rank_bounds(
+    column: ir.Column, rows: int | ir.IntegerValue, group_by: ir.Value | None = None
+) -> tuple[ir.IntegerValue, ir.FloatingValue]:
+    """The lowest (1-based) and highest rank of each row's tie group."""
     partition = [] if group_by is None else [group_by]
     lowest = ibis.rank().over(group_by=partition, order_by=column) + 1
     at_or_below = (ibis.cume_dist().over(group_by=partition, order_by=column) * rows).round()
-    return (lowest + at_or_below).cast("int64")
+    return lowest, at_or_below
 
 
 # Rank by counting when at most this share of the ranked rows are distinct values: far
