@@ -45,7 +45,11 @@ def needs_cleaning(text: str) -> bool:
 
 
 def engine_clean(column: ir.StringColumn) -> ir.StringColumn:
-    """``clean`` as an engine expression, so levels are cleaned in the one scan that types them.
+    """``clean`` as an engine expression, applied to the group columns that need it.
+
+    The analysis frame (``stats.core.frame.build_frame``) finds them by
+    ``needs_cleaning`` on their counted levels: the expression costs a copy of every
+    string, so a column without such a character is left as it is.
 
     Controls at either end are dropped and runs inside become one space; bidi controls
     are dropped wherever they are.
