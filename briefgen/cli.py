@@ -344,8 +344,47 @@ def _configure_logging(args: argparse.Namespace, errors: Console) -> None:
     stages.setLevel(logging.INFO)
 
 
+# Set when SIGTERM arrives, for errors that stand in for the stop (``_sigterm_wins``).
+_SIGTERM_SEEN = threading.Event()
+
+
 def _on_sigterm(signum, frame):
+    _SIGTERM_SEEN.set()
     raise Stopped
+
+
+@contextlib.contextmanager
+def _sigterm_wins():
+    """After SIGTERM, any error is the stop it caused.
+
+    The handler's ``Stopped`` cannot always surface: during a query DuckDB catches it,
+    cancels the query and raises its own "Query interrupted" error, which a scheduler's
+    timeout turned into "internal error … report the traceback" and exit 70.
+    """
+    try:
+        yield
+    except Exception:
+        if _SIGTERM_SEEN.is_set():
+            raise Stopped from None
+        raise
+
+
+def _dispatch(args: argparse.Namespace, console: Console, run: _Run) -> None:
+    """Run the command ``args`` name."""
+    if args.command == "build":
+        options = _BuildOptions(
+            args.out, args.wait, not args.no_send, args.compare, args.skip_checks
+        )
+        _build(args.config, options, console, run)
+    elif args.command == "check":
+        _check(args.config, console)
+    elif args.command == "init":
+        from briefgen.starter import write_starter
+
+        path = write_starter(args.data, args.config, args.title, args.force)
+        _say(console, ("wrote", "green"), f" {path}; check it, then run: briefgen build {path}")
+    elif args.command == "demo":
+        _build(demo_config_path(), _BuildOptions(args.out, send=False), console, run)
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -354,23 +393,12 @@ def main(argv: list[str] | None = None) -> int:
     console = Console(stderr=False, highlight=False, quiet=quiet)
     errors = Console(stderr=True, highlight=False)
     _configure_logging(args, errors)
+    _SIGTERM_SEEN.clear()
     previous = signal.signal(signal.SIGTERM, _on_sigterm)
     run = _Run()
     try:
-        if args.command == "build":
-            options = _BuildOptions(
-                args.out, args.wait, not args.no_send, args.compare, args.skip_checks
-            )
-            _build(args.config, options, console, run)
-        elif args.command == "check":
-            _check(args.config, console)
-        elif args.command == "init":
-            from briefgen.starter import write_starter
-
-            path = write_starter(args.data, args.config, args.title, args.force)
-            _say(console, ("wrote", "green"), f" {path}; check it, then run: briefgen build {path}")
-        elif args.command == "demo":
-            _build(demo_config_path(), _BuildOptions(args.out, send=False), console, run)
+        with _sigterm_wins():
+            _dispatch(args, console, run)
         _finish_stages(succeeded=True)
     except HeldError as exc:
         _say(errors, ("held: ", "bold red"), str(exc))

@@ -7,8 +7,12 @@ from __future__ import annotations
 
 import gc
 import json
+import os
+import signal
 import subprocess
 import sys
+import threading
+import time
 
 import duckdb
 import pandas as pd
@@ -180,6 +184,36 @@ def test_an_engine_that_goes_away_mid_run_is_a_sentence(tmp_path, capsys, monkey
         said = "could not read a file" if "No files found" in str(error) else "stopped answering"
         assert said in err
     assert _published(tmp_path) == before
+
+
+def test_sigterm_during_an_engine_query_is_a_stop_not_an_internal_error(
+    tmp_path, capsys, monkeypatch
+):
+    # A scheduler's timeout sends SIGTERM while a query runs; DuckDB catches the handler's
+    # exception, cancels the query and raises its own "Query interrupted" (seen at 10M
+    # rows: "internal error ... report the traceback", exit 70). README: exit 143.
+    config = _write_case(tmp_path)
+    assert main(["build", str(config)]) == 0
+    before = _published(tmp_path)
+    capsys.readouterr()
+    engine = duckdb.connect()
+
+    def query_stopped_by_sigterm(*args, **kwargs):
+        threading.Timer(0.5, os.kill, (os.getpid(), signal.SIGTERM)).start()
+        # Tens of seconds of work unless the signal cancels it.
+        engine.execute("SELECT sum(hash(i) % 7) FROM range(20000000000) t(i)").fetchall()
+
+    monkeypatch.setattr(stats_package, "_sample", query_stopped_by_sigterm)
+    started = time.monotonic()
+    assert main(["build", str(config)]) == 143
+    assert time.monotonic() - started < 20  # the query was cancelled, not finished
+    err = " ".join(capsys.readouterr().err.split())
+    assert "stopped (SIGTERM); the previous brief" in err and "unchanged" in err
+    assert "internal error" not in err and "Traceback" not in err
+    assert _published(tmp_path) == before
+    # The next build is not taken for a stopped one.
+    monkeypatch.undo()
+    assert main(["build", str(config)]) == 0
 
 
 # Run as the command runs: under pytest DuckDB starts with its bar off anyway.
