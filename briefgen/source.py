@@ -12,7 +12,6 @@ import json
 import logging
 import os
 import re
-import shutil
 import tempfile
 import weakref
 from collections.abc import Iterator
@@ -35,6 +34,7 @@ from briefgen.dialect import is_nan, try_float, try_timestamp
 from briefgen.errors import ConfigError, DataError, EngineError
 from briefgen.origin import origin_of
 from briefgen.workbook import read_workbook
+from briefgen.workfolder import make_work_folder, remove_work_folder
 
 if TYPE_CHECKING:
     from briefgen.rows.scope import RowScope
@@ -91,7 +91,8 @@ def _duckdb(engine: EngineSpec, base_dir: Path | None) -> BaseBackend:
     A file rather than memory: the tables the brief reads are stored compressed (10M rows
     of seven columns take about 200 MB instead of 800 MB), and DuckDB holds at most
     ``engine.memory_limit`` of them, of sorts and of joins in memory, spilling the rest
-    to the same folder, so data larger than memory complete.
+    to the same folder, so data larger than memory complete. Folders that killed builds
+    left there are removed first (``workfolder``).
     """
     parent = None
     if engine.temp_dir:
@@ -99,7 +100,7 @@ def _duckdb(engine: EngineSpec, base_dir: Path | None) -> BaseBackend:
         if not parent.is_absolute() and base_dir is not None:
             parent = base_dir / parent
     try:
-        folder = Path(tempfile.mkdtemp(prefix="briefgen-engine-", dir=parent))
+        folder, owner = make_work_folder(parent)
     except OSError as exc:
         where = parent if parent is not None else tempfile.gettempdir()
         raise ConfigError(
@@ -116,7 +117,7 @@ def _duckdb(engine: EngineSpec, base_dir: Path | None) -> BaseBackend:
     # checkpoint) cost 1.2 s and 200 MiB at 10M rows for nothing.
     con.con.execute("PRAGMA disable_checkpoint_on_shutdown")
     quiet(con.con)
-    _RELEASES[con] = weakref.finalize(con, _close_and_remove, con.con, folder)
+    _RELEASES[con] = weakref.finalize(con, _close_and_remove, con.con, folder, owner)
     return con
 
 
@@ -124,9 +125,9 @@ def _duckdb(engine: EngineSpec, base_dir: Path | None) -> BaseBackend:
 _RELEASES: weakref.WeakKeyDictionary[BaseBackend, weakref.finalize] = weakref.WeakKeyDictionary()
 
 
-def _close_and_remove(connection: duckdb.DuckDBPyConnection, folder: Path) -> None:
+def _close_and_remove(connection: duckdb.DuckDBPyConnection, folder: Path, owner: int) -> None:
     connection.close()
-    shutil.rmtree(folder, ignore_errors=True)
+    remove_work_folder(folder, owner)
 
 
 def release(table: ir.Table) -> None:

@@ -13,6 +13,7 @@ import subprocess
 import sys
 import threading
 import time
+from pathlib import Path
 
 import duckdb
 import pandas as pd
@@ -22,6 +23,8 @@ from test_cli import _write_case
 from briefgen import document
 from briefgen import stats as stats_package
 from briefgen.cli import main
+from briefgen.config import EngineSpec
+from briefgen.source import connect
 
 
 def test_working_folder_is_made_in_temp_dir_and_removed(tmp_path, capsys):
@@ -32,6 +35,51 @@ def test_working_folder_is_made_in_temp_dir_and_removed(tmp_path, capsys):
     gc.collect()
     # The private database file lived in work/briefgen-engine-*/ and went with the build.
     assert list(work.iterdir()) == []
+
+
+HOLD_AN_ENGINE = """
+import sys, time
+from briefgen.config import EngineSpec
+from briefgen.source import connect
+engine = connect(EngineSpec(temp_dir=sys.argv[1]))
+engine.raw_sql("CREATE TABLE rows AS SELECT range AS y FROM range(1000)")
+print(engine.con.execute("SELECT current_setting('temp_directory')").fetchall()[0][0], flush=True)
+time.sleep(600)
+"""
+
+
+def test_a_folder_left_by_a_killed_build_is_removed_by_the_next(tmp_path):
+    # SIGKILL (or the out-of-memory killer) runs no cleanup: at 10M rows a killed build
+    # left 232 MB in the temporary folder, every time. Its lock dies with it.
+    work = tmp_path / "work"
+    work.mkdir()
+    holder = subprocess.Popen(
+        [sys.executable, "-c", HOLD_AN_ENGINE, str(work)], stdout=subprocess.PIPE, text=True
+    )
+    killed = Path(holder.stdout.readline().strip()).parent
+    assert killed.parent == work and (killed / "engine.duckdb").exists()
+    older = work / "briefgen-engine-from-an-older-version"  # no owner.lock: left alone
+    older.mkdir()
+    live = connect(EngineSpec(temp_dir=str(work)))  # a build running now: left alone
+    live_folder = _folder_of(live)
+    assert killed.exists()  # its build is still alive
+
+    holder.kill()
+    holder.wait()
+    holder.stdout.close()
+    assert killed.exists()
+    after = connect(EngineSpec(temp_dir=str(work)))
+    assert not killed.exists()
+    assert older.exists() and live_folder.exists() and _folder_of(after).exists()
+    del live, after
+    gc.collect()
+    assert sorted(work.iterdir()) == [older]
+
+
+def _folder_of(engine) -> Path:
+    return Path(
+        engine.con.execute("SELECT current_setting('temp_directory')").fetchall()[0][0]
+    ).parent
 
 
 def test_engine_is_closed_before_the_document_is_drawn(tmp_path, monkeypatch):
