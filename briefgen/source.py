@@ -125,7 +125,9 @@ def _duckdb(engine: EngineSpec, base_dir: Path | None) -> BaseBackend:
 _RELEASES: weakref.WeakKeyDictionary[BaseBackend, weakref.finalize] = weakref.WeakKeyDictionary()
 
 
-def _close_and_remove(connection: duckdb.DuckDBPyConnection, folder: Path, owner: int) -> None:
+def _close_and_remove(
+    connection: duckdb.DuckDBPyConnection, folder: Path, owner: int | None
+) -> None:
     connection.close()
     remove_work_folder(folder, owner)
 

@@ -25,10 +25,12 @@ PREFIX = "briefgen-engine-"
 OWNER = "owner.lock"
 
 
-def make_work_folder(parent: Path | None) -> tuple[Path, int]:
+def make_work_folder(parent: Path | None) -> tuple[Path, int | None]:
     """A new working folder under ``parent`` (default: the system's temporary folder),
     and the descriptor that holds its lock; left-over folders there are removed first.
 
+    On a file system without flock (some network mounts) the folder has no lock and no
+    ``owner.lock``, so no sweep takes it for abandoned; the descriptor is then None.
     Raises OSError when the folder cannot be made.
     """
     where = parent if parent is not None else Path(tempfile.gettempdir())
@@ -38,15 +40,22 @@ def make_work_folder(parent: Path | None) -> tuple[Path, int]:
     # while its build lives, so a sweep running at the same moment cannot take it.
     claiming = folder / f".{OWNER}"
     fd = os.open(claiming, os.O_RDWR | os.O_CREAT | os.O_CLOEXEC, 0o600)
-    fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    try:
+        fcntl.flock(fd, fcntl.LOCK_EX | fcntl.LOCK_NB)
+    except OSError as exc:
+        os.close(fd)
+        claiming.unlink(missing_ok=True)
+        log.info("cannot lock %s (%s): a killed build would leave it", folder, exc.strerror)
+        return folder, None
     os.rename(claiming, folder / OWNER)
     return folder, fd
 
 
-def remove_work_folder(folder: Path, fd: int) -> None:
+def remove_work_folder(folder: Path, fd: int | None) -> None:
     """Remove the folder, then release its lock."""
     shutil.rmtree(folder, ignore_errors=True)
-    os.close(fd)
+    if fd is not None:
+        os.close(fd)
 
 
 def remove_abandoned(where: Path) -> list[Path]:

@@ -5,6 +5,7 @@ Constructed cases: a tiny CSV (as in test_cli), built through the command line.
 
 from __future__ import annotations
 
+import errno
 import gc
 import json
 import os
@@ -20,7 +21,7 @@ import pandas as pd
 import pytest
 from test_cli import _write_case
 
-from briefgen import document
+from briefgen import document, workfolder
 from briefgen import stats as stats_package
 from briefgen.cli import main
 from briefgen.config import EngineSpec
@@ -74,6 +75,24 @@ def test_a_folder_left_by_a_killed_build_is_removed_by_the_next(tmp_path):
     del live, after
     gc.collect()
     assert sorted(work.iterdir()) == [older]
+
+
+def test_a_file_system_without_flock_still_gets_a_working_folder(tmp_path, monkeypatch):
+    # Some network mounts refuse flock(2): the build still runs, its folder simply has no
+    # owner.lock, so no other build's sweep can take it for abandoned.
+    def refused(fd, operation):
+        raise OSError(errno.ENOLCK, "No locks available")
+
+    monkeypatch.setattr(workfolder.fcntl, "flock", refused)
+    engine = connect(EngineSpec(temp_dir=str(tmp_path)))
+    folder = _folder_of(engine)
+    assert folder.exists() and sorted(p.name for p in folder.iterdir()) == ["engine.duckdb"]
+    assert engine.raw_sql("SELECT 42").fetchall() == [(42,)]
+    monkeypatch.undo()
+    assert workfolder.remove_abandoned(tmp_path) == []  # unowned: left alone
+    del engine
+    gc.collect()
+    assert list(tmp_path.iterdir()) == []
 
 
 def _folder_of(engine) -> Path:
