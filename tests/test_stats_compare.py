@@ -17,13 +17,7 @@ from statsmodels.stats.weightstats import CompareMeans
 from briefgen.stats import ranks
 from briefgen.stats.compare import compare_groups
 from briefgen.stats.core.summary import summarise, summarise_levels
-from briefgen.stats.ranks import (
-    kruskal_wallis,
-    pooled_skewness,
-    rank_sums,
-    rank_test,
-    within_level_skewness,
-)
+from briefgen.stats.ranks import kruskal_wallis, pooled_skewness, rank_sums, rank_test
 from briefgen.stats.welch import classical_anova, holm, welch_anova, welch_pair
 
 RELATIVE = 1e-10  # both sides compute in float64 from the same few dozen values
@@ -38,6 +32,13 @@ def _prepared(engine_table, groups: dict[str, list[float]]):
     table = engine_table(_frame(groups))
     summaries, _ = summarise_levels(table, 0.95)
     return table, summaries
+
+
+def _compare(table, summaries, *args, **kwargs):
+    """``compare_groups`` as a brief calls it: the centred sums from the summaries' pass."""
+    keyed = summarise(table, ["level"], 0.95, third_moments=True)
+    centred = {key[0]: sums for key, sums in keyed.centred.items()}
+    return compare_groups(table, summaries, *args, centred=centred, **kwargs)
 
 
 def _clean(values: list[float]) -> np.ndarray:
@@ -60,7 +61,7 @@ FOUR = {
 
 def test_welch_t_matches_scipy(engine_table):
     table, summaries = _prepared(engine_table, TWO)
-    result = compare_groups(table, summaries, variable="region")
+    result = _compare(table, summaries, variable="region")
     reference = scipy_stats.ttest_ind(
         _clean(TWO["north"]), _clean(TWO["south"]), equal_var=False
     )  # reference: scipy.stats.ttest_ind(equal_var=False)
@@ -75,7 +76,7 @@ def test_welch_t_matches_scipy(engine_table):
 @pytest.mark.parametrize("confidence", [0.95, 0.90])
 def test_welch_interval_matches_statsmodels(engine_table, confidence):
     table, summaries = _prepared(engine_table, TWO)
-    pair = compare_groups(table, summaries, confidence).pairwise[0]
+    pair = _compare(table, summaries, confidence).pairwise[0]
     low, high = CompareMeans.from_data(_clean(TWO["north"]), _clean(TWO["south"])).tconfint_diff(
         alpha=1 - confidence, usevar="unequal"
     )  # reference: statsmodels CompareMeans.tconfint_diff(usevar="unequal")
@@ -85,7 +86,7 @@ def test_welch_interval_matches_statsmodels(engine_table, confidence):
 
 def test_welch_anova_matches_statsmodels(engine_table):
     table, summaries = _prepared(engine_table, FOUR)
-    result = compare_groups(table, summaries)
+    result = _compare(table, summaries)
     frame = _frame(FOUR)
     reference = anova_oneway(
         frame["y"].to_numpy(), frame["level"].to_numpy(), use_var="unequal"
@@ -99,7 +100,7 @@ def test_welch_anova_matches_statsmodels(engine_table):
 
 def test_pairwise_welch_and_holm_match_scipy_and_statsmodels(engine_table):
     table, summaries = _prepared(engine_table, FOUR)
-    pairs = compare_groups(table, summaries).pairwise
+    pairs = _compare(table, summaries).pairwise
     assert [(p.level_a, p.level_b) for p in pairs] == [
         ("a", "b"),
         ("a", "c"),
@@ -198,52 +199,46 @@ def test_kruskal_wallis_with_ties_matches_scipy(engine_table):
     assert result.p_value == pytest.approx(reference.pvalue, rel=1e-9)
 
 
-def _skewness(engine_table, groups: dict[str, list[float]], how: str) -> float | None:
-    """The within-level skewness by its own query, or from the summaries' pass (a brief's way)."""
+def _skewness(engine_table, groups: dict[str, list[float]]) -> float | None:
+    """The within-level skewness from the summaries' pass, as a brief computes it."""
     table, summaries = _prepared(engine_table, groups)
-    if how == "query":
-        return within_level_skewness(table, {s.level: s.mean for s in summaries})
     keyed = summarise(table, ["level"], 0.95, third_moments=True)
     return pooled_skewness(keyed.centred[(s.level,)] for s in summaries)
 
 
-@pytest.mark.parametrize("how", ["query", "summaries"])
-def test_skewness_of_residuals_matches_scipy(engine_table, how):
-    result = _skewness(engine_table, TIED_THREE, how)
+def test_skewness_of_residuals_matches_scipy(engine_table):
+    result = _skewness(engine_table, TIED_THREE)
     residuals = np.concatenate([np.subtract(v, np.mean(v)) for v in TIED_THREE.values()])
     # reference: scipy.stats.skew(bias=True), the sample skewness g1
     assert result == pytest.approx(scipy_stats.skew(residuals, bias=True), rel=1e-12)
 
 
-@pytest.mark.parametrize("how, rel", [("query", 1e-6), ("summaries", 1e-12)])
-def test_skewness_survives_a_large_offset(engine_table, how, rel):
+def test_skewness_survives_a_large_offset(engine_table):
     shifted = {level: [1e12 + v for v in values] for level, values in TIED_THREE.items()}
-    result = _skewness(engine_table, shifted, how)
+    result = _skewness(engine_table, shifted)
     residuals = np.concatenate([np.subtract(v, np.mean(v)) for v in TIED_THREE.values()])
     # reference: scipy.stats.skew(bias=True) on the unshifted data (skewness ignores offsets);
-    # the data are integers, exactly representable at 1e12. The query's rounded level means
-    # cost it digits there; the summaries centre each level exactly.
-    assert result == pytest.approx(scipy_stats.skew(residuals, bias=True), rel=rel)
+    # the data are integers, exactly representable at 1e12, and each level is centred
+    # exactly (a query joining rounded level means back was 2.3e-7 off here).
+    assert result == pytest.approx(scipy_stats.skew(residuals, bias=True), rel=1e-12)
 
 
-def test_skewed_lognormal_levels_agree_both_ways(engine_table):
+def test_skewed_lognormal_levels_match_scipy(engine_table):
     """Constructed: strongly skewed levels of unequal size, where the choice of test turns."""
     rng = np.random.default_rng(11)
     groups = {name: list(rng.lognormal(0, 1.5, size)) for name, size in (("a", 300), ("b", 45))}
-    by_query = _skewness(engine_table, groups, "query")
     residuals = np.concatenate([np.subtract(v, np.mean(v)) for v in groups.values()])
     # reference: scipy.stats.skew(bias=True)
-    assert _skewness(engine_table, groups, "summaries") == pytest.approx(
+    assert _skewness(engine_table, groups) == pytest.approx(
         scipy_stats.skew(residuals, bias=True), rel=1e-12
     )
-    assert by_query == pytest.approx(scipy_stats.skew(residuals, bias=True), rel=1e-12)
 
 
 def test_strong_skew_leans_on_the_rank_test(engine_table):
     rng = np.random.default_rng(7)
     groups = {"low": list(rng.lognormal(0, 1.2, 40)), "high": list(rng.lognormal(0.4, 1.2, 30))}
     table, summaries = _prepared(engine_table, groups)
-    result = compare_groups(table, summaries)
+    result = _compare(table, summaries)
     residuals = np.concatenate([np.subtract(v, np.mean(v)) for v in groups.values()])
     assert abs(scipy_stats.skew(residuals)) > 1  # reference: scipy.stats.skew; Bulmer (1979) > 1
     assert result.strongly_skewed and result.leans_on == "rank"
@@ -255,13 +250,13 @@ def test_strong_skew_leans_on_the_rank_test(engine_table):
 
 def test_symmetric_data_leans_on_welch(engine_table):
     table, summaries = _prepared(engine_table, FOUR)
-    result = compare_groups(table, summaries)
+    result = _compare(table, summaries)
     assert result.leans_on == "welch" and result.rank_test is None
 
 
 def test_effects_against_the_largest_level(engine_table):
     table, summaries = _prepared(engine_table, FOUR)
-    result = compare_groups(table, summaries)
+    result = _compare(table, summaries)
     assert result.reference_level == "b"  # 20 values, the most
     overall = np.mean(np.concatenate(list(FOUR.values())))  # reference: numpy mean
     assert result.overall_mean == pytest.approx(overall, rel=1e-12)
@@ -288,13 +283,13 @@ def test_reference_ties_are_broken_by_name(engine_table):
     table, summaries = _prepared(
         engine_table, {"zeta": [1, 2, 3], "alpha": [4, 5, 7], "mu": [1, 2]}
     )
-    assert compare_groups(table, summaries).reference_level == "alpha"
+    assert _compare(table, summaries).reference_level == "alpha"
 
 
 def test_small_levels_are_excluded_and_said_so(engine_table):
     groups = {"a": [1.0, 2.0, 4.0], "b": [3.0, 5.0, 6.0, 9.0], "lonely": [100.0]}
     table, summaries = _prepared(engine_table, groups)
-    result = compare_groups(table, summaries)
+    result = _compare(table, summaries)
     assert result.excluded_levels == ("lonely",)
     assert result.levels == ("a", "b") and result.test == "welch_t"
     reference = scipy_stats.ttest_ind(groups["a"], groups["b"], equal_var=False)  # reference: scipy
@@ -304,7 +299,7 @@ def test_small_levels_are_excluded_and_said_so(engine_table):
 
 def test_one_usable_level_gives_no_comparison(engine_table):
     table, summaries = _prepared(engine_table, {"a": [1.0, 2.0, 4.0], "b": [3.0]})
-    assert compare_groups(table, summaries) is None
+    assert _compare(table, summaries) is None
 
 
 # scipy warns about its own cancellation on constant samples; the results are exact.
@@ -312,7 +307,7 @@ def test_one_usable_level_gives_no_comparison(engine_table):
 def test_levels_without_spread_do_not_crash(engine_table):
     groups = {"a": [2.0, 2.0, 2.0], "b": [5.0, 5.0]}
     table, summaries = _prepared(engine_table, groups)
-    result = compare_groups(table, summaries)
+    result = _compare(table, summaries)
     pair = result.pairwise[0]
     assert pair.difference == -3.0 and pair.t is None and pair.p_holm is None
     assert result.statistic is None and result.p_value is None and result.notes
@@ -327,7 +322,7 @@ def test_levels_without_spread_do_not_crash(engine_table):
 def test_one_level_without_spread_keeps_welch_t(engine_table):
     groups = {"a": [2.0, 2.0, 2.0], "b": [5.0, 6.0, 8.0, 4.0]}
     table, summaries = _prepared(engine_table, groups)
-    result = compare_groups(table, summaries)
+    result = _compare(table, summaries)
     pair = result.pairwise[0]
     reference = scipy_stats.ttest_ind(groups["a"], groups["b"], equal_var=False)  # reference: scipy
     assert pair.t == pytest.approx(reference.statistic, rel=RELATIVE)
@@ -350,7 +345,7 @@ def test_a_constant_level_leaves_the_overall_test_to_the_others(engine_table):
     rng = np.random.default_rng(20240602)
     groups = {"a": list(rng.normal(10, 1, 50)), "b": list(rng.normal(20, 1, 50)), "c": [15, 15]}
     table, summaries = _prepared(engine_table, groups)
-    result = compare_groups(table, summaries)
+    result = _compare(table, summaries)
     assert result.levels == ("a", "b", "c") and result.excluded_levels == ()
     assert result.welch_levels == ("a", "b") and result.undefined_reason is None
     assert any("'c'" in note and "15" in note for note in result.notes)
@@ -375,7 +370,7 @@ def test_a_constant_level_leaves_the_overall_test_to_the_others(engine_table):
 def test_welch_anova_runs_on_the_levels_with_spread(engine_table):
     groups = {key: values for key, values in FOUR.items()} | {"flat": [4.5] * 6}
     table, summaries = _prepared(engine_table, groups)
-    result = compare_groups(table, summaries)
+    result = _compare(table, summaries)
     assert result.welch_levels == ("a", "b", "c", "d") and "flat" in result.levels
     varying = _frame(FOUR)
     reference = anova_oneway(
@@ -395,7 +390,7 @@ def test_welch_anova_runs_on_the_levels_with_spread(engine_table):
 def test_constant_levels_that_differ_say_why_and_lean_on_ranks(engine_table):
     groups = {"five": [5.0] * 6, "seven": [7.0] * 4}
     table, summaries = _prepared(engine_table, groups)
-    result = compare_groups(table, summaries)
+    result = _compare(table, summaries)
     assert result.statistic is None and result.p_value is None and result.welch_levels == ()
     assert "5" in result.undefined_reason and "7" in result.undefined_reason
     assert any(result.undefined_reason in note for note in result.notes)
@@ -412,7 +407,7 @@ def test_constant_levels_that_differ_say_why_and_lean_on_ranks(engine_table):
 def test_one_varying_level_among_constants_gives_kruskal_wallis(engine_table):
     groups = {"low": [1.0] * 5, "high": [9.0] * 3, "spread": [2.0, 4.0, 6.0, 8.0]}
     table, summaries = _prepared(engine_table, groups)
-    result = compare_groups(table, summaries)
+    result = _compare(table, summaries)
     assert result.test == "welch_anova" and result.statistic is None
     assert "'spread'" in result.undefined_reason
     reference = scipy_stats.kruskal(*groups.values())  # reference: scipy.stats.kruskal
@@ -426,7 +421,7 @@ def test_one_varying_level_among_constants_gives_kruskal_wallis(engine_table):
 def test_every_value_the_same_runs_no_test(engine_table):
     groups = {"a": [3.0, 3.0], "b": [3.0, 3.0, 3.0]}
     table, summaries = _prepared(engine_table, groups)
-    result = compare_groups(table, summaries)
+    result = _compare(table, summaries)
     assert result.undefined_reason is not None and result.p_value is None
     # reference: scipy.stats.kruskal gives nan when every value ties (the tie correction is 0);
     # scipy.stats.mannwhitneyu returns p = 1 by convention, we report "undefined" instead.
@@ -545,7 +540,7 @@ def test_welch_t_and_kruskal_match_scipy_with_large_offsets(engine_table, offset
 def test_overall_welch_uses_exactly_the_levels_with_spread(engine_table, levels):
     groups = {f"g{i}": [float(v) for v in values] for i, values in enumerate(levels)}
     table, summaries = _prepared(engine_table, groups)
-    result = compare_groups(table, summaries)
+    result = _compare(table, summaries)
     varying = [level for level, values in groups.items() if np.ptp(values) > 0]
     if len(varying) < 2:
         assert result.undefined_reason and result.p_value is None and result.welch_levels == ()

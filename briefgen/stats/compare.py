@@ -44,7 +44,6 @@ from briefgen.stats.ranks import (
     lean_on,
     pooled_skewness,
     rank_test,
-    within_level_skewness,
 )
 from briefgen.stats.welch import (
     ClassicalAnova,
@@ -244,15 +243,15 @@ def compare_groups(
     *,
     variable: str | None = None,
     fold: str | None = None,
-    centred: Mapping[object, tuple[int, Fraction, Fraction]] | None = None,
+    centred: Mapping[object, tuple[int, Fraction, Fraction]],
 ) -> GroupComparison | None:
     """Compare the target across levels; None when fewer than two levels have n ≥ 2.
 
     ``levels_table`` has columns ``level`` and ``y``; ``summaries`` come from
     ``summarise_levels`` on the same table. ``fold`` is the label of the folded
     levels, if any, which is tested like a level but never made the reference.
-    ``centred``: each level's centred sums of squares and cubes, when the summaries'
-    pass took them (``summarise(..., third_moments=True)``); else a query takes them.
+    ``centred``: each level's (n, centred sums of squares and cubes), from the summaries'
+    pass (``summarise(..., third_moments=True)``), for the skewness of residuals.
     """
     tested = [s for s in summaries if s.n >= 2 and s.mean is not None and s.sd is not None]
     tested_names = {s.level for s in tested}
@@ -267,14 +266,7 @@ def compare_groups(
     welch, undefined_reason, (test, statistic, df1, df2, p_value) = _overall_welch(
         tested, pairwise, notes
     )
-    if centred is not None:
-        skewness = pooled_skewness(centred[s.level] for s in tested)
-    else:
-        skewness = within_level_skewness(
-            levels_table,
-            {s.level: s.mean for s in tested},
-            {s.level: (s.min, s.max, s.n) for s in tested},
-        )
+    skewness = pooled_skewness(centred[s.level] for s in tested)
     strongly_skewed = skewness is not None and abs(skewness) > STRONG_SKEW
     # Ranks are defined with ties, so the rank test stands in when Welch's cannot run.
     needs_ranks = strongly_skewed or undefined_reason is not None

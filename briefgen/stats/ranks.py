@@ -17,16 +17,15 @@ from __future__ import annotations
 
 import logging
 import math
-from collections.abc import Iterable, Mapping, Sequence
+from collections.abc import Iterable, Sequence
 from dataclasses import dataclass, replace
 from fractions import Fraction
 from itertools import combinations
 
-import ibis
 import ibis.expr.types as ir
 
 from briefgen.stats.core.distributions import chi2_sf, norm_sf
-from briefgen.stats.core.exact import DECIMAL, FixedPoint, as_integer, exact_sum, value_of
+from briefgen.stats.core.exact import DECIMAL, as_integer, exact_sum
 from briefgen.stats.core.ranking import (
     counting_pays,
     doubled_rank_and_ties,
@@ -268,7 +267,7 @@ def pooled_skewness(centred: Iterable[tuple[int, Fraction, Fraction]]) -> float 
     (n, Σ(y − ȳ)², Σ(y − ȳ)³) (``summarise(..., third_moments=True)``): no query.
 
     The residuals of every level have mean 0, so g1 = (ΣS3/N) / (ΣS2/N)^1.5. None
-    with fewer than three values or no spread at all, as ``within_level_skewness``.
+    with fewer than three values or no spread at all.
     """
     levels = list(centred)
     n = sum(level[0] for level in levels)
@@ -279,69 +278,3 @@ def pooled_skewness(centred: Iterable[tuple[int, Fraction, Fraction]]) -> float 
     if m2 <= 0:
         return None
     return float(m3) / float(m2) ** 1.5
-
-
-def within_level_skewness(
-    levels_table: ir.Table,
-    means: Mapping[str, float],
-    extents: Mapping[str, tuple[float, float, int]] | None = None,
-) -> float | None:
-    """Sample skewness g1 of the residuals y − (mean of its level), from centred sums.
-
-    The level means are joined back to the rows, so the engine only ever raises
-    residuals to powers, never raw values; the powers are summed as exact fixed-point
-    integers (``briefgen.stats.core.exact``), scaled from each level's (min, max, n)
-    in ``extents`` (queried when not given). None with fewer than three values or no
-    spread at all.
-    """
-    if not means:
-        return None
-    table = usable_rows(levels_table, list(means))
-    if extents is None:
-        extents = _extents(table)
-    level_means = ibis.memtable(
-        {"level": list(means), "level_mean": [float(value) for value in means.values()]}
-    )
-    joined = table.inner_join(level_means, "level")
-    used = [level for level in means if level in extents and extents[level][2]]
-    # Float subtraction is monotone: no residual lies beyond its level's min's or max's.
-    bound = max(
-        (max(extents[k][1] - means[k], means[k] - extents[k][0]) for k in used), default=0.0
-    )
-    rows = sum(extents[k][2] for k in used)
-    # Σr³ as Σ(r²)·r with r² quantised on its own scale: a product of two fixed-point
-    # values keeps the bits of a square (56 at 6,000 rows) where a cube of one would
-    # keep a third of the budget each (37).
-    scale, square_scale = FixedPoint.fit(bound, rows), FixedPoint.fit(bound * bound, rows)
-    deviation = joined.y - joined.level_mean
-    residual = scale.quantise(deviation)
-    square = square_scale.quantise(deviation * deviation)
-    sums = (
-        joined.aggregate(
-            n=joined.count(),
-            s1=exact_sum(residual),
-            s2=exact_sum(residual * residual),
-            s3=exact_sum(square * residual),
-        )
-        .to_pyarrow()
-        .to_pylist()[0]
-    )
-    n = int(sums["n"])
-    if n < 3:
-        return None
-    # The joined means are rounded, so the residuals' own mean d is tiny but not 0;
-    # moments about d from moments about 0 (exact): m2 = S2/n − d², m3 = S3/n − 3d·S2/n + 2d³.
-    d = value_of(sums["s1"], scale) / n
-    s2 = value_of(sums["s2"], scale, scale) / n
-    s3 = value_of(sums["s3"], square_scale, scale) / n
-    m2 = s2 - d * d
-    m3 = s3 - 3 * d * s2 + 2 * d**3
-    if m2 <= 0:
-        return None
-    return float(m3) / float(m2) ** 1.5
-
-
-def _extents(table: ir.Table) -> dict[str, tuple[float, float, int]]:
-    """(min, max, n) of ``y`` per level, for callers without the level summaries."""
-    rows = table.group_by("level").aggregate(low=table.y.min(), high=table.y.max(), n=table.count())
-    return {r["level"]: (r["low"], r["high"], int(r["n"])) for r in rows.to_pyarrow().to_pylist()}
