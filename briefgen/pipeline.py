@@ -159,7 +159,7 @@ def build_brief(
         stats = compute(source, spec)
         if "json" in formats or comparing:
             stage.info("hashing %s", spec.data.label)
-            record = record_run(spec, source.table, stats.accounting.rows_read)
+            record = record_run(spec, source.columns, stats.accounting.rows_read)
     release(source.table)
     previous = find_previous(spec, folder, compare) if comparing or checks else None
     since = compare_runs(stats, record, previous) if comparing and record else None

@@ -42,7 +42,7 @@ def _run(folder: Path, frame: pd.DataFrame, name: str = "run", **config):
     spec = load_spec(folder / "brief.yaml")
     source = open_source(spec)
     stats = compute(source, spec)
-    record = record_run(spec, source.table, stats.accounting.rows_read)
+    record = record_run(spec, source.columns, stats.accounting.rows_read)
     stored = json.loads(render_json(stats, spec, "2026-12-01", made_from=record))
     return spec, stats, record, stored
 

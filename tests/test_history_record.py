@@ -59,7 +59,7 @@ def test_the_record_holds_hash_size_schema_config_and_versions(tmp_path):
             "email": {"host": "h", "sender": "s@example.org", "recipients": ["r@example.org"]}
         },
     )
-    record = record_run(spec, open_source(spec).table, 2)
+    record = record_run(spec, open_source(spec).columns, 2)
     data = (tmp_path / "data.csv").read_bytes()
     assert record.data.bytes == len(data) and record.data.rows == 2 and record.data.query is None
     assert record.data.sha256 == file_sha256(tmp_path / "data.csv")

@@ -136,6 +136,61 @@ def test_where_selects_the_rows_pandas_selects_on_the_penguins(tmp_path, where, 
     assert stats.overall.mean == pytest.approx(chosen.body_mass_g.mean(), rel=1e-12)
 
 
+@pytest.mark.parametrize("where", [None, "island = 'Dream' or bill_depth_mm > 18"])
+def test_columns_no_setting_names_are_not_stored_but_their_empty_cells_are_counted(tmp_path, where):
+    """Only named columns are copied into the engine; every column's empty cells still count.
+
+    Reference: pandas ``isna().sum()`` per column over the rows the condition selects,
+    in the file's column order, on the Palmer penguins (8 columns, 5 with empty cells).
+    """
+    keys = {"where": where} if where else {}
+    spec = load_spec(_penguin_spec(tmp_path, **keys))
+    source = open_source(spec, "2026-12-02")
+    frame = load_penguins()
+    named = ["species", "flipper_length_mm", "body_mass_g"]
+    named += ["island", "bill_depth_mm"] if where else []
+    stored = source.scope.unselected if source.scope else source.table
+    assert list(stored.columns) == [c for c in frame.columns if c in named]
+    assert list(source.columns.names) == list(frame.columns)
+    stats = compute(source, spec)
+    chosen = frame
+    if where:
+        chosen = frame[((frame.island == "Dream") | (frame.bill_depth_mm > 18)).fillna(False)]
+    expected = {column: int(n) for column, n in chosen.isna().sum().items()}
+    assert stats.accounting.missing_by_column == expected
+    assert list(stats.accounting.missing_by_column) == list(frame.columns)
+    assert expected["sex"] > 0 and "sex" not in named  # an unused column with empty cells
+
+
+def test_a_window_selects_the_same_rows_for_the_empty_cells_of_unused_columns(
+    tmp_path, monkeypatch
+):
+    frame = _timed(tmp_path)
+    frame["note"] = ["" if i % 4 == 0 else f"n{i}" for i in range(len(frame))]
+    frame["code"] = [None if i % 5 == 0 else float(i) for i in range(len(frame))]
+    frame.to_csv(tmp_path / "timed.csv", index=False)
+    monkeypatch.setenv("SOURCE_DATE_EPOCH", "1796169600")  # 2026-12-02 00:00 UTC
+    config = {
+        "title": "Window",
+        "data": {"path": "timed.csv"},
+        "target": "minutes",
+        "window": {"column": "t", "last": "7 days"},
+        "output": {"dir": "out", "formats": ["json"]},
+    }
+    (tmp_path / "brief.yaml").write_text(yaml.safe_dump(config), encoding="utf-8")
+    spec = load_spec(tmp_path / "brief.yaml")
+    source = open_source(spec)
+    assert list(source.table.columns) == ["t", "minutes"]
+    stats = compute(source, spec)
+    # Reference: pandas on the rows inside the window (read back as the CSV holds them).
+    read = pd.read_csv(tmp_path / "timed.csv")
+    times = pd.to_datetime(read.t)
+    inside = read[(times >= "2026-11-25") & (times < "2026-12-02")]
+    assert stats.accounting.rows_read == len(inside)
+    assert stats.accounting.missing_by_column == {c: int(n) for c, n in inside.isna().sum().items()}
+    assert stats.accounting.missing_by_column["note"] > 0
+
+
 # ── the window ──────────────────────────────────────────────────────────────────────
 
 

@@ -12,8 +12,8 @@ from dataclasses import dataclass
 from importlib.metadata import PackageNotFoundError, version
 from pathlib import Path
 
+import ibis
 import ibis.expr.datatypes as dt
-import ibis.expr.types as ir
 
 from briefgen import __version__
 from briefgen.config import BriefSpec
@@ -96,11 +96,9 @@ def column_kind(dtype: dt.DataType) -> str:
     return "other"
 
 
-def schema_of(table: ir.Table) -> tuple[ColumnType, ...]:
-    """The table's columns in order, with engine type and kind (the schema only, no rows)."""
-    return tuple(
-        ColumnType(name, str(dtype), column_kind(dtype)) for name, dtype in table.schema().items()
-    )
+def schema_of(schema: ibis.Schema) -> tuple[ColumnType, ...]:
+    """The data's columns in order, with engine type and kind (the schema only, no rows)."""
+    return tuple(ColumnType(name, str(dtype), column_kind(dtype)) for name, dtype in schema.items())
 
 
 def _version(package: str) -> str:
@@ -135,7 +133,7 @@ def config_as_used(spec: BriefSpec) -> dict:
     return used
 
 
-def record_run(spec: BriefSpec, table: ir.Table, rows: int) -> RunRecord:
+def record_run(spec: BriefSpec, schema: ibis.Schema, rows: int) -> RunRecord:
     """The record of this run; hashes the data file (one streamed read).
 
     A database source is recorded by its query (a table as ``SELECT * FROM`` it) and
@@ -146,7 +144,7 @@ def record_run(spec: BriefSpec, table: ir.Table, rows: int) -> RunRecord:
         query = source.query or f"SELECT * FROM {source.table}"
         data = DataRecord(source.label, "database", None, None, query, rows)
         return RunRecord(
-            data, schema_of(table), config_as_used(spec), built_with(spec.engine.backend)
+            data, schema_of(schema), config_as_used(spec), built_with(spec.engine.backend)
         )
     path = spec.data_path
     data = DataRecord(
@@ -157,4 +155,4 @@ def record_run(spec: BriefSpec, table: ir.Table, rows: int) -> RunRecord:
         query=None,
         rows=rows,
     )
-    return RunRecord(data, schema_of(table), config_as_used(spec), built_with(spec.engine.backend))
+    return RunRecord(data, schema_of(schema), config_as_used(spec), built_with(spec.engine.backend))

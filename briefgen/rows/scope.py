@@ -112,11 +112,17 @@ def _fields(node: IsMissing | InList | Between) -> list:
 
 
 def select_rows(
-    table: ir.Table, where: str | None, window: tuple[str, str] | None, built_on: str, label: str
+    table: ir.Table,
+    where: str | None,
+    window: tuple[str, str] | None,
+    built_on: str,
+    label: str,
+    checked: bool = False,
 ) -> tuple[ir.Table, RowScope | None]:
     """The rows the brief covers, and their scope; ``(table, None)`` when nothing is selected.
 
-    ``window`` is (column, last), as in the config.
+    ``window`` is (column, last), as in the config. ``checked``: the window's column was
+    checked on another copy of the same data, so its values are not read again here.
     """
     if where is None and window is None:
         return table, None
@@ -130,7 +136,8 @@ def select_rows(
         column, last = window
         if column not in table.columns:
             raise _missing_column(column, "window.column", list(table.columns), label)
-        check_time_column(table, column, label, key="window.column")
+        if not checked:
+            check_time_column(table, column, label, key="window.column")
         spec = window_for(column, last, built_on)
         times = time_values(table, column)
         start = ibis.literal(dt.datetime.combine(spec.start, dt.time()))
@@ -161,6 +168,17 @@ def select_configured(
             "data's dates and values."
         )
     return selected, scope
+
+
+def same_rows(table: ir.Table, spec: BriefSpec, built_on: str | None, label: str) -> ir.Table:
+    """The rows ``select_configured`` selected, from another copy of the same, checked data."""
+    from briefgen.pipeline import build_date
+
+    window = (spec.window.column, spec.window.last) if spec.window is not None else None
+    selected, _ = select_rows(
+        table, spec.where, window, built_on or build_date(), label, checked=True
+    )
+    return selected
 
 
 def _both(first: ir.BooleanValue | None, second: ir.BooleanValue | None) -> ir.BooleanValue:

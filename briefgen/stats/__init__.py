@@ -167,7 +167,14 @@ def _analyse(source: Source, spec: BriefSpec, frame: AnalysisFrame) -> BriefStat
     usages = [r.usage for r in (overall, *groups, *crosses)]
     usages += [trend.usage] if trend is not None else []
     accounting = count_rows(
-        source.table, frame, spec, usages, relationships.references, scope=source.scope
+        source.table,
+        frame,
+        spec,
+        usages,
+        relationships.references,
+        scope=source.scope,
+        unused=source.unused,
+        columns=source.columns.names,
     )
     log.info("statistics done: %d rows read", accounting.rows_read)
     return BriefStats(

@@ -66,17 +66,30 @@ def count_rows(
     usages: Sequence[RowUsage],
     references: dict,
     scope: RowScope | None = None,
+    unused: ir.Table | None = None,
+    columns: Sequence[str] | None = None,
 ) -> Accounting:
     """One aggregate query over the raw table; the rest from the results' usages.
 
     With a row ``scope``, one more query over the source before selection counts the
-    rows ``where`` and ``window`` left out.
+    rows ``where`` and ``window`` left out. ``unused`` holds the same rows' columns the
+    raw table leaves out (``source.Source``): one more query counts their empty cells,
+    listed with the others in the data's order, ``columns``.
     """
     # A missing marker ("NA") in a target read as text is a missing value, like an empty cell.
     raw_counts = {"rows": raw.count(), "target_null": is_missing(raw, spec.target).sum()}
     raw_counts |= {f"missing_{i}": raw[name].isnull().sum() for i, name in enumerate(raw.columns)}
     raw_row = one_row(raw, raw_counts)
     rows_read = int(raw_row["rows"])
+    missing = {name: int(raw_row[f"missing_{i}"]) for i, name in enumerate(raw.columns)}
+    if unused is not None:
+        counts = {
+            f"missing_{i}": unused[name].isnull().sum() for i, name in enumerate(unused.columns)
+        }
+        unused_row = one_row(unused, counts)
+        missing |= {name: int(unused_row[f"missing_{i}"]) for i, name in enumerate(unused.columns)}
+    if columns is not None:
+        missing = {name: missing[name] for name in columns}
     target_missing = int(raw_row["target_null"])
     all_usages = [*usages, *_fit_usages(frame, references)]
     with_target = next(u.rows_used for u in all_usages if u.analysis == "target")
@@ -91,7 +104,6 @@ def count_rows(
     ordered = sorted(all_usages, key=lambda u: order[u.analysis.partition(":")[0]])
     for u in ordered:
         dropped.extend(u.left_out)
-    missing = {name: int(raw_row[f"missing_{i}"]) for i, name in enumerate(raw.columns)}
     rows_in_source, selection = rows_read, ()
     if scope is not None:
         counts = one_row(scope.unselected, left_out_counts(scope))
