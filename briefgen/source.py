@@ -193,9 +193,8 @@ def open_source(spec: BriefSpec, built_on: str | None = None) -> Source:
             table = materialize(table.select(named) if named else table)
         check_columns(table, spec, label)
         table, scope = select_configured(table, spec, built_on, label)
-        if spec.data.url is None and spec.data_format in ("csv", "json") and named:
-            rows = same_rows(view, spec, built_on, label)
-            unused = rows.select([name for name in view.columns if name not in named])
+        if named:
+            unused = same_rows(view, spec, built_on, label).drop(*named)
     log.info("opened %s with %d columns", label, len(schema))
     return Source(
         table=table,
