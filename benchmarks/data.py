@@ -12,6 +12,10 @@ stays at one chunk however many rows are asked for. Files are cached under
 ``benchmarks/.data/`` (not committed) and written under a temporary name, renamed
 when complete, so an interrupted run never leaves a short file behind.
 
+``--extra N`` adds N columns a brief's config does not name, as wide exports carry
+(numbers, whole numbers, codes and remarks in turn, 2% of their cells empty), from a
+generator of their own so the seven columns above stay the same rows.
+
 Run ``python benchmarks/data.py --rows 1000000 --format csv`` to make one file; it
 prints the path.
 """
@@ -53,6 +57,7 @@ LINES = ("chilled", "dry goods", "frozen", "household", "produce", "bulky")
 START = np.datetime64("2026-01-01T00:00:00", "s")
 SECONDS_IN_YEAR = 365 * 24 * 3600
 MISSING_SHARE = 0.001  # empty target and distance cells
+EXTRA_MISSING_SHARE = 0.02  # empty cells in the columns no config names
 
 
 def generate_chunk(seed: int, rows: int) -> pa.Table:
@@ -87,18 +92,44 @@ def generate_chunk(seed: int, rows: int) -> pa.Table:
     )
 
 
-def dataset_path(rows: int, data_format: str, directory: Path = DATA_DIR) -> Path:
-    """Where the file with ``rows`` rows lives; the name records the row count."""
-    return directory / f"picks_{rows}.{data_format}"
+def extra_columns(seed: int, rows: int, count: int) -> dict[str, pa.Array]:
+    """``count`` columns no config names: numbers, whole numbers, codes, remarks in turn."""
+    rng = np.random.default_rng([seed, 1])
+    columns = {}
+    for i in range(count):
+        empty = rng.random(rows) < EXTRA_MISSING_SHARE
+        kind = i % 4
+        if kind == 0:
+            values = pa.array(np.round(rng.gamma(3.0, 4.0, rows), 2), mask=empty)
+        elif kind == 1:
+            values = pa.array(rng.integers(1, 40, rows), mask=empty)
+        elif kind == 2:
+            codes = np.char.add("C", rng.integers(1000, 9999, rows).astype(str))
+            values = pa.array(codes.tolist(), pa.string(), mask=empty)
+        else:
+            remarks = np.array(["", "recount", "damaged box", "short pick", "relabelled"])
+            chosen = remarks[rng.choice(len(remarks), rows, p=(0.9, 0.04, 0.02, 0.02, 0.02))]
+            values = pa.array(chosen.tolist(), pa.string(), mask=empty | (chosen == ""))
+        columns[f"extra_{i + 1:02d}"] = values
+    return columns
 
 
-def write_dataset(rows: int, data_format: str, target: Path) -> None:
+def dataset_path(rows: int, data_format: str, directory: Path = DATA_DIR, extra: int = 0) -> Path:
+    """Where the file with ``rows`` rows lives; the name records the row count and extras."""
+    wide = f"_extra{extra}" if extra else ""
+    return directory / f"picks_{rows}{wide}.{data_format}"
+
+
+def write_dataset(rows: int, data_format: str, target: Path, extra: int = 0) -> None:
     """Write ``rows`` rows to ``target`` as CSV or Parquet, one chunk at a time."""
     partial = target.with_name(f".{target.name}.partial")
     writer = None
     try:
         for index, start in enumerate(range(0, rows, CHUNK_ROWS)):
-            chunk = generate_chunk(SEED + index, min(CHUNK_ROWS, rows - start))
+            size = min(CHUNK_ROWS, rows - start)
+            chunk = generate_chunk(SEED + index, size)
+            for name, values in extra_columns(SEED + index, size, extra).items():
+                chunk = chunk.append_column(name, values)
             if data_format == "csv":
                 # Plain text columns: a CSV has no dictionary, and time as ISO text.
                 chunk = chunk.cast(
@@ -127,12 +158,12 @@ def write_dataset(rows: int, data_format: str, target: Path) -> None:
         partial.unlink(missing_ok=True)
 
 
-def ensure_dataset(rows: int, data_format: str, directory: Path = DATA_DIR) -> Path:
+def ensure_dataset(rows: int, data_format: str, directory: Path = DATA_DIR, extra: int = 0) -> Path:
     """The cached file with ``rows`` rows, generated first when missing."""
-    target = dataset_path(rows, data_format, directory)
+    target = dataset_path(rows, data_format, directory, extra)
     if not target.exists():
         directory.mkdir(parents=True, exist_ok=True)
-        write_dataset(rows, data_format, target)
+        write_dataset(rows, data_format, target, extra)
     return target
 
 
@@ -140,8 +171,9 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--rows", type=int, required=True)
     parser.add_argument("--format", choices=["csv", "parquet"], required=True)
+    parser.add_argument("--extra", type=int, default=0, help="columns no config names")
     args = parser.parse_args()
-    print(ensure_dataset(args.rows, args.format))
+    print(ensure_dataset(args.rows, args.format, extra=args.extra))
 
 
 if __name__ == "__main__":

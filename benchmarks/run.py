@@ -117,10 +117,18 @@ def load() -> str:
 
 
 def measure(
-    rows: int, data_format: str, repeat: int, with_hand: bool, before: Path | None
+    rows: int,
+    data_format: str,
+    repeat: int,
+    with_hand: bool,
+    before: Path | None,
+    extra: int = 0,
 ) -> Measured:
     python = sys.executable
-    made = run_child([python, str(HERE / "data.py"), "--rows", str(rows), "--format", data_format])
+    made = run_child(
+        [python, str(HERE / "data.py"), "--rows", str(rows), "--format", data_format]
+        + ["--extra", str(extra)]
+    )
     path = Path(made.output.strip().splitlines()[-1])
     with path.open("rb") as stream:  # into the page cache, so no measurement pays the disk
         while stream.read(64 * MIB):
@@ -263,6 +271,12 @@ def parse_args(argv: list[str] | None = None) -> argparse.Namespace:
         help="also build with the briefgen package in this folder (for example "
         "`git archive main briefgen | tar -x -C DIR`), for before/after in one run",
     )
+    parser.add_argument(
+        "--extra",
+        type=int,
+        default=0,
+        help="add this many columns the config does not name, as a wide export has",
+    )
     return parser.parse_args(argv)
 
 
@@ -272,6 +286,8 @@ def main(argv: list[str] | None = None) -> int:
     formats = [f.strip() for f in args.format.split(",") if f.strip()]
     if not sizes or sizes[0] <= 0 or args.repeat < 1 or not set(formats) <= {"csv", "parquet"}:
         raise SystemExit("--rows needs positive counts, --format csv and/or parquet, --repeat ≥ 1")
+    if args.extra < 0:
+        raise SystemExit("--extra needs a count of columns, 0 or more")
     started_load = load()
     log(f"fixed cost: {FIXED_ROWS:,} rows (load {load()})")
     fixed = measure_fixed(args.repeat)
@@ -279,10 +295,18 @@ def main(argv: list[str] | None = None) -> int:
     for rows in sizes:
         for data_format in formats:
             results.append(
-                measure(rows, data_format, args.repeat, rows <= BY_HAND_UP_TO, args.before)
+                measure(
+                    rows,
+                    data_format,
+                    args.repeat,
+                    rows <= BY_HAND_UP_TO,
+                    args.before,
+                    args.extra,
+                )
             )
             log(format_table(results, fixed))  # so far, in case a later size fails
-    print(f"{os.cpu_count()} cores; load average at start {started_load}, at end {load()}")
+    wide = f"; {args.extra} extra columns no config names" if args.extra else ""
+    print(f"{os.cpu_count()} cores; load average at start {started_load}, at end {load()}{wide}")
     print(format_table(results, fixed))
     for line in format_growth(results):
         print(line)
