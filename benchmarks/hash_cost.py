@@ -18,12 +18,11 @@ from __future__ import annotations
 
 import argparse
 import json
+import resource
 import subprocess
 import sys
 import time
 from pathlib import Path
-
-from run import peak_mib
 
 DATA_DIR = Path(__file__).resolve().parent / ".data"
 DEMO_CSV = Path(__file__).resolve().parents[1] / "briefgen" / "demo" / "deliveries.csv"
@@ -44,6 +43,11 @@ def csv_of(megabytes: int) -> Path:
             out.write(body)
     partial.replace(target)
     return target
+
+
+def peak_mib() -> float:
+    """This process's peak resident memory so far (Linux reports kibibytes)."""
+    return resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
 
 
 def _plain_read(path: Path) -> None:
