@@ -158,8 +158,7 @@ def select_configured(
 
     if spec.where is None and spec.window is None:
         return table, None
-    window = (spec.window.column, spec.window.last) if spec.window is not None else None
-    selected, scope = select_rows(table, spec.where, window, built_on or build_date(), label)
+    selected, scope = select_rows(table, spec.where, _window(spec), built_on or build_date(), label)
     if selected.limit(1).count().to_pyarrow().as_py() == 0:
         keys = " and ".join(k for k in ("where", "window") if getattr(spec, k) is not None)
         rows = scope.words().removeprefix("This brief covers only the rows ").rstrip(".")
@@ -174,11 +173,14 @@ def same_rows(table: ir.Table, spec: BriefSpec, built_on: str | None, label: str
     """The rows ``select_configured`` selected, from another copy of the same, checked data."""
     from briefgen.pipeline import build_date
 
-    window = (spec.window.column, spec.window.last) if spec.window is not None else None
     selected, _ = select_rows(
-        table, spec.where, window, built_on or build_date(), label, checked=True
+        table, spec.where, _window(spec), built_on or build_date(), label, checked=True
     )
     return selected
+
+
+def _window(spec: BriefSpec) -> tuple[str, str] | None:
+    return (spec.window.column, spec.window.last) if spec.window is not None else None
 
 
 def _both(first: ir.BooleanValue | None, second: ir.BooleanValue | None) -> ir.BooleanValue:
