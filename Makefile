@@ -6,7 +6,7 @@ BIN := $(VENV)/bin
 STAMP := $(VENV)/.installed
 TEST_STAMP := $(VENV)/.installed-test
 
-.PHONY: demo test test-spark lint bench example system-deps clean
+.PHONY: demo test test-spark test-slow lint bench example system-deps clean
 
 # WeasyPrint needs Pango, HarfBuzz's subsetter (repeatable font subsets) and a font; install them with apt when missing (CI and fresh machines run as root).
 # Chromium measures the HTML's width at phone and desktop sizes in tests/test_layout.py.
@@ -54,6 +54,12 @@ test: system-deps $(TEST_STAMP) lint
 # backend); CI runs it after `make test` (about 3 minutes on 2 cores).
 test-spark: system-deps $(TEST_STAMP)
 	$(BIN)/pytest -q -m slow -k pyspark
+
+# The other slow runs, left out of `make test` and CI: twenty builds killed at chosen
+# moments, 200 briefs on pure noise, a hundred million extreme values summed exactly
+# (about 7 minutes on 2 cores).
+test-slow: system-deps $(TEST_STAMP)
+	$(BIN)/pytest -q -m slow -k "not pyspark"
 
 # Rebuild the committed example brief with a fixed date, so unchanged output gives unchanged bytes.
 # Copied out of the published run so example_output/ stays three plain files, not run folders.
