@@ -56,18 +56,13 @@ class Source:
 
     table: ir.Table
     label: str
+    # Every column of the data, in its order, with its type: ``table`` may hold fewer.
+    columns: ibis.Schema
     scope: RowScope | None = None
     origin: tuple[tuple[str, str | None], ...] = ()
-    # Every column of the data, in its order; None: those of ``table``.
-    schema: ibis.Schema | None = None
     # The selected rows' columns that ``table`` leaves out (no setting names them), still
     # in the file: read again only to count their empty cells. None when none is left out.
     unused: ir.Table | None = None
-
-    @property
-    def columns(self) -> ibis.Schema:
-        """Every column of the data, in its order, with its type."""
-        return self.schema if self.schema is not None else self.table.schema()
 
     def describe(self) -> dict[str, str | None]:
         """Where the rows came from, for provenance records: never a password.
@@ -201,7 +196,7 @@ def open_source(spec: BriefSpec, built_on: str | None = None) -> Source:
         label=label,
         scope=scope,
         origin=origin_of(spec, scope),
-        schema=schema,
+        columns=schema,
         unused=unused,
     )
 
