@@ -122,6 +122,22 @@ def test_sample_is_the_defined_rows_with_their_groups(engine_table, monkeypatch,
     assert len(got) == 700 and len(set(zip(drawn.y, drawn.x["x0"], strict=True))) < 600
 
 
+def test_many_predictors_draw_the_defined_rows(engine_table):
+    # Twelve predictors: 91 parts mixed into each key. Written as Horner's rule the SQL
+    # nested once per part and the compiler ran out of recursion from eight predictors.
+    rng = np.random.default_rng(9)
+    n = 300
+    frame = pd.DataFrame(
+        {"y": rng.normal(0, 1, n)} | {f"x{i}": rng.normal(0, 1, n) for i in range(12)}
+    )
+    frame.loc[::13, "x3"] = np.nan
+    values = ["y", *[f"x{i}" for i in range(12)]]
+    drawn = draw_sample(engine_table(frame), values[1:], size=60)
+    expected = _reference_sample(frame, values, [], 60)
+    got = list(zip(drawn.y, *[drawn.x[v] for v in values[1:]], strict=True))
+    assert got == expected
+
+
 def test_a_few_tuples_with_millions_of_copies_fit_a_small_memory_limit():
     # A 0/1 target and no predictor: two value tuples of 2.5 million copies each. Their
     # copy numbers listed whole (20 MB a list) stopped DuckDB at this limit; in blocks

@@ -184,12 +184,25 @@ def _exact_parts(value: ir.FloatingValue) -> list[ir.IntegerValue]:
 
 
 def _polynomial(parts: list[ir.IntegerValue], seed: int) -> ir.IntegerValue:
-    """Integers below 2^31 combined into one residue modulo ``PRIME``, salted with ``seed``."""
+    """Integers below 2^31 combined into one residue modulo ``PRIME``, salted with ``seed``.
+
+    The value of Horner's rule, h = (h·M + part) mod P from h = (part₀ + seed) mod P, written
+    as Σ partᵢ·M^(N−1−i) mod P with the powers computed here and the sum added as a balanced
+    tree. Horner's nesting grows with every part (seven per column), and its SQL ran past
+    the compiler's recursion limit at eight predictors; the tree is log₂ N deep. Each term
+    is below P < 2^31, so any sum of up to 2^32 terms stays inside 64 bits.
+    """
+    last = len(parts) - 1
     # Start from a column, not a literal: engines type a literal as 32-bit and would overflow.
-    mixed = (parts[0] + seed % PRIME) % PRIME
-    for part in parts[1:]:
-        mixed = (mixed * MULTIPLIER + part) % PRIME
-    return mixed
+    first = (parts[0] + seed % PRIME) % PRIME
+    terms = [
+        (part * pow(MULTIPLIER, last - i, PRIME)) % PRIME
+        for i, part in enumerate([first, *parts[1:]])
+    ]
+    while len(terms) > 1:
+        paired = [a + b for a, b in zip(terms[::2], terms[1::2], strict=False)]
+        terms = paired + (terms[-1:] if len(terms) % 2 else [])
+    return terms[0] % PRIME
 
 
 def _scrambled(key: ir.IntegerValue, copy: ir.IntegerValue) -> ir.IntegerValue:
