@@ -37,7 +37,10 @@ from briefgen.tables import (
     trend_table,
 )
 
+# Page 1 states at most this many claims one by one; more are counted, not dropped.
 MAX_KEY_FINDINGS = 8
+# Each of page 1's one-line lists (explained, not shown) names at most this many.
+MAX_LISTED = 10
 _SVG_HEIGHT = re.compile(r'<svg[^>]*\sheight="([0-9.]+)pt"')
 
 
@@ -80,12 +83,49 @@ class Document:
     @property
     def settled_findings(self) -> tuple[Finding, ...]:
         """Page 1's claims and summaries, each with its own line of certainty."""
-        return tuple(f for f in self.key_findings if f.claim in SETTLED)
+        return self._settled[:MAX_KEY_FINDINGS]
+
+    @property
+    def settled_rest(self) -> tuple[Finding, ...]:
+        """Claims past page 1's limit, named together on one line so none goes unsaid."""
+        return self._settled[MAX_KEY_FINDINGS:][:MAX_LISTED]
+
+    @property
+    def settled_more(self) -> int:
+        """Claims past page 1's limit, named or not."""
+        return max(len(self._settled) - MAX_KEY_FINDINGS, 0)
+
+    @property
+    def settled_unnamed(self) -> int:
+        return self.settled_more - len(self.settled_rest)
+
+    @property
+    def explained_findings(self) -> tuple[Finding, ...]:
+        """Differences and links another variable accounts for, named together on one line.
+
+        They passed their tests, so page 1 must not file them with what could be chance.
+        """
+        return self._of("explained")[:MAX_LISTED]
+
+    @property
+    def explained_more(self) -> int:
+        return max(len(self._of("explained")) - MAX_LISTED, 0)
 
     @property
     def open_findings(self) -> tuple[Finding, ...]:
         """Page 1's "no clear …" and untested findings, named together on one line."""
-        return tuple(f for f in self.key_findings if f.claim not in SETTLED)
+        return self._of("none", "not_tested")[:MAX_LISTED]
+
+    @property
+    def open_more(self) -> int:
+        return max(len(self._of("none", "not_tested")) - MAX_LISTED, 0)
+
+    @property
+    def _settled(self) -> tuple[Finding, ...]:
+        return tuple(f for f in self.key_findings if f.claim in SETTLED)
+
+    def _of(self, *claims: str) -> tuple[Finding, ...]:
+        return tuple(f for f in self.key_findings if f.claim in claims)
 
     @property
     def findings(self) -> tuple[Finding, ...]:
@@ -247,10 +287,11 @@ def build_document(
     sections = [s for s in sections if s not in empty]
     not_shown = [f"{s.heading}: not shown, {_why_empty(s.key)}." for s in empty]
     found = [s.finding for s in sections if s.finding is not None]
-    # Page 1 leads with clear results; "no clear …" and untested findings follow them.
+    # Page 1 leads with clear results; explained, "no clear …" and untested findings follow.
     clear = [f for f in found if f.claim in SETTLED]
     unclear = [f for f in found if f.claim not in SETTLED]
-    key = [*clear, *unclear][:MAX_KEY_FINDINGS]
+    key = [*clear, *unclear]
+    explained = sum(1 for f in found if f.claim == "explained" and family.passes(f.key))
     names = {g: name_for(spec, g) for g in spec.groups}
     accounting = stats.accounting
     rows = fmt_count(accounting.rows_read)
@@ -265,7 +306,7 @@ def build_document(
         built_on=built_on,
         paper=spec.output.paper,
         key_findings=tuple(key),
-        family_note=family_sentence(family),
+        family_note=family_sentence(family, explained),
         lead=lead_figure(sections),
         cautions=tuple(not_shown + cautions(stats, words, names)),
         sections=tuple(sections),

@@ -124,8 +124,43 @@ def test_a_group_that_removes_the_slope_is_said(tmp_path):
     frame = _simpson_frame(within_slope=0.0, seed=8)
     _, doc = brief_for(frame, tmp_path, target="yield", groups=["crew"], predictors=["hours"])
     finding = findings_by_key(doc)["fit-hours"]
-    assert finding.claim == "none"
+    assert finding.claim == "explained"
     assert finding.headline == "Link with hours is explained by crew"
+    # The pooled line passed its test: page 1 files it as explained, not as possible chance.
+    assert finding in doc.explained_findings and finding not in doc.open_findings
+    assert "1 of them is explained by another variable" in doc.family_note
+
+
+def test_a_line_clear_alone_is_not_called_no_link(tmp_path):
+    # Noise plus two rows far out at large x: the least-squares line is clear, the ranks
+    # are not. "No clear relationship" would contradict the slope interval beside it.
+    from scipy import stats as sps
+
+    rng = np.random.default_rng(12)
+    x = np.concatenate([rng.uniform(0, 10, 300), np.full(2, 40.0)])
+    y = np.concatenate([rng.normal(0, 1, 300), np.full(2, 6.0)])
+    frame = pd.DataFrame({"load": x, "output": y})
+    stats, doc = brief_for(frame, tmp_path, target="output", predictors=["load"])
+    line = sps.linregress(x, y)  # scipy reference for the line's p-value
+    ranks = sps.spearmanr(x, y)  # and for the ranks'
+    assert line.pvalue < 0.05 < ranks.pvalue
+    assert stats.fits[0].slope_p_value == pytest.approx(line.pvalue, rel=1e-6)
+    assert stats.correlations[0].spearman_p_value == pytest.approx(ranks.pvalue, rel=1e-6)
+    finding = findings_by_key(doc)["fit-load"]
+    assert finding.claim == "none"
+    assert finding.headline == "No consistent link with load"
+    assert finding.certainty.startswith("The straight line (p")
+    assert "alone would be clear, the rank correlation (p" in finding.certainty
+    assert "No clear straight-line or rank relationship" not in finding.certainty
+
+
+def test_pure_noise_predictor_says_no_clear_link(tmp_path):
+    rng = np.random.default_rng(13)
+    frame = pd.DataFrame({"load": rng.uniform(0, 10, 300), "output": rng.normal(0, 1, 300)})
+    _, doc = brief_for(frame, tmp_path, target="output", predictors=["load"])
+    finding = findings_by_key(doc)["fit-load"]
+    assert finding.headline == "No clear link with load"
+    assert finding.certainty.startswith("No clear straight-line or rank relationship")
 
 
 def test_a_plain_rise_is_claimed_with_a_readable_step(tmp_path):
@@ -199,9 +234,12 @@ def test_differences_another_group_explains_are_not_claimed(tmp_path):
     reference = anova_lm(smf.ols("weight ~ C(farm) + C(breed)", frame).fit(), typ=2)
     assert given.p_value == pytest.approx(reference.loc["C(farm)", "PR(>F)"], rel=1e-6)
     found = findings_by_key(doc)
-    assert found["group-farm"].claim == "none"
+    assert found["group-farm"].claim == "explained"
     assert found["group-farm"].headline == "By farm: differences explained by breed"
     assert found["group-breed"].claim == "difference"
+    # Farm's own test passed: listed as explained, never among what could be chance.
+    assert found["group-farm"] in doc.explained_findings
+    assert found["group-farm"] not in doc.open_findings
 
 
 def test_differences_mostly_from_another_group_say_so_on_page_one(tmp_path):
@@ -237,3 +275,31 @@ def test_a_trend_through_seasons_is_flagged(tmp_path):
     )
     _, doc = brief_for(frame, tmp_path, target="temp", time="day")
     assert any("runs through seasons" in note for note in doc.cautions)
+
+
+def test_page_one_counts_what_it_cannot_list(tmp_path):
+    # Nine predictors with a strong slope and eleven of pure noise: page 1 states eight
+    # claims one by one and lists ten open questions; the rest are counted, never dropped.
+    from briefgen.config import load_spec
+    from briefgen.document import MAX_KEY_FINDINGS, MAX_LISTED
+    from briefgen.render import render_html
+
+    rng = np.random.default_rng(14)
+    n = 400
+    columns = {f"s{i}": rng.uniform(0, 1, n) for i in range(9)}
+    columns |= {f"z{i:02d}": rng.uniform(0, 1, n) for i in range(11)}
+    columns["output"] = sum(columns[f"s{i}"] for i in range(9)) * 3 + rng.normal(0, 0.5, n)
+    frame = pd.DataFrame(columns)
+    _, doc = brief_for(frame, tmp_path, target="output", predictors=list(columns)[:-1])
+    settled = [f for f in doc.findings if f.claim in ("summary", "rise", "fall")]
+    open_ = [f for f in doc.findings if f.claim in ("none", "not_tested")]
+    assert len(settled) > MAX_KEY_FINDINGS and len(open_) > MAX_LISTED
+    assert doc.settled_findings == tuple(settled[:MAX_KEY_FINDINGS])
+    assert doc.settled_rest == tuple(settled[MAX_KEY_FINDINGS:])
+    assert doc.settled_more == len(settled) - MAX_KEY_FINDINGS and doc.settled_unnamed == 0
+    assert doc.open_findings == tuple(open_[:MAX_LISTED])
+    assert doc.open_more == len(open_) - MAX_LISTED
+    html = render_html(doc, load_spec(tmp_path / "brief.yaml"))
+    assert f"{doc.settled_more} more clear results" in html
+    assert all(f.headline in html for f in settled)  # every clear result is named on page 1
+    assert f" · {doc.open_more} more. Each could be chance" in html

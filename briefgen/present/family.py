@@ -173,8 +173,12 @@ def build_family(stats: BriefStats) -> Family:
     return Family("holm", alpha, questions, _adjusted(follow_up))
 
 
-def family_sentence(family: Family) -> str:
-    """What page 1 says about how its claims were guarded against chance."""
+def family_sentence(family: Family, explained: int = 0) -> str:
+    """What page 1 says about how its claims were guarded against chance.
+
+    ``explained`` counts passing questions page 1 does not claim, because another
+    variable accounts for them: "k of m pass" alone would read as k claims.
+    """
     level = f"{family.alpha * 100:.10g}%"
     if family.size == 0:
         return "No question on this page could be tested: the data allow no comparison."
@@ -187,5 +191,11 @@ def family_sentence(family: Family) -> str:
     return (
         f"This brief tests {family.size} questions and adjusts them together (Holm's method): "
         f"if none had a real effect, the chance of any claim on this page would be at most {level}. "
-        f"{claimed} of {family.size} {'passes' if claimed == 1 else 'pass'}."
+        f"{claimed} of {family.size} {'passes' if claimed == 1 else 'pass'}"
+        + (
+            f"; {explained} of them {'is' if explained == 1 else 'are'} explained by another "
+            "variable, so not claimed."
+            if explained
+            else "."
+        )
     )

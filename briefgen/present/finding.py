@@ -9,7 +9,9 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 # Claims a finding can make; the document orders page 1 by these, never by reading text.
-CLAIMS = ("summary", "difference", "rise", "fall", "none", "not_tested")
+# "explained": a difference or link the tests found, which another configured variable
+# accounts for; it is not claimed, but it is not chance either.
+CLAIMS = ("summary", "difference", "rise", "fall", "none", "not_tested", "explained")
 
 
 SETTLED = ("summary", "difference", "rise", "fall")

@@ -10,6 +10,7 @@ from briefgen.numbers import (
     fmt_interval,
     fmt_percent,
     fmt_step,
+    p_text,
     readable_step,
 )
 from briefgen.present.direction import confounding
@@ -127,7 +128,10 @@ def fit_finding(
             **data,
         )
     line_clear = fit.slope_p_value is not None and fit.slope_p_value < family.alpha
-    if rho is not None and rho * fit.slope < 0 and (line_clear or _rank_clear(correlation, family)):
+    rank_clear = correlation is not None and _rank_clear(correlation, family)
+    # Opposite directions are a finding only when both are clear; a ρ of −0.01 beside a
+    # clear line says nothing about "most values" (the next case covers it).
+    if rho is not None and rho * fit.slope < 0 and line_clear and rank_clear:
         return Finding(
             headline=f"No consistent direction between {words.lower} and {x_lower}",
             text=text
@@ -137,6 +141,30 @@ def fit_finding(
                 "so no single direction describes the data."
             ),
             certainty="Neither direction can be claimed while the two measures disagree.",
+            claim="none",
+            **data,
+        )
+    if rho is not None and line_clear != rank_clear:
+        # One measure alone looks clear: "no clear relationship" would contradict the
+        # interval printed beside it, so say which measure holds and why none is claimed.
+        line_p, rank_p = p_text(fit.slope_p_value), p_text(correlation.spearman_p_value)
+        clear_one, other = (
+            (f"straight line ({line_p})", f"rank correlation ({rank_p})")
+            if line_clear
+            else (f"rank correlation ({rank_p})", f"straight line ({line_p})")
+        )
+        why = (
+            "the line may rest on a few values"
+            if line_clear
+            else "values tend to rise or fall together in order, but not along a straight line"
+        )
+        return Finding(
+            headline=f"No consistent link with {x_lower}",
+            text=text,
+            certainty=(
+                f"The {clear_one} alone would be clear, the {other} is not: {why}. A direction "
+                "is claimed only where both are clear, so none is claimed."
+            ),
             claim="none",
             **data,
         )
@@ -206,7 +234,7 @@ def _confounded_finding(found, fit, words, x_lower, names, text, data, scale, pe
             f"{group[:1].upper() + group[1:]} is the likely confounder, unless its levels are "
             f"themselves defined by {x_lower}; either way, read the levels separately."
         ),
-        claim="none",
+        claim="explained",
         **data,
     )
 

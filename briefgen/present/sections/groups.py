@@ -141,7 +141,7 @@ def _with_confounders(
                 headline=f"By {name}: differences explained by {other}",
                 text=text,
                 certainty=f"Compare levels of {name} within each {other} before acting on them.",
-                claim="none",
+                claim="explained",
                 variables=(*finding.variables, column),
                 ci_low=None,
                 ci_high=None,
