@@ -24,14 +24,7 @@ from briefgen.figures.rules import (
     magnitudes_differ,
 )
 from briefgen.figures.scales import mark_above, plain_log_ticks
-from briefgen.figures.share_bounds import (
-    band_cut_edges,
-    cut_sentence,
-    line_exits,
-    line_inside,
-    share_axis,
-    slope_text,
-)
+from briefgen.figures.share_bounds import fit_cut_sentence, line_and_band, share_axis, slope_text
 from briefgen.figures.theme import ACCENT, INK, Chart, new_figure, themed, to_svg
 from briefgen.numbers import fmt, fmt_count, fmt_level
 from briefgen.present.wording import in_sentence
@@ -67,15 +60,7 @@ def _draw_line(
     For a 0/1 target the line is drawn only inside [0, 1] and the band is cut there;
     returns the edges the uncut band passed (``share_bounds.band_cut_edges``).
     """
-    if binary:
-        grid, line = line_inside(fit.x_min, fit.x_max, fit.intercept, fit.slope)
-    else:
-        grid = np.linspace(fit.x_min, fit.x_max, 120)
-        line = fit.intercept + fit.slope * grid
-    bands = np.array([fit.band(x, confidence) for x in grid])
-    cut_edges = band_cut_edges(bands) if binary else []
-    if binary:
-        bands = np.clip(bands, 0.0, 1.0)
+    grid, line, bands, cut_edges = line_and_band(fit, confidence, binary)
     keep = line > 0 if log else np.ones_like(line, dtype=bool)
     halo = [path_effects.withStroke(linewidth=4, foreground="white")]
     for edge in (bands[:, 0], bands[:, 1]):
@@ -161,12 +146,7 @@ def density_chart(
         f"per unit, R² {fmt(fit.r_squared, 2)}.{axis_note}"
     )
     if binary:
-        caption += cut_sentence(
-            line_exits(fit.x_min, fit.x_max, fit.intercept, fit.slope),
-            cut_edges,
-            in_sentence(x_label),
-            fit.x_max - fit.x_min,
-        )
+        caption += fit_cut_sentence(fit, cut_edges, in_sentence(x_label))
     alt = line_alt(
         f"Binned density over {fmt_count(bins.n)} rows",
         y_label,

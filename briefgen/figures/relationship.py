@@ -24,10 +24,9 @@ from briefgen.figures.rules import (
 )
 from briefgen.figures.scales import mark_above, plain_log_ticks
 from briefgen.figures.share_bounds import (
-    band_cut_edges,
-    cut_sentence,
+    fit_cut_sentence,
+    line_and_band,
     line_exits,
-    line_inside,
     lines_sentence,
     segment,
     share_axis,
@@ -164,15 +163,7 @@ def relationship_chart(
     keep = np.isfinite(xs) & np.isfinite(ys)
     # A 0/1 target keeps its plain 0-1 axis: no log scale, nothing beyond a clip.
     axis = ValueAxis("linear") if binary else scatter_axis(ys[keep])
-    if binary:
-        grid, line = line_inside(fit.x_min, fit.x_max, fit.intercept, fit.slope)
-    else:
-        grid = np.linspace(fit.x_min, fit.x_max, 120)
-        line = fit.intercept + fit.slope * grid
-    bands = np.array([fit.band(x, confidence) for x in grid])
-    cut_edges = band_cut_edges(bands) if binary else []
-    if binary:
-        bands = np.clip(bands, 0.0, 1.0)
+    grid, line, bands, cut_edges = line_and_band(fit, confidence, binary)
     # On a log axis the line and band are drawn only where they are above zero.
     on = line > 0 if axis.kind == "log" else np.ones_like(line, dtype=bool)
     with themed():
@@ -209,16 +200,7 @@ def relationship_chart(
         f"{fmt_count(fit.n)} rows with both values; shaded: {fmt_level(confidence)} confidence band of the line. "
         f"Slope {slope_text(fit.slope, slope_decimals, binary)} per unit, R² {fmt(fit.r_squared, 2)}."
         + axis_sentence(axis, shown)
-        + (
-            cut_sentence(
-                line_exits(fit.x_min, fit.x_max, fit.intercept, fit.slope),
-                cut_edges,
-                in_sentence(x_label),
-                fit.x_max - fit.x_min,
-            )
-            if binary
-            else ""
-        )
+        + (fit_cut_sentence(fit, cut_edges, in_sentence(x_label)) if binary else "")
     )
     alt = line_alt("Scatter plot", y_label, x_label, fit, slope_decimals, binary)
     return Chart(
@@ -252,7 +234,6 @@ def _by_group_chart(
     ys = np.array(sample.y, dtype=float)
     levels = np.array(sample.groups[slopes.group], dtype=object)
     drawn = [s for s in slopes.levels if s.slope is not None][: len(SERIES_MARKERS)]
-
     lines = [(lv.x_min, lv.x_max, lv.intercept, lv.slope) for lv in drawn]
     lines.append((fit.x_min, fit.x_max, fit.intercept, fit.slope))
     with themed():

@@ -81,6 +81,29 @@ def band_cut_edges(bands: np.ndarray) -> list[float]:
     return edges
 
 
+def line_and_band(fit, confidence: float, binary: bool):
+    """(x grid, line, band, edges the band was cut at) of a full-data fit, as drawn.
+
+    For a 0/1 target the line is NaN outside [0, 1] and the band is cut at 0 and 1;
+    otherwise both are the plain fit over 120 points and nothing is cut.
+    """
+    if binary:
+        grid, line = line_inside(fit.x_min, fit.x_max, fit.intercept, fit.slope)
+    else:
+        grid = np.linspace(fit.x_min, fit.x_max, 120)
+        line = fit.intercept + fit.slope * grid
+    bands = np.array([fit.band(x, confidence) for x in grid])
+    if not binary:
+        return grid, line, bands, []
+    return grid, line, np.clip(bands, LOW, HIGH), band_cut_edges(bands)
+
+
+def fit_cut_sentence(fit, band_edges: list[float], x_lower: str) -> str:
+    """``cut_sentence`` for one full-data fit drawn over its own x range."""
+    exits = line_exits(fit.x_min, fit.x_max, fit.intercept, fit.slope)
+    return cut_sentence(exits, band_edges, x_lower, fit.x_max - fit.x_min)
+
+
 def share_axis(axes, ticks: tuple[float, ...] = (0.0, 0.25, 0.5, 0.75, 1.0)) -> None:
     """The vertical axis as shares: 0%–100% ticks, a small margin so edge points show."""
     axes.set_ylim(LOW - MARGIN, HIGH + MARGIN)
