@@ -5,7 +5,8 @@ Drawn instead of the sampled scatter when there are more rows than a scatter sho
 rectangle per occupied bin, however many rows there are. Shades are cividis, a
 perceptually uniform sequential map (Nuñez et al. 2018), on a log scale when the
 counts differ more than tenfold (``rules.magnitudes_differ``); empty bins stay white.
-The fitted line and its band, from the full-data fit, are drawn over the bins.
+The fitted line and its band, from the full-data fit, are drawn over the bins; for a
+0/1 target both stay inside 0%–100% (``share_bounds``).
 """
 
 from __future__ import annotations
@@ -23,6 +24,7 @@ from briefgen.figures.rules import (
     magnitudes_differ,
 )
 from briefgen.figures.scales import mark_above, plain_log_ticks
+from briefgen.figures.share_bounds import fit_cut_sentence, line_and_band, share_axis, slope_text
 from briefgen.figures.theme import ACCENT, INK, Chart, new_figure, themed, to_svg
 from briefgen.numbers import fmt, fmt_count, fmt_level
 from briefgen.present.wording import in_sentence
@@ -34,29 +36,37 @@ from briefgen.stats.regression import RegressionFit
 COLOUR_MAP = ListedColormap(mpl.colormaps["cividis_r"](np.linspace(0.2, 1.0, 256)))
 
 
-def line_alt(drawing: str, y_label: str, x_label: str, fit, slope_decimals: int) -> str:
+def line_alt(
+    drawing: str, y_label: str, x_label: str, fit, slope_decimals: int, binary: bool = False
+) -> str:
     """Alt text of a chart with a fitted line: its direction and the slope in words.
 
-    The slope is said as a size with "more" or "less", never "-0.3 more".
+    The slope is said as a size with "more" or "less", never "-0.3 more"; for a 0/1
+    target in percentage points, as the headline says it.
     """
     rising = fit.slope > 0
     return (
         f"{drawing} of {in_sentence(y_label)} against {in_sentence(x_label)} with a "
         f"{'rising' if rising else 'falling'} fitted line; each unit goes with "
-        f"{fmt(abs(fit.slope), slope_decimals)} {'more' if rising else 'less'} on average."
+        f"{slope_text(abs(fit.slope), slope_decimals, binary)} {'more' if rising else 'less'} on average."
     )
 
 
-def _draw_line(axes, fit: RegressionFit, confidence: float, log: bool) -> None:
-    """The least-squares line and its band; on a log axis only where the line is above zero."""
-    grid = np.linspace(fit.x_min, fit.x_max, 120)
-    line = fit.intercept + fit.slope * grid
-    bands = np.array([fit.band(x, confidence) for x in grid])
+def _draw_line(
+    axes, fit: RegressionFit, confidence: float, log: bool, binary: bool = False
+) -> list[float]:
+    """The least-squares line and its band; on a log axis only where the line is above zero.
+
+    For a 0/1 target the line is drawn only inside [0, 1] and the band is cut there;
+    returns the edges the uncut band passed (``share_bounds.band_cut_edges``).
+    """
+    grid, line, bands, cut_edges = line_and_band(fit, confidence, binary)
     keep = line > 0 if log else np.ones_like(line, dtype=bool)
     halo = [path_effects.withStroke(linewidth=4, foreground="white")]
     for edge in (bands[:, 0], bands[:, 1]):
         axes.plot(grid[keep], edge[keep], color=ACCENT, linewidth=0.8, linestyle=(0, (2, 2)))
     axes.plot(grid[keep], line[keep], color=ACCENT, linewidth=2, path_effects=halo)
+    return cut_edges
 
 
 def _plain(value: float) -> str:
@@ -72,6 +82,7 @@ def density_chart(
     slope_decimals: int,
     confidence: float,
     height: float = 3.1,
+    binary: bool = False,
 ) -> Chart | None:
     """Shaded 2-D bins of every row with both values, the fitted line and its band over them."""
     if fit.slope is None or fit.residual_sd is None:
@@ -96,9 +107,11 @@ def density_chart(
         if log_y:
             axes.set_yscale("log")
             plain_log_ticks(axes.yaxis)
-        _draw_line(axes, fit, confidence, log_y)
+        cut_edges = _draw_line(axes, fit, confidence, log_y, binary)
         axes.set_xlim(bins.x_edges[0], bins.x_edges[-1])
         axes.set_ylim(bins.y_edges[0], bins.y_edges[-1])
+        if binary:
+            share_axis(axes)
         if bins.y_scale == "clipped" and bins.beyond:
             mark_above(axes, f"{fmt_count(bins.beyond)} rows", INK)
         axes.grid(False)
@@ -129,11 +142,18 @@ def density_chart(
         f"{y_label} against {in_sentence(x_label)}: all {fmt_count(bins.n)} rows with both values, "
         f"counted in {len(bins.x_edges) - 1} × {len(bins.y_edges) - 1} bins by the database engine "
         f"(shade: rows per bin, cividis, darker = more; white: none). Line: least-squares fit on all rows; dashed: "
-        f"{fmt_level(confidence)} confidence band of the line. Slope {fmt(fit.slope, slope_decimals)} "
+        f"{fmt_level(confidence)} confidence band of the line. Slope {slope_text(fit.slope, slope_decimals, binary)} "
         f"per unit, R² {fmt(fit.r_squared, 2)}.{axis_note}"
     )
+    if binary:
+        caption += fit_cut_sentence(fit, cut_edges, in_sentence(x_label))
     alt = line_alt(
-        f"Binned density over {fmt_count(bins.n)} rows", y_label, x_label, fit, slope_decimals
+        f"Binned density over {fmt_count(bins.n)} rows",
+        y_label,
+        x_label,
+        fit,
+        slope_decimals,
+        binary,
     )
     return Chart(
         key=f"fit-{fit.predictor}",

@@ -4,7 +4,8 @@ Used when a group variable reverses or removes a slope and has more levels than
 overlay well in one panel (``rules.overlay_or_multiples``; Tufte 1983, 1990). Every
 panel shares both scales; the other levels' points sit faint behind the level's own,
 and the line through all rows is repeated, dashed, in each panel, so every panel
-compares its own line with the pooled one.
+compares its own line with the pooled one. For a 0/1 target every line stays inside
+0%–100% (``share_bounds``).
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ import math
 import numpy as np
 
 from briefgen.figures.rules import CONTINUOUS_AXIS, SMALL_MULTIPLES
+from briefgen.figures.share_bounds import line_exits, lines_sentence, segment, share_axis
 from briefgen.figures.theme import (
     LINE,
     MUTED,
@@ -42,6 +44,7 @@ def multiples_chart(
     y_label: str,
     slopes: GroupSlopes,
     group_label: str,
+    binary: bool = False,
 ) -> Chart | None:
     """One panel per level with a fitted slope: its points, its line, and the pooled line dashed."""
     if fit.slope is None:
@@ -53,7 +56,8 @@ def multiples_chart(
     finite = np.isfinite(xs) & np.isfinite(ys)
     columns = 3 if len(drawn) <= 6 else 4
     panel_rows = math.ceil(len(drawn) / columns)
-    pooled = np.array([fit.x_min, fit.x_max])
+    lines = [(lv.x_min, lv.x_max, lv.intercept, lv.slope) for lv in drawn]
+    lines.append((fit.x_min, fit.x_max, fit.intercept, fit.slope))
     with themed():
         figure = new_figure(0.5 + PANEL_HEIGHT_IN * panel_rows)
         grid = figure.subplots(panel_rows, columns, sharex=True, sharey=True, squeeze=False)
@@ -77,11 +81,13 @@ def multiples_chart(
             axes.scatter(
                 xs[own], ys[own], s=6, color=LINE, alpha=0.75, linewidths=0, rasterized=True
             )
-            span = np.array([level.x_min, level.x_max])
-            axes.plot(span, level.intercept + level.slope * span, color=LINE, linewidth=2)
             axes.plot(
-                pooled,
-                fit.intercept + fit.slope * pooled,
+                *segment(binary, level.x_min, level.x_max, level.intercept, level.slope),
+                color=LINE,
+                linewidth=2,
+            )
+            axes.plot(
+                *segment(binary, fit.x_min, fit.x_max, fit.intercept, fit.slope),
                 color=MUTED,
                 linewidth=1.1,
                 linestyle=(0, (2, 3)),
@@ -91,6 +97,9 @@ def multiples_chart(
                 fontsize=8.5,
                 fontweight="normal",
             )
+        if binary:
+            # The panels share one vertical scale: setting it on the first sets it on all.
+            share_axis(grid.flat[0], ticks=(0.0, 0.5, 1.0))
         figure.supxlabel(x_label, fontsize=8.5)
         figure.supylabel(y_label, fontsize=8.5)
         svg = to_svg(figure)
@@ -105,6 +114,7 @@ def multiples_chart(
         f"least-squares line; grey rings: the other levels' points; dashed: one line through all rows, "
         f"which mixes the levels. Points: {points}."
         + (f" {SHORTENED_NOTE}" if shortened(level.level for level in drawn) else "")
+        + lines_sentence(binary and any(line_exits(*line) for line in lines))
     )
     alt = (
         f"{len(drawn)} small scatter plots of {in_sentence(y_label)} against "

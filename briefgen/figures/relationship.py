@@ -23,6 +23,15 @@ from briefgen.figures.rules import (
     value_axis,
 )
 from briefgen.figures.scales import mark_above, plain_log_ticks
+from briefgen.figures.share_bounds import (
+    fit_cut_sentence,
+    line_and_band,
+    line_exits,
+    lines_sentence,
+    segment,
+    share_axis,
+    slope_text,
+)
 from briefgen.figures.theme import (
     BAND,
     LINE,
@@ -124,6 +133,7 @@ def relationship_chart(
     group_label: str | None = None,
     height: float = 3.1,
     density: DensityBins | None = None,
+    binary: bool = False,
 ) -> Chart | None:
     """Scatter of the sample with the least-squares line and its confidence band.
 
@@ -132,26 +142,28 @@ def relationship_chart(
     its own range; the overall line stays, dashed, for comparison. With more levels
     than overlay well (``rules.overlay_or_multiples``) each level gets its own panel.
     With ``density`` (more rows than a scatter shows) the rows are drawn as counted bins.
+    With ``binary`` (a 0/1 target) nothing drawn leaves 0%–100% (``share_bounds``).
     """
     if by_group is not None and by_group.group in sample.groups:
         drawn = [s for s in by_group.levels if s.slope is not None]
         label = group_label or by_group.group
         if overlay_or_multiples(len(drawn)) == SMALL_MULTIPLES:
-            return multiples_chart(fit, sample, x_label, y_label, by_group, label)
+            return multiples_chart(fit, sample, x_label, y_label, by_group, label, binary)
         return _by_group_chart(
-            fit, sample, (x_label, y_label), by_group, label, slope_decimals, height + 0.2
+            fit, sample, (x_label, y_label), by_group, label, slope_decimals, height + 0.2, binary
         )
     if density is not None:
-        return density_chart(fit, density, x_label, y_label, slope_decimals, confidence, height)
+        return density_chart(
+            fit, density, x_label, y_label, slope_decimals, confidence, height, binary
+        )
     if fit.slope is None or fit.residual_sd is None:
         return None
     xs = np.array([np.nan if v is None else v for v in sample.x[fit.predictor]], dtype=float)
     ys = np.array(sample.y, dtype=float)
     keep = np.isfinite(xs) & np.isfinite(ys)
-    axis = scatter_axis(ys[keep])
-    grid = np.linspace(fit.x_min, fit.x_max, 120)
-    bands = np.array([fit.band(x, confidence) for x in grid])
-    line = fit.intercept + fit.slope * grid
+    # A 0/1 target keeps its plain 0-1 axis: no log scale, nothing beyond a clip.
+    axis = ValueAxis("linear") if binary else scatter_axis(ys[keep])
+    grid, line, bands, cut_edges = line_and_band(fit, confidence, binary)
     # On a log axis the line and band are drawn only where they are above zero.
     on = line > 0 if axis.kind == "log" else np.ones_like(line, dtype=bool)
     with themed():
@@ -172,6 +184,8 @@ def relationship_chart(
         )
         axes.plot(grid[on], line[on], color=LINE, linewidth=2)
         _apply_axis(axes, axis, ys[keep])
+        if binary:
+            share_axis(axes)
         axes.set_xlabel(x_label)
         axes.set_ylabel(y_label)
         svg = to_svg(figure)
@@ -184,10 +198,11 @@ def relationship_chart(
     caption = (
         f"{y_label} against {in_sentence(x_label)}. Points: {points}. Line: least-squares fit on all "
         f"{fmt_count(fit.n)} rows with both values; shaded: {fmt_level(confidence)} confidence band of the line. "
-        f"Slope {fmt(fit.slope, slope_decimals)} per unit, R² {fmt(fit.r_squared, 2)}."
+        f"Slope {slope_text(fit.slope, slope_decimals, binary)} per unit, R² {fmt(fit.r_squared, 2)}."
         + axis_sentence(axis, shown)
+        + (fit_cut_sentence(fit, cut_edges, in_sentence(x_label)) if binary else "")
     )
-    alt = line_alt("Scatter plot", y_label, x_label, fit, slope_decimals)
+    alt = line_alt("Scatter plot", y_label, x_label, fit, slope_decimals, binary)
     return Chart(
         key=f"fit-{fit.predictor}",
         title=f"{y_label} against {x_label}",
@@ -206,8 +221,12 @@ def _by_group_chart(
     group_label: str,
     slope_decimals: int,
     height: float = 3.3,
+    binary: bool = False,
 ) -> Chart | None:
-    """Points and a line per level of the confounding group; colour and marker both differ."""
+    """Points and a line per level of the confounding group; colour and marker both differ.
+
+    For a 0/1 target each line is drawn only inside 0%–100% (``share_bounds``).
+    """
     if fit.slope is None:
         return None
     x_label, y_label = labels
@@ -215,6 +234,8 @@ def _by_group_chart(
     ys = np.array(sample.y, dtype=float)
     levels = np.array(sample.groups[slopes.group], dtype=object)
     drawn = [s for s in slopes.levels if s.slope is not None][: len(SERIES_MARKERS)]
+    lines = [(lv.x_min, lv.x_max, lv.intercept, lv.slope) for lv in drawn]
+    lines.append((fit.x_min, fit.x_max, fit.intercept, fit.slope))
     with themed():
         figure = new_figure(height)
         axes = figure.subplots()
@@ -232,12 +253,10 @@ def _by_group_chart(
                 linewidths=0,
                 rasterized=True,
             )
-            grid = np.array([level.x_min, level.x_max])
             # A line style and the level's marker at each end as well as a colour, so the
             # levels stay apart in grayscale and for colour-blind readers.
             axes.plot(
-                grid,
-                level.intercept + level.slope * grid,
+                *segment(binary, level.x_min, level.x_max, level.intercept, level.slope),
                 color=colour,
                 linewidth=2,
                 linestyle=LEVEL_LINESTYLES[index % len(LEVEL_LINESTYLES)],
@@ -246,15 +265,15 @@ def _by_group_chart(
                 markerfacecolor=colour if index % 2 == 0 else "white",
                 label=short_label(level.level),
             )
-        grid = np.array([fit.x_min, fit.x_max])
         axes.plot(
-            grid,
-            fit.intercept + fit.slope * grid,
+            *segment(binary, fit.x_min, fit.x_max, fit.intercept, fit.slope),
             color=MUTED,
             linewidth=1.2,
             linestyle=(0, (2, 4)),
             label="all rows",
         )
+        if binary:
+            share_axis(axes)
         axes.set_xlabel(x_label)
         axes.set_ylabel(y_label)
         axes.legend(title=group_label, frameon=False, loc="best")
@@ -269,13 +288,16 @@ def _by_group_chart(
             else f"a seeded random sample of {fmt_count(sample.size)} of the {fmt_count(sample.rows_available)} rows."
         )
         + (f" {SHORTENED_NOTE}" if shortened(level.level for level in drawn) else "")
+        + lines_sentence(binary and any(line_exits(*line) for line in lines))
     )
     # Written from the fitted slopes, so a screen reader hears the numbers the lines show.
-    within = "; ".join(f"{level.level} {fmt(level.slope, slope_decimals)}" for level in drawn)
+    within = "; ".join(
+        f"{level.level} {slope_text(level.slope, slope_decimals, binary)}" for level in drawn
+    )
     alt = (
         f"Scatter plot of {in_sentence(y_label)} against {in_sentence(x_label)} by {group_label}, one "
         f"fitted line per level. Slope per unit within each level: {within}. Through all rows "
-        f"together: {fmt(fit.slope, slope_decimals)}."
+        f"together: {slope_text(fit.slope, slope_decimals, binary)}."
     )
     return Chart(
         key=f"fit-{fit.predictor}",

@@ -273,14 +273,18 @@ def fit_section(
     )
     claimed = finding is not None and finding.claim in ("rise", "fall")
     density = stats.density(fit.predictor)
+    # A 0/1 target: lines and bands stay inside 0%–100%, slopes in percentage points.
+    binary = words.kind == "binary"
     short = (
-        relationship_chart(*common, height=SHORT_HEIGHT_IN, density=density) if claimed else None
+        relationship_chart(*common, height=SHORT_HEIGHT_IN, density=density, binary=binary)
+        if claimed
+        else None
     )
     return Section(
         f"fit-{fit.predictor}",
         f"{label} and {x_label}",
         finding,
-        relationship_chart(*common, density=density),
+        relationship_chart(*common, density=density, binary=binary),
         None,
         short,
     )
