@@ -168,6 +168,13 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
         notes.append(
             f"Two-way combinations with fewer than {spec.min_cell} rows are marked and not ranked."
         )
+    for nested in stats.nestings:
+        inner, outer = name_for(spec, nested.inner), name_for(spec, nested.outer)
+        notes.append(
+            f"{inner[:1].upper()}{inner[1:]} is nested in {outer}: a two-way table of the two "
+            f"would have one filled cell per level of {inner}, so no table is drawn and no "
+            "interaction is tested for that pair."
+        )
     if stats.trend is not None:
         notes.append(
             f"The trend uses one value per {stats.trend.period}"

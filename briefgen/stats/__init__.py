@@ -35,7 +35,7 @@ from briefgen.stats.relationships import (
 from briefgen.stats.sample import Sample, draw_sample
 from briefgen.stats.target_kind import TargetKind, target_kind
 from briefgen.stats.trend import Trend, TrendAnalysis
-from briefgen.stats.twoway import CrossAnalysis, CrossTable
+from briefgen.stats.twoway import CrossAnalysis, CrossTable, Nesting
 
 log = logging.getLogger(__name__)
 # Stage events for the console (briefgen.pipeline's channel): one per analysis family.
@@ -56,6 +56,7 @@ __all__ = [
     "CrossTable",
     "GroupComparison",
     "GroupResult",
+    "Nesting",
     "RegressionFit",
     "Sample",
     "Summary",
@@ -98,6 +99,12 @@ class BriefStats:
     overall_share: Share | None = None
     # 2-D bin counts per predictor with more rows than a scatter shows (stats.density).
     densities: tuple[DensityBins, ...] = ()
+    # Configured pairs found nested rather than crossed: no two-way table for them.
+    nestings: tuple[Nesting, ...] = ()
+
+    def nested_in(self, inner: str) -> tuple[Nesting, ...]:
+        """Every nesting that puts each level of group ``inner`` within one level of another."""
+        return tuple(n for n in self.nestings if n.inner == inner)
 
     def density(self, predictor: str) -> DensityBins | None:
         return next((d for d in self.densities if d.predictor == predictor), None)
@@ -159,7 +166,10 @@ def _analyse(source: Source, spec: BriefSpec, frame: AnalysisFrame) -> BriefStat
     skewed = frozenset(g.variable for g in groups if g.comparison and g.comparison.strongly_skewed)
     stage.info("statistics: %s", _FAMILY_WORDS["crosses"])
     planned = CrossAnalysis.plan(spec, frame, skewed=skewed, minimum=overall.summary.min)
-    crosses = tuple(cross(frame) for cross in planned)
+    # A nested pair has no table (twoway.Nesting): it leaves the tables and the family.
+    tables = tuple(cross(frame) for cross in planned)
+    crosses = tuple(t for t in tables if isinstance(t, CrossTable))
+    nestings = tuple(t for t in tables if isinstance(t, Nesting))
     trend = next(iter(_run(TrendAnalysis, spec, frame)), None)
     (relationships,) = _run(RelationshipAnalysis, spec, frame)
     densities = _run(DensityAnalysis, spec, frame)
@@ -195,4 +205,5 @@ def _analyse(source: Source, spec: BriefSpec, frame: AnalysisFrame) -> BriefStat
         target_kind=frame.kind,
         overall_share=overall.share,
         densities=densities,
+        nestings=nestings,
     )

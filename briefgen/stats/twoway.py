@@ -8,12 +8,19 @@ with IS NOT DISTINCT FROM.
 
 The standout combination (``CrossStandout``) is found afterwards from the cell
 summaries alone, so its cost depends on the number of cells, never on rows.
+
+A pair whose cells show one variable nested in the other (``Nesting``: every level
+of one lies within a single level of the other, as census divisions lie within
+regions) is not crossed: each level has one filled cell, so there is no table to
+read and no interaction to test. The cell counts, the table's first query, decide
+this before the margins and the interaction test run.
 """
 
 from __future__ import annotations
 
 import logging
 import math
+from collections.abc import Mapping
 from dataclasses import dataclass
 from typing import TYPE_CHECKING, ClassVar
 
@@ -156,6 +163,75 @@ class CrossTable:
         return next((c for c in pool if c.row == row and c.column == column), None)
 
 
+@dataclass(frozen=True, slots=True)
+class NestedLevel:
+    """One level of the inner variable, the outer level it lies within, and its n."""
+
+    level: str
+    within: str
+    n: int
+
+
+@dataclass(frozen=True, slots=True)
+class Nesting:
+    """A configured pair in which one group variable is nested in the other.
+
+    Every level of ``inner`` that has rows with a target value (and a level of both
+    variables) lies within exactly one level of ``outer``, and ``outer`` has at least
+    two such levels and fewer than ``inner``. The differences by ``inner`` then
+    contain those by ``outer`` by construction: ``outer`` is part of what ``inner``
+    measures, not a confounder of it. The two-way table would have one filled cell
+    per inner level, so its additive fit is exact and the interaction has no degree
+    of freedom: no table, interaction test or claim is made for the pair.
+    ``row_variable`` and ``column_variable`` are the pair as configured; ``levels``
+    lists the inner levels in label order.
+    """
+
+    row_variable: str
+    column_variable: str
+    inner: str
+    outer: str
+    levels: tuple[NestedLevel, ...]
+
+
+def nesting(
+    counts: Mapping[tuple[str, str], int],
+    row_name: str,
+    col_name: str,
+    folds: tuple[str | None, str | None] = (None, None),
+) -> Nesting | None:
+    """The nesting the cell counts show, or None when the pair is crossed.
+
+    ``counts`` maps (row level, column level) to the rows with a target value in that
+    cell; empty cells are ignored. ``folds`` are the "Other (k levels)" labels of the
+    row and column variables: a level lying within the other variable's fold may span
+    several of its real levels, so it is not taken as nested.
+    """
+    filled = [(pair, n) for pair, n in counts.items() if n > 0]
+    for inner_at, inner, outer, outer_fold in (
+        (0, row_name, col_name, folds[1]),
+        (1, col_name, row_name, folds[0]),
+    ):
+        within: dict[str, set[str]] = {}
+        sizes: dict[str, int] = {}
+        for pair, n in filled:
+            level, other = pair[inner_at], pair[1 - inner_at]
+            within.setdefault(level, set()).add(other)
+            sizes[level] = sizes.get(level, 0) + n
+        outers = {other for others in within.values() for other in others}
+        if (
+            all(len(others) == 1 for others in within.values())
+            and 2 <= len(outers) < len(within)
+            and outer_fold not in outers
+        ):
+            levels = tuple(
+                NestedLevel(level, next(iter(within[level])), sizes[level])
+                for level in sorted(within)
+            )
+            return Nesting(row_name, col_name, inner, outer, levels)
+    return None
+
+
 def _parts(frame_table: ir.Table, row_column: str, col_column: str) -> list[ir.Table]:
     """Four copies of the rows with both levels: cells, row and column margins, total.
 
@@ -202,6 +278,17 @@ def _rows_without_level(frame_table: ir.Table, row_column: str, col_column: str)
     return int(row["all"] or 0), int(row["valued"] or 0)
 
 
+def _summaries(part: ir.Table, confidence: float) -> dict:
+    return summarise(part, ["part", "row", "column"], confidence, list_outliers=False).summaries
+
+
+def cell_summaries(
+    frame_table: ir.Table, row_column: str, col_column: str, confidence: float = 0.95
+) -> dict:
+    """The cells' summaries alone, keyed (part, row, column): the table's first query."""
+    return _summaries(_parts(frame_table, row_column, col_column)[0], confidence)
+
+
 def cross_table(
     frame_table: ir.Table,
     row_column: str,
@@ -211,18 +298,20 @@ def cross_table(
     confidence: float = 0.95,
     min_cell: int = MIN_CELL,
     scale: str = "mean",
+    cells: dict | None = None,
 ) -> CrossTable:
     """Summarise ``y`` in every cell of ``row_column`` × ``col_column``, with margins.
 
     ``frame_table`` holds ``y`` (float, null when missing) and the two group
     columns as text; ``row_name`` and ``col_name`` are the user's names for them.
     Levels are listed in label order. ``scale`` is the scale of the interaction
-    test (see ``briefgen.stats.interaction``).
+    test (see ``briefgen.stats.interaction``). ``cells``, from ``cell_summaries``
+    at the same confidence, spares the query of the cells when it has already run.
     """
-    summaries = {}
-    for part in _parts(frame_table, row_column, col_column):
-        keys = ["part", "row", "column"]
-        summaries |= summarise(part, keys, confidence, list_outliers=False).summaries
+    parts = _parts(frame_table, row_column, col_column)
+    summaries = dict(cells) if cells is not None else _summaries(parts[0], confidence)
+    for part in parts[1:]:
+        summaries |= _summaries(part, confidence)
     cells, row_margins, column_margins, total = [], [], [], None
     for (tag, row, column), summary in summaries.items():
         cell = _cell(summary, row, column, min_cell)
@@ -324,7 +413,8 @@ class CrossAnalysis:
     """Two-way table of the target over one configured pair of group variables.
 
     ``scale`` is the interaction test's scale, decided from the group comparisons
-    (see ``briefgen.stats.interaction.scale_for``), so ``plan`` takes them.
+    (see ``briefgen.stats.interaction.scale_for``), so ``plan`` takes them. A pair
+    whose cells show nesting gives a ``Nesting`` instead of a table.
     """
 
     row: str
@@ -350,14 +440,26 @@ class CrossAnalysis:
             for a, b in spec.cross_pairs
         )
 
-    def __call__(self, frame: AnalysisFrame) -> CrossTable:
+    def __call__(self, frame: AnalysisFrame) -> CrossTable | Nesting:
+        row_column, col_column = frame.group_column(self.row), frame.group_column(self.column)
+        cells = cell_summaries(frame.table, row_column, col_column, self.confidence)
+        shown = frame.shown or {}
+        folds = tuple(
+            shown[name].other_label if name in shown else None for name in (self.row, self.column)
+        )
+        counts = {(key[1], key[2]): summary.n for key, summary in cells.items()}
+        nested = nesting(counts, self.row, self.column, folds)
+        if nested is not None:
+            log.debug("%s is nested in %s: no two-way table", nested.inner, nested.outer)
+            return nested
         return cross_table(
             frame.table,
-            frame.group_column(self.row),
-            frame.group_column(self.column),
+            row_column,
+            col_column,
             self.row,
             self.column,
             self.confidence,
             self.min_cell,
             scale=self.scale,
+            cells=cells,
         )

@@ -69,7 +69,9 @@ def group_finding(
 
     ``others`` are (column, name, test of this group given that column) for each
     two-way table the group is in: a clear difference that vanishes once the other
-    group is allowed for is said to be explained by it (the likely confounder).
+    group is allowed for is said to be explained by it (the likely confounder). A
+    group nested in another has no table with it (``stats.twoway.Nesting``), so it
+    never comes here: ``_with_nesting`` says what the nesting means instead.
 
     Welch's tests compare means, so the sentence compares means; rank tests compare
     where values tend to lie, so the sentence orders levels by mean rank and quotes
@@ -124,8 +126,10 @@ def _with_confounders(
 ) -> Finding:
     """Say when another configured group explains this one's differences, wholly or in part.
 
-    "In part" is said only when the other group's own differences are not in turn mostly
-    this one's: of two tangled groups, the one that keeps its differences is the driver.
+    Only for pairs with a two-way table (crossed, neither nested in the other), where
+    either group can be compared with the other held fixed. "In part" is said only when
+    the other group's own differences are not in turn mostly this one's: of two tangled
+    groups, the one that keeps its differences is the driver.
     """
     defined = [o for o in others if o[2].p_value is not None and o[2].kept is not None]
     for column, other, test, _ in defined:
@@ -160,6 +164,22 @@ def _with_confounders(
         # On page 1 too: a reader acting on the order should know the other group drives it.
         return replace(finding, certainty=f"{finding.certainty} {note}")
     return finding
+
+
+def _with_nesting(finding: Finding, name: str, outers: Sequence[str]) -> Finding:
+    """Say once that each level of this group lies within one level of another.
+
+    The differences by the inner group then include the outer group's by construction:
+    the outer group is part of what the inner one measures, not a confounder of it, and
+    the outer group cannot be compared with the inner one held fixed. In the certainty,
+    so page 1 says it wherever it states the claim.
+    """
+    notes = [
+        f"Each level of {name} lies within one level of {outer}, so the differences by {name} "
+        f"include the differences by {outer}."
+        for outer in outers
+    ]
+    return replace(finding, certainty=" ".join([finding.certainty, *notes]).strip())
 
 
 def _with_zero_shares(finding: Finding, group: GroupResult, comparison: GroupComparison) -> Finding:
@@ -468,6 +488,9 @@ def group_sections(
             family,
             _adjusted_for_others(stats, spec, group.variable),
         )
+        outers = [name_for(spec, n.outer) for n in stats.nested_in(group.variable)]
+        if finding is not None and outers:
+            finding = _with_nesting(finding, name, outers)
         draw = partial(_group_chart, group, stats, label, decimals, confidence, name)
         chart = draw(ROW_IN)
         # A claim may lead page 1; a chart too tall for it is drawn again with rows closed up.
