@@ -104,6 +104,14 @@ def fold_note(shown: ShownLevels, name: str) -> str | None:
     )
 
 
+def _leaning(comparison: GroupComparison, words: Wording) -> str:
+    """Which test the verdict rests on, as ``present.family.verdict_test`` decides it."""
+    if words.kind == "count":  # medians tie at 0: the verdict compares means, whatever the skew
+        return " The brief leans on the Welch test: with many values at 0, medians and ranks say little."
+    test = "rank-based test" if comparison.leans_on == "rank" else "Welch test"
+    return f" The brief leans on the {test}: {comparison.leans_on_reason}."
+
+
 def pairwise_table(comparison: GroupComparison, words: Wording, name: str) -> Table:
     rows = []
     for pair in comparison.pairwise:
@@ -125,8 +133,7 @@ def pairwise_table(comparison: GroupComparison, words: Wording, name: str) -> Ta
             if comparison.rank_test is not None
             else ""
         )
-        + f" The brief leans on the {'rank-based test' if comparison.leans_on == 'rank' else 'Welch test'}: "
-        f"{comparison.leans_on_reason}."
+        + _leaning(comparison, words)
     ]
     notes += list(comparison.notes)
     return Table(

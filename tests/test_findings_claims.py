@@ -303,3 +303,25 @@ def test_page_one_counts_what_it_cannot_list(tmp_path):
     assert f"{doc.settled_more} more clear results" in html
     assert all(f.headline in html for f in settled)  # every clear result is named on page 1
     assert f" · {doc.open_more} more. Each could be chance" in html
+
+
+def test_a_claim_naming_a_small_level_says_so(tmp_path):
+    # Level C holds only 12 rows, far above two large levels: the claim stands, and page 1
+    # says C is small (below 30 rows: common practice, no published source).
+    frame = pd.concat(
+        [
+            _levels_frame({"A": 10.0, "B": 10.0}, 200, seed=15),
+            _levels_frame({"C": 14.0}, 12, seed=16),
+        ]
+    )
+    _, doc = brief_for(frame, tmp_path, target="score", groups=["site"])
+    finding = findings_by_key(doc)["group-site"]
+    assert finding.claim == "difference" and finding.levels[0] == "C"
+    assert "C (n = 12) is a small group" in finding.certainty
+
+
+def test_a_claim_on_large_levels_has_no_small_group_note(tmp_path):
+    frame = _levels_frame({"A": 11.0, "B": 10.0, "C": 10.0}, 200, seed=17)
+    _, doc = brief_for(frame, tmp_path, target="score", groups=["site"])
+    finding = findings_by_key(doc)["group-site"]
+    assert finding.claim == "difference" and "small group" not in finding.certainty

@@ -174,3 +174,34 @@ def test_binary_two_way_departures_are_in_percentage_points(tmp_path):
     finding = next(f for f in doc.findings if f.kind == "cross")
     assert "points" in finding.text
     assert not re.search(r"is [+−]0\.\d{3} \(", finding.text)  # never a bare share difference
+
+
+def test_randhie_count_says_its_real_share_of_zeros_and_the_test_it_uses(tmp_path):
+    # RAND Health Insurance Experiment (statsmodels.datasets.randhie, shipped offline):
+    # doctor visits, 31% zeros, so a count; physlm is a measured fraction, not a code.
+    from statsmodels.datasets import randhie
+
+    data = randhie.load_pandas().data[["mdvis", "idp", "physlm"]].rename(columns={"idp": "g"})
+    zero_share = (data["mdvis"] == 0).mean()  # pandas reference: 6,308 of 20,190
+    payload, _ = _build(tmp_path, data, "mdvis", "groups: [g, physlm]\n")
+    html = (tmp_path / "out" / "brief.html").read_text()
+    assert payload["stats"]["target_kind"]["kind"] == "count"
+    # The count's detail states the share pandas finds, not "most values are 0".
+    assert f"{zero_share:.1%} of values are 0" in html
+    assert "Most values are 0" not in html
+    # The pairwise table names the test the verdict rests on (Welch, as stats.json says).
+    group = next(f for f in payload["findings"] if f["key"] == "group-g")
+    assert group["test"] == "welch_t"
+    assert "leans on the Welch test" in html and "leans on the rank-based test" not in html
+    # A measured fraction used as a group is called out; the 0/1 plan indicator is not.
+    assert "Physlm holds numbers with fractions (11 distinct values)" in html
+    assert "G holds numbers with fractions" not in html
+    # Page 1 names the small levels its physlm claim rests on (pandas counts them).
+    physlm = next(f for f in payload["findings"] if f["key"] == "group-physlm")
+    sizes = data.groupby("physlm").size()
+    small = {f"{v:g}" for v, n in sizes.items() if n < 30}
+    named_small = [
+        lv for lv in physlm["levels"] if any(abs(float(lv) - float(s)) < 1e-6 for s in small)
+    ]
+    assert named_small and "small group" in physlm["certainty"]
+    assert all(f"{lv} (n = " in physlm["certainty"] for lv in named_small)

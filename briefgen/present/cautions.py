@@ -96,6 +96,14 @@ def level_cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> 
     notes = []
     for group in stats.groups:
         shown = group.shown
+        if shown.numeric and shown.other_label is None and _fractional(shown.kept):
+            name = names.get(group.variable, group.variable)
+            notes.append(
+                f"{name[:1].upper() + name[1:]} holds numbers with fractions "
+                f"({fmt_count(shown.levels_in_data)} distinct values), and each is compared as a "
+                f"group of its own, in no order. If it is a measure, list {group.variable} under "
+                "predictors in the config instead of groups."
+            )
         if shown.numeric and shown.other_label is not None:
             name = names.get(group.variable, group.variable)
             notes.append(
@@ -115,3 +123,15 @@ def level_cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> 
                 "instead of predictors."
             )
     return notes
+
+
+def _fractional(levels: tuple[str, ...]) -> bool:
+    """True when a numeric group's levels include a number that is not whole (a measure)."""
+    for level in levels:
+        try:
+            value = float(level)
+        except ValueError:
+            continue
+        if value != int(value) if abs(value) < 2**53 else False:
+            return True
+    return False

@@ -16,9 +16,11 @@ from briefgen.figures.distribution import distribution_chart
 from briefgen.figures.shares import share_chart
 from briefgen.figures.theme import ROW_IN, Chart, compact_row_in
 from briefgen.numbers import (
+    fmt_count,
     fmt_percent,
     p_text,
 )
+from briefgen.present.cautions import SMALL_GROUP
 from briefgen.present.direction import VANISHING
 from briefgen.present.family import Family, verdict_test
 from briefgen.present.finding import SETTLED, Finding
@@ -96,7 +98,7 @@ def group_finding(
     )
     finding = _order_finding(ordering, usable, words, name, clear)
     if by_means:
-        finding = _with_zero_shares(finding, group, comparison)
+        finding = _with_zero_shares(finding, group, comparison, usable)
     verdict = f"{named_test}, {adjusted_phrase(p, p_adjusted, family)}"
     certainty = (
         f"Differences this large would be unlikely if {name} made no difference ({verdict})."
@@ -114,7 +116,27 @@ def group_finding(
     )
     if clear and others:
         finding = _with_confounders(finding, name, words, others, family.alpha)
-    return _with_disagreement(finding, comparison, family.alpha)
+    return _with_small_levels(_with_disagreement(finding, comparison, family.alpha), usable)
+
+
+def _with_small_levels(finding: Finding, usable: list[Summary]) -> Finding:
+    """A claim naming a level with few rows says so where it is made, page 1 included."""
+    if finding.claim != "difference":
+        return finding
+    sizes = {s.level: s.n for s in usable}
+    small = [
+        (level, sizes[level])
+        for level in finding.levels
+        if sizes.get(level, SMALL_GROUP) < SMALL_GROUP
+    ]
+    if not small:
+        return finding
+    named = listed(tuple(f"{level} (n = {fmt_count(n)})" for level, n in small))
+    note = (
+        f"{named} {'is a small group' if len(small) == 1 else 'are small groups'}: "
+        f"{'its average' if len(small) == 1 else 'their averages'} could move a lot with a few more rows."
+    )
+    return replace(finding, certainty=f"{finding.certainty} {note}")
 
 
 def _with_confounders(
@@ -182,7 +204,9 @@ def _with_nesting(finding: Finding, name: str, outers: Sequence[str]) -> Finding
     return replace(finding, certainty=" ".join([finding.certainty, *notes]).strip())
 
 
-def _with_zero_shares(finding: Finding, group: GroupResult, comparison: GroupComparison) -> Finding:
+def _with_zero_shares(
+    finding: Finding, group: GroupResult, comparison: GroupComparison, usable: list[Summary]
+) -> Finding:
     """A count target's sentence adds each named level's share of zeros, and why means."""
     zeros = {s.level: s for s in group.shares}
     named = [zeros[level] for level in finding.levels[:1] + finding.levels[-1:] if level in zeros]
@@ -192,10 +216,20 @@ def _with_zero_shares(finding: Finding, group: GroupResult, comparison: GroupCom
             f" Values are 0 in {share_text(named[0].share)} of rows for {named[0].level} and "
             f"{share_text(named[1].share)} for {named[1].level}."
         )
+    counted = sum(s.n for s in group.shares)
+    zero_share = sum(s.events for s in group.shares) / counted if counted else None
+    share = (
+        f"{share_text(zero_share)} of values are 0"
+        if zero_share is not None
+        else "Many values are 0"
+    )
     why = (
-        "Most values are 0, so medians tie and say little; the brief compares means with Welch's "
+        f"{share}, so medians tie and say little; the brief compares means with Welch's "
         "test, which holds for large groups whatever the skew."
     )
+    smallest = min(s.n for s in usable)
+    if smallest < SMALL_GROUP:
+        why += f" Some groups here are small (the smallest has {fmt_count(smallest)} rows), so read its p-values as rough."
     if comparison.rank_test is not None and comparison.rank_test.p_value is not None:
         why += f" The rank test on typical values gives {p_text(comparison.rank_test.p_value)}."
     return replace(finding, text=text, detail=why)
