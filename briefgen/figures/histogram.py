@@ -51,6 +51,14 @@ def _rule_phrase(bins: HistogramBins, decimals: int) -> str:
     return f"Freedman–Diaconis bins of width {width}"
 
 
+def _whole_numbers_held(low_edge: float, high_edge: float) -> str:
+    """The whole numbers inside a bin with edges at k − 0.5, in words."""
+    first, last = low_edge + 0.5, high_edge - 0.5
+    if first == last:
+        return f"the {fmt(first, 0)}s"
+    return f"{fmt(first, 0)} to {fmt(last, 0)}"
+
+
 def histogram_chart(bins: HistogramBins, label: str, decimals: int) -> Chart:
     """Bars of the number of rows per bin, with the bin rule and n in the caption.
 
@@ -82,20 +90,23 @@ def histogram_chart(bins: HistogramBins, label: str, decimals: int) -> Chart:
         axes.grid(axis="x", visible=False)
         svg = to_svg(figure)
     tallest = int(np.argmax(heights))
-    whole = bins.rule.startswith("whole_numbers")
-    # Whole-number edges sit at k − 0.5: one decimal more shows them as they are.
-    at = decimals + 1 if whole and decimals == 0 else decimals
-    low, high = fmt(edges[tallest], at), fmt(edges[tallest + 1], at)
-    most = (
-        f"the tallest bar ({fmt_count(int(counts[tallest]))} rows, "
-        f"{fmt(heights[tallest], 0)} per whole number) lies"
-        if per_unit
-        else f"the most values ({fmt_count(int(counts[tallest]))}) lie"
-    )
-    alt = (
-        f"Histogram of {words} over {fmt_count(bins.n)} rows, from {fmt(edges[0], at)} to "
-        f"{fmt(edges[-1], at)}; {most} between {low} and {high}."
-    )
+    rows = fmt_count(int(counts[tallest]))
+    if bins.rule.startswith("whole_numbers"):
+        # Edges at k − 0.5: name the whole numbers a bar holds, not its edges.
+        first, last = (fmt(edge, 0) for edge in (edges[0] + 0.5, edges[-1] - 0.5))
+        held = _whole_numbers_held(edges[tallest], edges[tallest + 1])
+        per = f", {fmt(heights[tallest], 0)} per whole number" if per_unit else ""
+        alt = (
+            f"Histogram of {words} over {fmt_count(bins.n)} rows, bars for the whole numbers "
+            f"{first} to {last}; the tallest bar ({rows} rows{per}) holds {held}."
+        )
+    else:
+        low, high = fmt(edges[tallest], decimals), fmt(edges[tallest + 1], decimals)
+        alt = (
+            f"Histogram of {words} over {fmt_count(bins.n)} rows, from {fmt(edges[0], decimals)} "
+            f"to {fmt(edges[-1], decimals)}; the most values ({rows}) lie between {low} and "
+            f"{high}."
+        )
     height = (
         "Bar height: rows per whole number (a bar's area is its rows)"
         if per_unit
