@@ -64,6 +64,9 @@ def test_capped_bins_cover_every_value(engine_table):
     assert result.requested_bins == len(np.histogram_bin_edges(values, bins="fd")) - 1
     # Reference: numpy.histogram with the same 60 equal bins.
     assert list(result.counts) == np.histogram(values, bins=np.array(result.edges))[0].tolist()
+    # Equal bins from linspace differ in the last place: still drawn as plain rows per bar.
+    chart = histogram_chart(result, "Value", 2)
+    assert "Bar height: number of rows" in chart.caption and "per whole number" not in chart.svg
 
 
 def test_missing_values_are_ignored(engine_table):

@@ -69,8 +69,9 @@ def histogram_chart(bins: HistogramBins, label: str, decimals: int) -> Chart:
     edges = np.array(bins.edges)
     counts = np.array(bins.counts)
     widths = np.diff(edges)
-    # Unequal bins: rows per unit of the axis, so area stays proportional to rows.
-    per_unit = bool(widths.min() < widths.max())
+    # Unequal bins (only whole-number ones, whose widths are exact; equal bins from
+    # linspace differ in the last place): rows per unit, so area stays proportional to rows.
+    per_unit = bins.rule.startswith("whole") and bool(widths.min() < widths.max())
     heights = counts / widths if per_unit else counts
     with themed():
         figure = new_figure(2.4)

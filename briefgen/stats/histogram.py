@@ -156,7 +156,8 @@ def histogram_bins(
         edges=tuple(float(e) for e in edges),
         counts=counts,
         rule=rule,
-        width=float(edges[-1] - edges[-2]),
+        # A count's 0 may sit alone in a narrower first bin: the last has the common width.
+        width=float(edges[-1] - edges[-2] if rule.startswith("whole") else edges[1] - edges[0]),
         requested_bins=requested,
         usage=RowUsage("histogram", n),
     )
