@@ -127,3 +127,77 @@ def test_values_on_the_engines_own_edges(engine_table, seed):
     y[:3] = low, high, (low + high) / 2
     result = density_bins(engine_table(pd.DataFrame({"y": y, "x0": x})), "x0", "x")
     _check(result, x, y)
+
+
+def _whole_number_bins(edges, low: int, high: int) -> None:
+    """Edges at k − 0.5, equal whole widths, each whole number low … high inside one bin."""
+    edges = np.array(edges)
+    assert np.all(edges % 1 == 0.5)
+    widths = np.diff(edges)
+    assert np.all(widths == widths[0]) and widths[0] % 1 == 0
+    inside = [((edges[:-1] < k) & (k < edges[1:])).sum() for k in range(low, high + 1)]
+    assert inside == [1] * (high - low + 1)
+
+
+def test_randhie_whole_number_target_gets_whole_number_rows(engine_table):
+    # Source: statsmodels.datasets.randhie (RAND Health Insurance Experiment): mdvis,
+    # doctor visits, whole numbers 0 to 77; disea, chronic diseases, not whole numbers.
+    from statsmodels.datasets import randhie
+
+    data = randhie.load_pandas().data
+    x = data["disea"].to_numpy(dtype=float)
+    y = data["mdvis"].to_numpy(dtype=float)
+    table = engine_table(pd.DataFrame({"y": y, "x0": x}))
+    result = density_bins(table, "x0", "disea", y_whole=True)
+    assert result.y_scale == "clipped"
+    # The clip at the 99th percentile, type 7 (numpy's default method): 21 visits.
+    assert result.top == pytest.approx(np.quantile(y, 0.99)) == 21
+    # 0 … 21 is 22 whole numbers, over the 20-row cap: rows 2 wide, the last ending at 21.5.
+    assert result.y_edges[0] == -0.5 and result.y_edges[-1] == 21.5
+    _whole_number_bins(result.y_edges, 0, 21)
+    assert result.beyond == int((y > 21).sum())
+    _check(result, x, y)
+    # Without the flag (a target of fractions) the old equal rows 1.05 wide are kept.
+    assert density_bins(table, "x0", "disea").y_edges[1] == pytest.approx(1.05)
+
+
+def test_wide_whole_number_predictor_gets_whole_widths(engine_table):
+    # Constructed case: whole numbers 0 … 500, far more distinct values than 40 bins.
+    rng = np.random.default_rng(4)
+    x = np.concatenate([rng.integers(0, 501, 6000), [0, 500]]).astype(float)
+    y = rng.normal(0, 1, len(x))
+    result = density_bins(engine_table(pd.DataFrame({"y": y, "x0": x})), "x0", "x")
+    assert len(result.x_edges) - 1 <= 40
+    _whole_number_bins(result.x_edges, 0, 500)
+    _check(result, x, y)
+
+
+def test_plan_marks_a_whole_number_target(engine_table):
+    from dataclasses import replace
+
+    from briefgen.config import parse_spec
+    from briefgen.stats.core.frame import build_frame
+    from briefgen.stats.density import DensityAnalysis
+    from briefgen.stats.target_kind import target_kind
+
+    rng = np.random.default_rng(8)
+    spec = parse_spec("title: t\ndata: {path: d.csv}\ntarget: y\npredictors: [p]\n")
+    for y, whole in ((rng.poisson(3, 600).astype(float), True), (rng.normal(0, 1, 600), False)):
+        frame = build_frame(
+            engine_table(pd.DataFrame({"y": y, "p": rng.normal(0, 1, 600)})), spec, cache=False
+        )
+        (planned,) = DensityAnalysis.plan(spec, replace(frame, kind=target_kind(frame)))
+        assert planned.y_whole is whole
+
+
+def test_clipped_whole_number_axis_stops_at_the_clip(engine_table):
+    # Constructed case (the zero-heavy counts above, whole numbers): whatever the span,
+    # the last row of cells ends half a unit above the 99th percentile's whole number.
+    x, y = CASES["zero-heavy counts, clipped"](np.random.default_rng(11))
+    result = density_bins(engine_table(pd.DataFrame({"y": y, "x0": x})), "x0", "x", y_whole=True)
+    assert result.y_scale == "clipped"
+    top = np.floor(np.quantile(y, 0.99))  # type 7, numpy's default method
+    assert result.y_edges[-1] == top + 0.5 and result.y_edges[0] <= -0.5
+    _whole_number_bins(result.y_edges, 0, int(top))
+    assert result.beyond == int((y > result.top).sum())
+    _check(result, x, y)

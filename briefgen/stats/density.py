@@ -24,6 +24,7 @@ from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.frame import AnalysisFrame
 from briefgen.stats.core.quantiles import narrowed_quantiles, narrowing
 from briefgen.stats.core.usage import RowUsage
+from briefgen.stats.histogram import WHOLE_NUMBER_LIMIT
 
 # Common practice, no published source: bins about 4 mm wide across a 6.7 in plot and
 # as tall over about 2 in, coarse enough to count many rows each, fine enough to show shape.
@@ -37,7 +38,9 @@ class DensityBins:
 
     ``x_edges`` and ``y_edges`` have one more entry than bins (a predictor of whole
     numbers spanning at most ``X_BINS`` values gets one x bin per value, centred on it;
-    one with at most ``X_BINS`` distinct values, one bin per value, edges half-way between); ``counts[i][j]`` is the
+    one with at most ``X_BINS`` distinct values, one bin per value, edges half-way
+    between; other whole numbers, and a whole-number target on a linear or clipped
+    axis, bins of a whole width with edges at k − 0.5); ``counts[i][j]`` is the
     number of rows in x bin i and y bin j (``numpy.histogram2d``'s layout). ``y_scale``
     is ``linear``, ``clipped`` (y edges stop at the target's 99th percentile, ``top``;
     ``beyond`` rows lie above it and are counted in no bin) or ``log`` (y edges evenly
@@ -75,6 +78,24 @@ def _edges(low: float, high: float, bins: int, log: bool = False) -> np.ndarray:
     return edges
 
 
+def _whole_edges(low: float, high: float, bins: int, from_top: bool = False) -> np.ndarray:
+    """Edges at k − 0.5 for whole numbers from ``low`` to ``high``, at most ``bins`` bins.
+
+    The width is the smallest whole number that fits, as in the histogram, so each
+    whole number lies inside one bin and every bin holds as many: bins 1.05 wide over
+    0 … 21 would put 0 and 1 in one row of cells and every other value alone.
+    ``from_top`` ends the last bin at ``high`` + 0.5 (a clipped axis stops there), so
+    the first may reach below ``low``.
+    """
+    lo, hi = int(low), int(high)
+    span = hi - lo + 1
+    width = -(-span // bins)
+    steps = np.arange(-(-span // width) + 1, dtype=float)
+    if from_top:
+        return hi + 0.5 - width * steps[::-1]
+    return lo - 0.5 + width * steps
+
+
 def _value_edges(both, x: str) -> np.ndarray:
     """Edges half-way between a few distinct values (ages 17.5, 22, 27 …), one bin per value.
 
@@ -94,6 +115,11 @@ def _value_edges(both, x: str) -> np.ndarray:
             [values[-1] + (values[-1] - values[-2]) / 2],
         ]
     )
+
+
+def _exact(low: float, high: float) -> bool:
+    """Whether edges at k − 0.5 are exact doubles for whole numbers in [low, high]."""
+    return max(abs(low), abs(high)) < WHOLE_NUMBER_LIMIT
 
 
 def _bin_number(column, edges: np.ndarray, spacing: str = "linear"):
@@ -128,11 +154,19 @@ def _bin_number(column, edges: np.ndarray, spacing: str = "linear"):
 
 
 def density_bins(
-    table, x: str, predictor: str, x_bins: int = X_BINS, y_bins: int = Y_BINS, more_than: int = 0
+    table,
+    x: str,
+    predictor: str,
+    x_bins: int = X_BINS,
+    y_bins: int = Y_BINS,
+    more_than: int = 0,
+    y_whole: bool = False,
 ) -> DensityBins | None:
     """2-D bin counts of ``y`` against column ``x`` of ``table``.
 
     None unless more than ``more_than`` rows have both values (the first query tells).
+    ``y_whole`` (the target is whole numbers) gives a linear or clipped y axis edges at
+    k − 0.5; a whole-number predictor with many values gets them on x.
     """
     both = table.filter(table.y.notnull() & table[x].notnull())
     asked = {
@@ -158,16 +192,22 @@ def density_bins(
         first["y_bulk"], first["y_clip"] = bulk_clip
     axis = value_axis(first["y_low"], first["y_high"], first["y_clip"], first["y_bulk"])
     top = axis.top if axis.kind == "clipped" else first["y_high"]
-    whole = not first["x_fractions"] and first["x_high"] - first["x_low"] + 1 <= x_bins
-    if whole:
+    x_whole = not first["x_fractions"] and _exact(first["x_low"], first["x_high"])
+    if x_whole and first["x_high"] - first["x_low"] + 1 <= x_bins:
         # Whole numbers (parcels, rooms): one bin per value, centred on it, as the histogram does;
         # equal bins would leave empty stripes between the values.
         x_edges, x_spacing = np.arange(first["x_low"] - 0.5, first["x_high"] + 1.0, 1.0), "linear"
     elif int(first["x_distinct"]) <= x_bins:
         x_edges, x_spacing = _value_edges(both, x), "irregular"
+    elif x_whole:
+        x_edges, x_spacing = _whole_edges(first["x_low"], first["x_high"], x_bins), "linear"
     else:
         x_edges, x_spacing = _edges(first["x_low"], first["x_high"], x_bins), "linear"
-    y_edges = _edges(first["y_low"], top, y_bins, log=axis.kind == "log")
+    if y_whole and axis.kind != "log" and _exact(first["y_low"], top):
+        clipped = axis.kind == "clipped"
+        y_edges = _whole_edges(first["y_low"], np.floor(top), y_bins, from_top=clipped)
+    else:
+        y_edges = _edges(first["y_low"], top, y_bins, log=axis.kind == "log")
     binned = both.mutate(
         ix=_bin_number(both[x], x_edges, x_spacing),
         iy=_bin_number(both.y, y_edges, "irregular" if axis.kind == "log" else "linear"),
@@ -201,15 +241,20 @@ class DensityAnalysis:
 
     predictor: str
     threshold: int = DENSITY_ROWS
+    y_whole: bool = False
     name: ClassVar[str] = "densities"
     many: ClassVar[bool] = True
     result: ClassVar[type] = DensityBins
 
     @classmethod
     def plan(cls, spec: BriefSpec, frame: AnalysisFrame) -> tuple[DensityAnalysis, ...]:
-        return tuple(cls(name) for name in frame.predictors.values())
+        # The kind's one query already counted the target values that are not whole numbers.
+        whole = frame.kind is not None and frame.kind.n > 0 and frame.kind.non_integers == 0
+        return tuple(cls(name, y_whole=whole) for name in frame.predictors.values())
 
     def __call__(self, frame: AnalysisFrame) -> DensityBins | None:
         # points_or_density: binned counts only above the threshold, decided on the first query.
         column = frame.predictor_column(self.predictor)
-        return density_bins(frame.table, column, self.predictor, more_than=self.threshold)
+        return density_bins(
+            frame.table, column, self.predictor, more_than=self.threshold, y_whole=self.y_whole
+        )
