@@ -255,7 +255,7 @@ def lead_figure(sections: list[Section]) -> LeadFigure | None:
     if fitting:
         chosen = min(fitting, key=lambda s: s.finding.p_adjusted)
         why = (
-            f"The surest claim on this page: {chosen.finding.headline}. Its section has the detail."
+            f"The surest of the claims above: {chosen.finding.headline}. Its section has the detail."
         )
         return LeadFigure(chosen.key, _short_enough(chosen), why)
     overall = next((s for s in sections if s.key == "overall" and s.chart is not None), None)
