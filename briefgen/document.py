@@ -277,6 +277,12 @@ def held_notice(gate: GateResult | None) -> str | None:
     return f"Held: this brief was not published or emailed, because a check failed. {reasons}"
 
 
+def _alike(stats: BriefStats) -> str | None:
+    """The trend's period when successive periods are alike, for page 1's caveat."""
+    trend = stats.trend
+    return trend.period if trend is not None and trend.serially_dependent else None
+
+
 def build_document(
     stats: BriefStats,
     spec: BriefSpec,
@@ -313,7 +319,7 @@ def build_document(
         built_on=built_on,
         paper=spec.output.paper,
         key_findings=tuple(key),
-        family_note=family_sentence(family, explained),
+        family_note=family_sentence(family, explained, _alike(stats)),
         lead=lead_figure(sections),
         cautions=tuple(not_shown + cautions(stats, words, names)),
         sections=tuple(sections),

@@ -325,3 +325,52 @@ def test_a_claim_on_large_levels_has_no_small_group_note(tmp_path):
     _, doc = brief_for(frame, tmp_path, target="score", groups=["site"])
     finding = findings_by_key(doc)["group-site"]
     assert finding.claim == "difference" and "small group" not in finding.certainty
+
+
+def _yearly(values: np.ndarray) -> pd.DataFrame:
+    years = pd.date_range("1950-01-01", periods=len(values), freq="YS")
+    return pd.DataFrame({"year": years, "level": 20 + 0.05 * np.arange(len(values)) + values})
+
+
+def _serial_notes(doc) -> tuple[list[str], bool]:
+    notes = [note for note in doc.cautions if note.startswith("Successive ")]
+    return notes, "are alike, which the tests ignore" in doc.family_note
+
+
+def test_a_series_with_alike_successive_periods_is_flagged(tmp_path):
+    # statsmodels.datasets.macrodata (US quarterly series 1959–2009, shipped offline): the
+    # real interest rate's yearly means around the trend correlate 0.70 with the next
+    # year's (statsmodels acf), above Box & Jenkins' 2/√n = 0.28 for n = 50 years.
+    from statsmodels.datasets import macrodata
+
+    data = macrodata.load_pandas().data
+    quarters = pd.PeriodIndex.from_fields(
+        year=data.year.astype(int), quarter=data.quarter.astype(int), freq="Q"
+    )
+    frame = pd.DataFrame({"date": quarters.start_time, "realint": data.realint, "infl": data.infl})
+    _, doc = brief_for(frame, tmp_path, target="realint", predictors=["infl"], time="date")
+    notes, on_page_one = _serial_notes(doc)
+    assert len(notes) == 1 and on_page_one
+    assert "Successive years of realint are alike" in notes[0]
+    assert "correlates 0.70 with the next" in notes[0] and "exceed 0.28" in notes[0]
+
+
+def test_independent_noise_over_time_is_not_flagged(tmp_path):
+    # Constructed: 60 yearly values of independent normal noise around a gentle rise.
+    frame = _yearly(np.random.default_rng(61).normal(0, 1, 60))
+    _, doc = brief_for(frame, tmp_path, target="level", time="year")
+    assert _serial_notes(doc) == ([], False)
+
+
+def test_an_ar1_series_is_flagged(tmp_path):
+    # Constructed: 60 yearly values of an AR(1) series with phi = 0.8 (lag-1 autocorrelation
+    # 0.8 in the population, Box, Jenkins & Reinsel §3.2.4).
+    rng = np.random.default_rng(62)
+    x = np.empty(60)
+    x[0] = rng.normal(0, 1 / np.sqrt(1 - 0.8**2))
+    for t in range(1, 60):
+        x[t] = 0.8 * x[t - 1] + rng.normal()
+    _, doc = brief_for(_yearly(x), tmp_path, target="level", time="year")
+    notes, on_page_one = _serial_notes(doc)
+    assert len(notes) == 1 and on_page_one
+    assert "Successive years of level are alike" in notes[0]

@@ -365,3 +365,80 @@ def test_bucketing_matches_pandas_for_any_timestamps(stamps, period):
         trend = time_trend(engine_table(frame, Path(folder)), period=period)
     counts = frame.groupby(PANDAS_PERIOD[period](frame.t).dt.date).size()  # reference: pandas
     assert {p.start: p.n for p in trend.periods} == counts.to_dict()
+
+
+def reference_serial_correlation(frame: pd.DataFrame, period: str, full_only: bool = True) -> float:
+    """statsmodels' acf at lag 1 of the OLS residuals of period means on their midpoints.
+
+    Values dated 1 January cover their year, so yearly series pass ``full_only=False``.
+    """
+    from statsmodels.tsa.stattools import acf
+
+    days, means = reference_period_points(frame, period, full_only)
+    residuals = sm.OLS(means, sm.add_constant(days)).fit().resid  # reference: statsmodels OLS
+    return float(acf(residuals, nlags=1)[1])  # reference: statsmodels acf, lag 1
+
+
+def macrodata_frame() -> pd.DataFrame:
+    """statsmodels.datasets.macrodata (US quarterly macro series 1959Q1–2009Q3), shipped offline."""
+    from statsmodels.datasets import macrodata
+
+    data = macrodata.load_pandas().data
+    start = pd.PeriodIndex.from_fields(
+        year=data.year.astype(int), quarter=data.quarter.astype(int), freq="Q"
+    ).start_time
+    return pd.DataFrame({"t": start.as_unit("us"), "y": data.realint.to_numpy()})
+
+
+def test_serial_correlation_of_macrodata_matches_statsmodels_acf(tmp_path):
+    # The real interest rate drifts for years at a time: yearly means around the line
+    # correlate 0.70 with the next year's (statsmodels acf), far above 2/√50 = 0.28.
+    frame = macrodata_frame()
+    trend = time_trend(engine_table(frame, tmp_path))
+    assert trend.period == "year" and trend.fit.n == 50  # 2009 is partial, left out
+    expected = reference_serial_correlation(frame, "year")
+    assert trend.serial_correlation == pytest.approx(expected, rel=1e-9)
+    assert trend.serial_correlation > 0.6
+    assert trend.serially_dependent
+
+
+def yearly_frame(values: np.ndarray) -> pd.DataFrame:
+    """One value a year, dated 1 January from 1950, on a gentle rise."""
+    years = pd.date_range("1950-01-01", periods=len(values), freq="YS").as_unit("us")
+    return pd.DataFrame({"t": years, "y": 100 + 0.1 * np.arange(len(values)) + values})
+
+
+def ar1(phi: float, n: int, seed: int) -> np.ndarray:
+    """A stationary AR(1) series x_t = phi·x_(t−1) + e_t with standard normal e (constructed)."""
+    rng = np.random.default_rng(seed)
+    x = np.empty(n)
+    x[0] = rng.normal(0, 1 / math.sqrt(1 - phi**2))
+    for t in range(1, n):
+        x[t] = phi * x[t - 1] + rng.normal()
+    return x
+
+
+def test_independent_yearly_noise_is_not_flagged(tmp_path):
+    frame = yearly_frame(np.random.default_rng(61).normal(0, 1, 60))
+    trend = time_trend(engine_table(frame, tmp_path))
+    assert trend.period == "year" and trend.fit.n == 60
+    expected = reference_serial_correlation(frame, "year", full_only=False)
+    assert trend.serial_correlation == pytest.approx(expected, rel=1e-9)
+    assert abs(trend.serial_correlation) < 2 / math.sqrt(60)
+    assert not trend.serially_dependent
+
+
+def test_ar1_yearly_series_is_flagged(tmp_path):
+    # phi = 0.8: the population lag-1 autocorrelation is 0.8 (Box, Jenkins & Reinsel §3.2.4).
+    frame = yearly_frame(ar1(0.8, 60, seed=62))
+    trend = time_trend(engine_table(frame, tmp_path))
+    expected = reference_serial_correlation(frame, "year", full_only=False)
+    assert trend.serial_correlation == pytest.approx(expected, rel=1e-9)
+    assert trend.serial_correlation > 2 / math.sqrt(60)
+    assert trend.serially_dependent
+
+
+def test_too_few_periods_give_no_serial_correlation(tmp_path):
+    trend = time_trend(engine_table(yearly_frame(ar1(0.8, 4, seed=63)), tmp_path))
+    assert trend.fit.n == 4
+    assert trend.serial_correlation is None and not trend.serially_dependent

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import math
+
 from briefgen.numbers import (
     fmt_count,
     fmt_percent,
@@ -10,6 +12,7 @@ from briefgen.present.wording import (
     Wording,
 )
 from briefgen.stats import BriefStats
+from briefgen.stats.trend import Trend
 
 # Periods shorter than a year: a series of them over years carries the seasons with it.
 SUB_YEAR = ("day", "week", "month", "quarter")
@@ -76,7 +79,22 @@ def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[s
             "its interval and can hide a steady change. Compare the same "
             f"{trend.period} across years before concluding there is no trend."
         )
+    if trend is not None and trend.serially_dependent:
+        notes.append(serial_caution(trend, words))
     return notes
+
+
+def serial_caution(trend: Trend, words: Wording) -> str:
+    """Successive periods alike: every test here assumes independent rows or periods."""
+    fitted = trend.fit.n if trend.fit is not None else len(trend.periods)
+    return (
+        f"Successive {trend.period}s of {words.lower} are alike: each {trend.period}'s departure "
+        f"from the trend line correlates {trend.serial_correlation:.2f} with the next, where "
+        f"independent {trend.period}s would rarely exceed {2 / math.sqrt(fitted):.2f}. Every "
+        "test and interval in this brief treats rows (and the trend's "
+        f"{trend.period}s) as independent, so its p-values can be too small and its intervals "
+        "too narrow: treat its claims as weaker than they read."
+    )
 
 
 def _within_level_note(stats: BriefStats) -> str:

@@ -173,19 +173,27 @@ def build_family(stats: BriefStats) -> Family:
     return Family("holm", alpha, questions, _adjusted(follow_up))
 
 
-def family_sentence(family: Family, explained: int = 0) -> str:
+def family_sentence(family: Family, explained: int = 0, alike: str | None = None) -> str:
     """What page 1 says about how its claims were guarded against chance.
 
     ``explained`` counts passing questions page 1 does not claim, because another
-    variable accounts for them: "k of m pass" alone would read as k claims.
+    variable accounts for them: "k of m pass" alone would read as k claims. ``alike``
+    names the period ("year") when successive periods are alike (``Trend.serially_dependent``):
+    the guarantee assumes independent rows, so page 1 says it can fail.
     """
     level = f"{family.alpha * 100:.10g}%"
     if family.size == 0:
         return "No question on this page could be tested: the data allow no comparison."
+    caveat = (
+        f" But successive {alike}s in these data are alike, which the tests ignore, so that "
+        "chance can be higher (see Read with care)."
+        if alike
+        else ""
+    )
     if family.size == 1:
         return (
             f"This brief tests one question; a claim on this page would arise by chance alone "
-            f"at most {level} of the time."
+            f"at most {level} of the time.{caveat}"
         )
     claimed = sum(1 for q in family.questions if q.p_adjusted < family.alpha)
     return (
@@ -198,4 +206,5 @@ def family_sentence(family: Family, explained: int = 0) -> str:
             if explained
             else "."
         )
+        + caveat
     )

@@ -18,6 +18,12 @@ only in part (a quarter whose data start in its last week) is left out of the fi
 so a thin edge cannot drive the test, unless fewer than ``MIN_FIT_PERIODS`` would
 remain; the result says which periods were left out, or that they were kept. It
 runs in Python on the per-period results (period-sized data).
+
+Every test in a brief, this line's included, treats its points as independent. A
+time series rarely is: successive periods are alike, and then p-values are too
+small and intervals too narrow. The lag-1 autocorrelation of the periods' departures
+from the line measures this from the same period means (no engine pass); above
+``2/√n`` it flags serial dependence (see ``serial_correlation``).
 """
 
 from __future__ import annotations
@@ -57,6 +63,9 @@ __all__ = ["PERIODS", "PeriodStats", "Trend", "choose_period", "next_period_star
 log = logging.getLogger(__name__)
 
 CHANGE_WINDOW_DAYS = 30
+# Fewest fitted periods for the serial check: below it 2/√n is 0.9 or more and the
+# large-sample bound says little (common practice, no published source).
+MIN_SERIAL_PERIODS = 5
 # How the fit treated partial first and last periods (``Trend.partial_periods``).
 PARTIAL_HANDLING = ("none", "left_out", "kept")
 
@@ -107,7 +116,10 @@ class Trend:
     (their starts in ``left_out_of_fit``), ``kept`` because leaving them out would
     leave fewer than 3 periods, or ``none`` when no period is partial. ``cadence`` is
     the step in periods the data are recorded at (5 for values every fifth year);
-    ``gaps`` are missing steps of that cadence.
+    ``gaps`` are missing steps of that cadence. ``serial_correlation`` is the lag-1
+    autocorrelation of the fitted periods' departures from the line (None with fewer
+    than 5 periods); ``serially_dependent`` is True when it exceeds 2/√n, n the periods
+    fitted (see ``serial_correlation``).
     """
 
     key: str
@@ -133,6 +145,8 @@ class Trend:
     partial_periods: str = "none"
     left_out_of_fit: tuple[dt.date, ...] = ()
     cadence: int = 1
+    serial_correlation: float | None = None
+    serially_dependent: bool = False
 
 
 def _as_date(value: dt.date | dt.datetime) -> dt.date:
@@ -271,14 +285,48 @@ def _period_line(
     )
 
 
+def lag1_autocorrelation(series: np.ndarray) -> float | None:
+    """r1 = Σ (e_t − ē)(e_{t+1} − ē) / Σ (e_t − ē)², t in time order; None if all equal.
+
+    The sample autocorrelation at lag 1 as Box, Jenkins & Reinsel define it (Time
+    Series Analysis, 4th ed. 2008, §2.1.5), the same as statsmodels' ``acf``.
+    """
+    centred = series - math.fsum(series.tolist()) / len(series)
+    total = _dot(centred, centred)
+    if len(series) < 2 or total <= 0:
+        return None
+    return _dot(centred[:-1], centred[1:]) / total
+
+
+def serial_dependence(r1: float | None, n: int) -> bool:
+    """True when r1 > 2/√n: successive periods are more alike than independent ones would be.
+
+    Under independence r1 has standard error about 1/√n (Bartlett 1946; Box, Jenkins &
+    Reinsel 2008, §2.1.6), so ±2/√n bounds it about 95% of the time. Only the positive
+    side is flagged: positive dependence makes intervals too narrow, negative too wide.
+    """
+    return r1 is not None and n >= MIN_SERIAL_PERIODS and r1 > 2 / math.sqrt(n)
+
+
 def _fit_periods(
     periods: list[PeriodStats], first_time: dt.datetime, confidence: float
-) -> RegressionFit:
-    """The trend line through the period means, one point per period."""
+) -> tuple[RegressionFit, float | None]:
+    """The trend line through the period means, one point per period, and its residuals' r1.
+
+    Residuals are taken between consecutive periods with data, across any gap.
+    """
     days = np.array([_midpoint_days(p, first_time) for p in periods])
     # Each mean is median + mean_shift; differencing medians first keeps an offset's digits.
     offset = periods[len(periods) // 2].median
-    return _period_line(days, offset, np.array(deviations(periods, offset)), confidence)
+    departures = np.array(deviations(periods, offset))
+    fit = _period_line(days, offset, departures, confidence)
+    r1 = None
+    if len(periods) >= MIN_SERIAL_PERIODS and fit.slope is not None:
+        # Residuals about the line, centred on the deviations' own scale to keep an offset's digits.
+        dx = days - math.fsum(days.tolist()) / len(days)
+        dy = departures - math.fsum(departures.tolist()) / len(departures)
+        r1 = lag1_autocorrelation(dy - fit.slope * dx)
+    return fit, r1
 
 
 def time_trend(frame_table: ir.Table, confidence: float = 0.95, period: str = "auto") -> Trend:
@@ -306,12 +354,12 @@ def time_trend(frame_table: ir.Table, confidence: float = 0.95, period: str = "a
     usable = table.filter(table.t.notnull() & table.y.notnull())
 
     periods: list[PeriodStats] = []
-    fit, handling = None, "none"
+    fit, handling, r1 = None, "none", None
     if first_time is not None:
         periods = _period_summaries(usable, chosen, confidence)
         periods = _mark_partial(periods, _as_date(first_time), _as_date(last_time), resolution)
         periods, handling = _choose_fit_periods(periods)
-        fit = _fit_periods([p for p in periods if p.in_fit], first_time, confidence)
+        fit, r1 = _fit_periods([p for p in periods if p.in_fit], first_time, confidence)
     slope = fit.slope if fit else None
     low = fit.slope_ci_low if fit else None
     high = fit.slope_ci_high if fit else None
@@ -346,6 +394,8 @@ def time_trend(frame_table: ir.Table, confidence: float = 0.95, period: str = "a
         partial_periods=handling,
         left_out_of_fit=tuple(p.start for p in periods if not p.in_fit),
         cadence=cadence([p.start for p in periods], chosen),
+        serial_correlation=r1,
+        serially_dependent=serial_dependence(r1, fit.n if fit else 0),
     )
 
 
