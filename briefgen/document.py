@@ -16,6 +16,7 @@ from briefgen.deliver.gate import GateResult
 from briefgen.figures.theme import LEAD_HEIGHT_IN, Chart
 from briefgen.history.change import SinceLastTime
 from briefgen.numbers import fmt_count, fmt_level
+from briefgen.present.bounds import interval_floor
 from briefgen.present.cautions import cautions
 from briefgen.present.family import Family, build_family, family_sentence
 from briefgen.present.finding import SETTLED, Finding
@@ -159,6 +160,13 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
     if stats.target_kind is not None and stats.target_kind.kind == "binary":
         del notes[1:3]  # no boxes, t intervals or Welch tests: kind_note says what ran instead
     notes += [note] if (note := kind_note(stats)) else []
+    if interval_floor(stats) is not None:
+        notes.append(
+            "No value of the target is below 0, so an interval of a mean that Student's t would "
+            "take below 0 is cut at 0 (stats.json keeps the uncut bounds): the true mean cannot "
+            "be negative, so the cut interval holds it just as often. Intervals of gaps between "
+            "means are not cut."
+        )
     if spec.data.url is not None:
         notes.insert(0, where_statistics_run(spec.data.url))
     if stats.accounting.covers is not None:

@@ -30,6 +30,7 @@ from briefgen.figures.theme import Chart
 from briefgen.history.change import SinceLastTime
 from briefgen.history.record import RunRecord
 from briefgen.pdf_artifacts import mark_margin_artifacts
+from briefgen.present.bounds import interval_floor
 from briefgen.present.family import Family
 from briefgen.present.finding import Finding
 from briefgen.stats import BriefStats
@@ -169,6 +170,9 @@ def render_json(
         "target": spec.target,
         "groups": list(spec.groups),
         "predictors": list(spec.predictors),
+        # Where the brief cut mean intervals (present.bounds); the Student t bounds in "stats"
+        # and "findings" stay as computed.
+        "interval_floor": interval_floor(stats),
         "findings": [
             {name: _plain(getattr(finding, name)) for name in FINDING_FIELDS}
             for finding in findings

@@ -6,9 +6,11 @@ table and the same number in a sentence always read alike.
 
 from __future__ import annotations
 
+from collections.abc import Iterable
 from dataclasses import dataclass
 
 from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_interval, fmt_p, fmt_percent, p_text
+from briefgen.present.bounds import HasInterval
 from briefgen.present.wording import Wording, test_name
 from briefgen.profile import natural_sorted
 from briefgen.stats import BriefStats
@@ -21,6 +23,19 @@ from briefgen.stats.trend import PeriodStats, Trend
 from briefgen.stats.twoway import CrossTable
 
 SMALL_MARK = "†"
+
+
+def no_interval_note(summaries: Iterable[HasInterval], words: Wording) -> list[str]:
+    """Why a mean's interval shows "–", naming only the reasons these rows have."""
+    missing = [s for s in summaries if words.mean_interval(s) == "–"]
+    reasons = []
+    if any(s.n < 2 for s in missing):
+        reasons.append("fewer than two values")
+    if any(s.n >= 2 for s in missing):
+        reasons.append("all values equal (no spread to estimate one from)")
+    if not reasons:
+        return []
+    return [f"An interval shown as – could not be given: {', or '.join(reasons)}."]
 
 
 @dataclass(frozen=True, slots=True)
@@ -47,13 +62,13 @@ def group_table(group: GroupResult, words: Wording, name: str) -> Table:
                 s.level,
                 fmt_count(s.n),
                 words.value(s.mean),
-                words.interval(s.ci_low, s.ci_high) if s.ci_low is not None else "–",
+                words.mean_interval(s),
                 words.value(s.median),
                 f"{words.value(s.q1)} – {words.value(s.q3)}" if s.q1 is not None else "–",
                 fmt_count(box.outlier_count) if box else "–",
             )
         )
-    notes = []
+    notes = no_interval_note(group.summaries, words)
     if any(b.outlier_count for b in group.boxes):
         notes.append(
             "Outliers are counted against each level's own box (beyond 1.5 × IQR), so they need "
@@ -234,7 +249,7 @@ def share_table(group: GroupResult, words: Wording, name: str) -> Table:
         )
         mean_cells = (
             words.value(s.mean),
-            words.interval(s.ci_low, s.ci_high) if s.ci_low is not None else "–",
+            words.mean_interval(s),
         )
         cells = share_cells if words.kind == "binary" else (*mean_cells, *share_cells)
         rows.append((share.level, fmt_count(share.n), *cells))
@@ -249,7 +264,7 @@ def share_table(group: GroupResult, words: Wording, name: str) -> Table:
             "Share of 0s",
             f"{level} interval (Wilson)",
         )
-    notes = []
+    notes = [] if words.kind == "binary" else no_interval_note(group.summaries, words)
     if group.rows_without_level:
         notes.append(
             f"{fmt_count(group.rows_without_level)} rows have no {name} and are not in this table."
@@ -309,7 +324,7 @@ def cross_cells_table(cross: CrossTable, words: Wording, names: tuple[str, str])
                 f"{c.row} · {c.column}",
                 fmt_count(c.n) + (f" {SMALL_MARK}" if c.too_small else ""),
                 words.value(c.mean),
-                words.interval(c.ci_low, c.ci_high) if c.ci_low is not None else "–",
+                words.mean_interval(c),
                 words.value(c.median),
             )
         )
@@ -318,6 +333,7 @@ def cross_cells_table(cross: CrossTable, words: Wording, names: tuple[str, str])
         if any(c.too_small for c in cross.cells)
         else []
     )
+    notes += no_interval_note(cross.cells, words)
     return Table(
         key=f"table-cells-{cross.row_variable}-{cross.column_variable}",
         caption=f"{words.label} for each combination of {names[0]} and {names[1]}",
@@ -381,11 +397,11 @@ def trend_table(trend: Trend, words: Wording) -> Table:
                 period_label(p.start, trend.period) + _part_mark(p),
                 fmt_count(p.n),
                 words.value(p.mean),
-                words.interval(p.ci_low, p.ci_high) if p.ci_low is not None else "–",
+                words.mean_interval(p),
                 words.value(p.median),
             )
         )
-    notes = []
+    notes = no_interval_note(trend.periods, words)
     if trend.gaps:
         notes.append(f"{len(trend.gaps)} {trend.period}s in the span have no rows.")
     return Table(

@@ -22,6 +22,7 @@ from briefgen.figures.theme import (
     to_svg,
 )
 from briefgen.numbers import fmt, fmt_level
+from briefgen.present.bounds import cut_note, drawn_interval
 from briefgen.present.wording import in_sentence
 from briefgen.stats.core.frame import ShownLevels
 from briefgen.stats.twoway import CrossCell, CrossTable
@@ -42,7 +43,10 @@ MAX_SERIES = len(SERIES_MARKERS)  # rules.MAX_DOT_SERIES
 
 
 def _trusted_points(
-    cells: list[tuple[float, str, CrossCell | None]], serie: str, left_out: list[str]
+    cells: list[tuple[float, str, CrossCell | None]],
+    serie: str,
+    left_out: list[str],
+    floor: float | None = None,
 ) -> list[tuple[float, float, float, float]]:
     """(height, mean, interval low, interval high) for one series' cells large enough to trust.
 
@@ -55,9 +59,7 @@ def _trusted_points(
         if cell.too_small:
             left_out.append(f"{row} with {serie} (n = {cell.n})")
             continue
-        low = cell.ci_low if cell.ci_low is not None else cell.mean
-        high = cell.ci_high if cell.ci_high is not None else cell.mean
-        points.append((height, cell.mean, low, high))
+        points.append((height, cell.mean, *drawn_interval(cell, cell.mean, floor)))
     return points
 
 
@@ -224,8 +226,12 @@ def cross_chart(
     decimals: int,
     names: tuple[str, str],
     shown: tuple[ShownLevels | None, ShownLevels | None] = (None, None),
+    floor: float | None = None,
 ) -> Chart | None:
-    """Means with intervals for every trusted cell, laid out by ``dot_layout``."""
+    """Means with intervals for every trusted cell, laid out by ``dot_layout``.
+
+    ``floor`` cuts the intervals where the target cannot go (``present.bounds``).
+    """
     layout = dot_layout(cross, names, shown)
     if layout is None:
         return None
@@ -246,7 +252,7 @@ def cross_chart(
         axes = figure.subplots()
         for i, serie in enumerate(series_order):
             cells = [(positions[row] + offsets[i], row, cell(row, serie)) for row in ordered]
-            _draw_series(axes, i, serie, _trusted_points(cells, serie, left_out))
+            _draw_series(axes, i, serie, _trusted_points(cells, serie, left_out, floor))
         axes.set_yticks([positions[r] for r in ordered], [short_label(r) for r in ordered])
         axes.grid(axis="y", visible=False)
         axes.set_xlabel(f"Mean {in_sentence(label)}")
@@ -265,6 +271,7 @@ def cross_chart(
         title=f"{label} by {row_name} and {series_name}",
         svg=svg,
         alt=_alt(cross, label, decimals, row_name, series_name),
-        caption=_caption(cross, label, row_name, series_name, left_out, order, dropped),
+        caption=_caption(cross, label, row_name, series_name, left_out, order, dropped)
+        + cut_note((c for c in cross.cells if not c.too_small), floor),
         rules=(CATEGORICAL_AXIS, order),
     )

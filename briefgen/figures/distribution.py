@@ -37,6 +37,7 @@ from briefgen.figures.theme import (
     to_svg,
 )
 from briefgen.numbers import fmt, fmt_count, fmt_level
+from briefgen.present.bounds import cut_note, drawn_interval
 from briefgen.present.wording import in_sentence
 from briefgen.stats.core.summary import BoxStats, Summary
 from briefgen.stats.groups import GroupResult
@@ -154,12 +155,12 @@ def _draw_means(
     label: str,
     decimals: int,
     confidence: float,
+    floor: float | None = None,
 ) -> None:
     """Each level's mean with its interval, against a dashed line at the overall mean."""
-    # A level too small for an interval is drawn as a bare point at its mean.
+    # A level without an interval (too small, or no spread) is drawn as a bare point at its mean.
     means = [s.mean for s in summaries]
-    lows = [s.ci_low if s.ci_low is not None else s.mean for s in summaries]
-    highs = [s.ci_high if s.ci_high is not None else s.mean for s in summaries]
+    lows, highs = zip(*(drawn_interval(s, s.mean, floor) for s in summaries), strict=True)
     axes.hlines(positions, lows, highs, color=LINE, linewidth=2.2)
     axes.plot(
         means,
@@ -254,10 +255,12 @@ def distribution_chart(
     confidence: float,
     name: str,
     row_in: float = ROW_IN,
+    floor: float | None = None,
 ) -> Chart:
     """Boxes (left) and means with intervals (right) for every level of one group.
 
-    ``row_in`` closes the rows up for page 1 (see ``theme.compact_row_in``).
+    ``row_in`` closes the rows up for page 1 (see ``theme.compact_row_in``); ``floor`` cuts
+    the intervals where the target cannot go (``present.bounds``).
     """
     boxes = list(group.boxes)
     levels = [b.level for b in boxes]
@@ -286,7 +289,7 @@ def distribution_chart(
         figure.get_layout_engine().set(wspace=0.06)
         left, right = figure.subplots(1, 2, sharey=True, width_ratios=(1.35, 1))
         beyond_edge = _draw_boxes(left, boxes, positions, label, log)
-        _draw_means(right, level_summaries, positions, overall, label, decimals, confidence)
+        _draw_means(right, level_summaries, positions, overall, label, decimals, confidence, floor)
         if log:
             right.set_xscale("log")
             plain_log_ticks(right.xaxis)
@@ -296,6 +299,8 @@ def distribution_chart(
         title=f"{label} by {name}",
         svg=svg,
         alt=_alt(boxes, label, decimals, name),
-        caption=_caption(boxes, beyond_edge, label, confidence, name) + order_note,
+        caption=_caption(boxes, beyond_edge, label, confidence, name)
+        + cut_note(level_summaries, floor)
+        + order_note,
         rules=(CATEGORICAL_AXIS, order, *folded, *((LOG_AXIS,) if log else ())),
     )

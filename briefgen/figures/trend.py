@@ -15,6 +15,7 @@ import matplotlib.dates as mdates
 from briefgen.figures.rules import TIME_AXIS
 from briefgen.figures.theme import ACCENT, INK, LINE, Chart, new_figure, themed, to_svg
 from briefgen.numbers import fmt, fmt_count, fmt_level
+from briefgen.present.bounds import cut_note, drawn_interval
 from briefgen.present.wording import in_sentence
 from briefgen.stats.periods import period_label, runs
 from briefgen.stats.trend import Trend
@@ -24,11 +25,12 @@ def _middle(start: dt.date, end: dt.date) -> dt.datetime:
     return dt.datetime.combine(start, dt.time()) + (end - start) / 2
 
 
-def _draw_periods(axes, trend: Trend, middles: list[dt.datetime]) -> None:
+def _draw_periods(
+    axes, trend: Trend, middles: list[dt.datetime], floor: float | None = None
+) -> None:
     """Period means with intervals; periods the data cover only in part are drawn hollow."""
     means = [p.mean for p in trend.periods]
-    lows = [p.ci_low if p.ci_low is not None else p.mean for p in trend.periods]
-    highs = [p.ci_high if p.ci_high is not None else p.mean for p in trend.periods]
+    lows, highs = zip(*(drawn_interval(p, p.mean, floor) for p in trend.periods), strict=True)
     axes.vlines(middles, lows, highs, color=LINE, linewidth=1.6)
     # One line per run of consecutive periods: a missing period breaks the line.
     for begin, end in runs([p.start for p in trend.periods], trend.period):
@@ -53,9 +55,12 @@ def _hollow_label(trend: Trend) -> str:
     return "partly covered, not in the trend" if left_out else "period only partly covered"
 
 
-def draw_trend(axes, trend: Trend) -> None:
-    """Period means with intervals, joined within runs of consecutive periods, and the fit."""
-    _draw_periods(axes, trend, [_middle(p.start, p.end) for p in trend.periods])
+def draw_trend(axes, trend: Trend, floor: float | None = None) -> None:
+    """Period means with intervals, joined within runs of consecutive periods, and the fit.
+
+    ``floor`` cuts the intervals where the target cannot go (``present.bounds``).
+    """
+    _draw_periods(axes, trend, [_middle(p.start, p.end) for p in trend.periods], floor)
     _draw_fit(axes, trend)
 
 
@@ -135,7 +140,12 @@ def _named(start: dt.date, period: str) -> str:
 
 
 def trend_chart(
-    trend: Trend, label: str, decimals: int, confidence: float, height: float = 2.9
+    trend: Trend,
+    label: str,
+    decimals: int,
+    confidence: float,
+    height: float = 2.9,
+    floor: float | None = None,
 ) -> Chart | None:
     """Means per period with intervals, and the fitted straight-line trend."""
     if len(trend.periods) < 2:
@@ -143,7 +153,7 @@ def trend_chart(
     with themed():
         figure = new_figure(height)
         axes = figure.subplots()
-        draw_trend(axes, trend)
+        draw_trend(axes, trend, floor)
         locator = mdates.AutoDateLocator(minticks=4, maxticks=9)
         axes.xaxis.set_major_locator(locator)
         axes.xaxis.set_major_formatter(mdates.ConciseDateFormatter(locator))
@@ -157,6 +167,6 @@ def trend_chart(
         title=f"{label} over time",
         svg=svg,
         alt=_alt(trend, label, decimals),
-        caption=_caption(trend, label, confidence),
+        caption=_caption(trend, label, confidence) + cut_note(trend.periods, floor),
         rules=(TIME_AXIS,),
     )

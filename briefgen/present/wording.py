@@ -19,6 +19,7 @@ from briefgen.numbers import (
     fmt_percent,
     p_text,
 )
+from briefgen.present.bounds import HasInterval, interval_floor, shown_interval
 from briefgen.present.family import Family
 from briefgen.stats import BriefStats
 
@@ -48,12 +49,18 @@ class Wording:
     confidence: float
     kind: str = "continuous"  # stats.target_kind.kind: continuous, binary or count
     scale: str = "ratio"  # percentages of the target only on a ratio scale
+    floor: float | None = None  # bounds.interval_floor: where a mean's interval is cut
 
     def value(self, number: float | None) -> str:
         return fmt(number, self.unit_decimals)
 
     def interval(self, low: float | None, high: float | None) -> str:
         return fmt_interval(low, high, self.unit_decimals)
+
+    def mean_interval(self, summary: HasInterval) -> str:
+        """A mean's interval as shown (``bounds.shown_interval``); "–" when there is none."""
+        shown = shown_interval(summary, self.floor)
+        return "–" if shown is None else fmt_interval(*shown, self.unit_decimals)
 
     @property
     def level_name(self) -> str:
@@ -83,6 +90,7 @@ def wording_for(stats: BriefStats, label: str) -> Wording:
         confidence=stats.confidence,
         kind=kind.kind if kind is not None else "continuous",
         scale=kind.scale if kind is not None else "ratio",
+        floor=interval_floor(stats),
     )
 
 

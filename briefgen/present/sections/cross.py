@@ -142,7 +142,7 @@ def cross_section(
     if two_way_kind(len(cross.rows), len(cross.columns)) == HEAT_MAP:
         chart = heat_map_chart(cross, words, names, levels)
     else:
-        chart = cross_chart(cross, label, decimals, names, levels)
+        chart = cross_chart(cross, label, decimals, names, levels, words.floor)
     return Section(
         f"cross-{cross.row_variable}-{cross.column_variable}",
         f"{label} by {names[0]} and {names[1]}",

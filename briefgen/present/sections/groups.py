@@ -20,6 +20,7 @@ from briefgen.numbers import (
     fmt_percent,
     p_text,
 )
+from briefgen.present.bounds import interval_floor
 from briefgen.present.cautions import SMALL_GROUP
 from briefgen.present.direction import VANISHING
 from briefgen.present.family import Family, verdict_test
@@ -565,7 +566,9 @@ def _group_chart(
     if group.share_comparison is not None:
         return share_chart(group, stats.overall_share, label, confidence, name, row_in)
     if group.boxes:
-        return distribution_chart(group, stats.overall, label, decimals, confidence, name, row_in)
+        return distribution_chart(
+            group, stats.overall, label, decimals, confidence, name, row_in, interval_floor(stats)
+        )
     return None
 
 

@@ -13,6 +13,17 @@ from briefgen.present.wording import (
     share_text,
 )
 from briefgen.stats import BriefStats
+from briefgen.stats.core.summary import Summary
+
+STUDENT_T = ", Student's t"
+
+
+def _interval_phrase(o: Summary, words: Wording, method: str = "") -> str:
+    """The mean's interval as a phrase, or why there is none (n < 2, or every value equal)."""
+    text = words.mean_interval(o)
+    if text != "–":
+        return f"{words.level_name} interval {text}{method}"
+    return "no interval: every value is the same" if o.n >= 2 else "no interval from one value"
 
 
 def overall_finding(stats: BriefStats, words: Wording, figure: str | None = None) -> Finding:
@@ -22,7 +33,7 @@ def overall_finding(stats: BriefStats, words: Wording, figure: str | None = None
     text = (
         f"Across {fmt_count(o.n)} rows, the typical {words.lower} is {words.value(o.median)} "
         f"(median); half of all values lie between {words.value(o.q1)} and {words.value(o.q3)}. "
-        f"The mean is {words.value(o.mean)} ({words.level_name} interval {words.interval(o.ci_low, o.ci_high)})."
+        f"The mean is {words.value(o.mean)} ({_interval_phrase(o, words)})."
     )
     if o.mean is not None and o.median is not None and o.sd and (o.mean - o.median) > 0.2 * o.sd:
         text += " The mean sits above the median because a minority of long values pull it up."
@@ -31,7 +42,7 @@ def overall_finding(stats: BriefStats, words: Wording, figure: str | None = None
         text=text,
         certainty=(
             f"Half the values lie either side of it; the mean is {words.value(o.mean)} "
-            f"({words.level_name} interval {words.interval(o.ci_low, o.ci_high)}, Student's t)."
+            f"({_interval_phrase(o, words, STUDENT_T)})."
         ),
         figure=figure,
         key="overall",
@@ -69,7 +80,7 @@ def kind_overall_finding(stats: BriefStats, words: Wording, figure: str | None) 
         headline=f"Average {words.lower}: {words.value(o.mean)}; {share_text(share.share)} are 0",
         text=(
             f"Across {fmt_count(o.n)} rows, the mean {words.lower} is {words.value(o.mean)} "
-            f"({words.level_name} interval {words.interval(o.ci_low, o.ci_high)}), and "
+            f"({_interval_phrase(o, words)}), and "
             f"{share_text(share.share)} of values are 0 ({wilson}). With this many zeros the median "
             "says little, so the brief compares means."
         ),

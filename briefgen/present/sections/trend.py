@@ -72,12 +72,14 @@ def trend_section(trend: Trend, words: Wording, confidence: float, family: Famil
     finding = trend_finding(trend, words, family)
     short = None
     if finding is not None and finding.claim in ("rise", "fall"):
-        short = trend_chart(trend, words.label, words.unit_decimals, confidence, SHORT_HEIGHT_IN)
+        short = trend_chart(
+            trend, words.label, words.unit_decimals, confidence, SHORT_HEIGHT_IN, words.floor
+        )
     return Section(
         "trend",
         f"{words.label} over time",
         finding,
-        trend_chart(trend, words.label, words.unit_decimals, confidence),
+        trend_chart(trend, words.label, words.unit_decimals, confidence, floor=words.floor),
         None,
         short,
     )
