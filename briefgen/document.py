@@ -262,9 +262,7 @@ def lead_figure(sections: list[Section]) -> LeadFigure | None:
     fitting = [s for s in claims if _short_enough(s) is not None]
     if fitting:
         chosen = min(fitting, key=lambda s: s.finding.p_adjusted)
-        why = (
-            f"The surest of the claims above: {chosen.finding.headline}. Its section has the detail."
-        )
+        why = f"The surest of the claims above: {chosen.finding.headline}. Its section has the detail."
         return LeadFigure(chosen.key, _short_enough(chosen), why)
     overall = next((s for s in sections if s.key == "overall" and s.chart is not None), None)
     if overall is None or _height_in(overall.chart) > LEAD_HEIGHT_IN:

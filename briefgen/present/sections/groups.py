@@ -117,17 +117,20 @@ def group_finding(
     )
     if clear and others:
         finding = _with_confounders(finding, name, words, others, family.alpha)
-    return _with_small_levels(_with_disagreement(finding, comparison, family.alpha), usable)
+    finding = _with_disagreement(finding, comparison, family.alpha)
+    return _with_small_levels(finding, usable, _headline_levels(ordering))
 
 
-def _with_small_levels(finding: Finding, usable: list[Summary]) -> Finding:
-    """A claim naming a level with few rows says so where it is made, page 1 included."""
+def _with_small_levels(
+    finding: Finding, usable: list[Summary], headline_levels: tuple[str, ...]
+) -> Finding:
+    """A claim whose headline names a level with few rows says so, page 1 included."""
     if finding.claim != "difference":
         return finding
     sizes = {s.level: s.n for s in usable}
     small = [
         (level, sizes[level])
-        for level in finding.levels
+        for level in dict.fromkeys(headline_levels)
         if sizes.get(level, SMALL_GROUP) < SMALL_GROUP
     ]
     if not small:
@@ -362,6 +365,19 @@ def _order_headline(ordering, by_level, value, name, rank) -> tuple[str, str]:
             note,
         )
     return f"By {name}: levels differ, but no single pair is clearly apart", note
+
+
+def _headline_levels(ordering: Ordering) -> tuple[str, ...]:
+    """The levels ``_order_headline`` names, in its order."""
+    if ordering.flat:
+        return ()
+    if ordering.single_top and ordering.single_bottom:
+        return (ordering.highest, ordering.lowest)
+    if ordering.single_top:
+        return (ordering.highest,)
+    if ordering.single_bottom:
+        return (ordering.lowest,)
+    return (ordering.highest, ordering.lowest) if ordering.ends_apart else ()
 
 
 def _with_disagreement(finding: Finding, comparison: GroupComparison, alpha: float) -> Finding:
