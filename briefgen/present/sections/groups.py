@@ -138,7 +138,7 @@ def _with_small_levels(
     named = listed(tuple(f"{level} (n = {fmt_count(n)})" for level, n in small))
     note = (
         f"{named} {'is a small group' if len(small) == 1 else 'are small groups'}: "
-        f"{'its average' if len(small) == 1 else 'their averages'} could move a lot with a few more rows."
+        f"a few more rows could move {'its figures' if len(small) == 1 else 'theirs'} a lot."
     )
     return replace(finding, certainty=f"{finding.certainty} {note}")
 
