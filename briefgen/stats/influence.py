@@ -101,9 +101,11 @@ def most_influential(
         residual = cy - _float(line["slope"]) * cx
         leverage = _float(1 / n) + cx * cx / _float(line["sxx"])
         room = _float(1.0) - leverage
+        usable = x.notnull() & y.notnull() & (room > LEVERAGE_GAP)
+        # Null, not a division by zero, beyond the gap: Spark's ANSI mode raises on x / 0.
+        room = ibis.ifelse(usable, room, ibis.null(dt.float64))
         s2 = line["sse"] / (n - PARAMETERS)
         distance = (residual * residual * leverage) / (_float(PARAMETERS * s2) * room * room)
-        usable = x.notnull() & y.notnull() & (room > LEVERAGE_GAP)
         cutoffs[i] = cooks_cutoff(n)
         top = (
             frame.filter(usable)
