@@ -149,7 +149,10 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
         "strongly skewed (|skewness| > 1 within groups, after Bulmer 1979), Mann–Whitney or Kruskal–Wallis "
         "rank tests are run as well and the brief leans on them.",
         "Straight-line fits are ordinary least squares from centred sums; correlations are Pearson's r and "
-        "Spearman's ρ. Whether a slope differs between groups is an F test of separate against parallel lines.",
+        "Spearman's ρ. Whether a slope differs between groups is an F test of separate against parallel lines. "
+        "For each line the row with the largest Cook's distance (Cook 1977) is found; where that distance "
+        "exceeds the median of F(2, n − 2), leaving the row out would move the line beyond its 50% "
+        "confidence region, and the section gives the slope without it.",
         f"Every test behind a claim on page 1 (each group comparison, each two-way interaction, the trend, "
         f"each predictor's direction) is adjusted with the others by Holm's method at {fmt_level(1 - stats.confidence)}. "
         "A level is called highest or lowest only where Holm-adjusted pairwise tests (Welch's t, or Dunn's "

@@ -7,7 +7,7 @@ import math
 import pytest
 from scipy import stats as scipy_stats
 
-from briefgen.stats.core.distributions import chi2_sf, f_sf, norm_ppf, norm_sf, t_ppf, t_sf
+from briefgen.stats.core.distributions import chi2_sf, f_ppf, f_sf, norm_ppf, norm_sf, t_ppf, t_sf
 
 STATISTICS = (0.0, 1e-12, 0.3, 1.0, 1.96, 2.5, 7.0, 40.0, 1e3, math.inf)
 DEGREES = (1, 2, 3.5, 9, 29.7, 120, 1e4, 1e7)
@@ -30,6 +30,8 @@ def test_student_t_matches_scipy(df):
 def test_f_matches_scipy(df1, df2):
     for x in STATISTICS:
         assert f_sf(x, df1, df2) == scipy_stats.f.sf(x, df1, df2)
+    for q in (0.05, 0.5, 0.975):
+        assert f_ppf(q, df1, df2) == scipy_stats.f.ppf(q, df1, df2)
 
 
 @pytest.mark.parametrize("df", (1, 2, 3, 8, 47, 1000))

@@ -10,12 +10,13 @@ the predictor's and the target's range, so the engine's thread order cannot chan
 digit, and the means, the centred sums and the residual sum of squares
 Syy − Sxy²/Sxx follow from them exactly, with one rounding each. (A pass of means and
 a second of deviations from them, the earlier form, cost a query and added a rounding
-per value.)"""
+per value.) A brief's fits take one more query, after the lines are known: each line's
+most influential row by Cook's distance (``briefgen.stats.influence``)."""
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from fractions import Fraction
 
 import ibis.expr.types as ir
@@ -24,6 +25,7 @@ from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.distributions import t_ppf, t_sf
 from briefgen.stats.core.exact import FixedPoint, centred_pair, pair_sums, pair_values
 from briefgen.stats.core.references import shift_references
+from briefgen.stats.influence import Influence, most_influential
 
 
 @dataclass(frozen=True, slots=True)
@@ -34,7 +36,9 @@ class RegressionFit:
     confidence band of the line at any x: s·√(1/n + (x − x̄)²/Sxx). ``x_distinct``
     counts the distinct predictor values in those rows: exact up to
     ``EXACT_DISTINCT_UP_TO``, an estimate above (None where not counted, as for the
-    trend's fit on period means).
+    trend's fit on period means). ``influence`` is the row with the largest Cook's
+    distance and the slope without it (``briefgen.stats.influence``); None where not
+    looked for (the trend's and the log-scale fits) or where no row has a distance.
     """
 
     predictor: str
@@ -56,6 +60,7 @@ class RegressionFit:
     x_min: float | None
     x_max: float | None
     x_distinct: int | None = None
+    influence: Influence | None = None
 
     @property
     def slope_p_value(self) -> float | None:
@@ -141,11 +146,13 @@ def fit_lines(
     confidence: float,
     references: dict | None = None,
     sums: dict[str, dict[str, Fraction]] | None = None,
+    influence: bool = False,
 ) -> tuple[RegressionFit, ...]:
     """Fit ``y`` on each predictor column of ``frame`` (columns already float, NaN as null).
 
     ``references`` are the shared shift references of the same table and ``sums`` the
-    exact sums of deviations from them (``value_sums``), when already known.
+    exact sums of deviations from them (``value_sums``), when already known. With
+    ``influence``, one more query finds each line's most influential row.
     """
     if not predictors:
         return ()
@@ -153,11 +160,18 @@ def fit_lines(
     if sums is None:
         sums = value_sums(frame, predictors, refs)
     distinct = _distinct_counts(frame, predictors, refs)
-    fits = []
+    fits, lines = [], {}
     for i, predictor in enumerate(predictors):
         centred = _centred(sums, refs, i) or dict.fromkeys(
             ("x_mean", "y_mean", "sxx", "sxy", "syy", "sse")
         )
+        if centred["sxx"]:
+            lines[i] = {
+                "slope": centred["sxy"] / centred["sxx"],
+                "sxx": centred["sxx"],
+                "sse": centred["sse"],
+                "scales": reference_scales(refs, i),
+            }
         fits.append(
             fit_from_sums(
                 predictor,
@@ -169,6 +183,9 @@ def fit_lines(
                 x_distinct=distinct.get(i),
             )
         )
+    if influence:
+        rows = most_influential(frame, predictors, refs, sums, lines)
+        fits = [replace(fit, influence=rows.get(i)) for i, fit in enumerate(fits)]
     return tuple(fits)
 
 

@@ -443,7 +443,7 @@ class RelationshipAnalysis:
         sums = centred_sums(table, columns, references) if columns else {}
         fits = tuple(
             replace(fit, predictor=frame.predictors[fit.predictor])
-            for fit in fit_lines(table, columns, confidence, references, sums)
+            for fit in fit_lines(table, columns, confidence, references, sums, influence=True)
         )
         correlations = (
             correlate(table, columns, names, confidence, references, sums) if columns else ()

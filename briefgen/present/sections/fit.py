@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 from briefgen.figures.relationship import relationship_chart
 from briefgen.numbers import (
     decimals_for,
@@ -45,6 +47,69 @@ def _signed_slope(value: float, decimals: int) -> str:
 
 
 def fit_finding(
+    fit: RegressionFit,
+    correlation: Correlation | None,
+    log_fit: LogFit | None,
+    slopes: list[tuple[str, GroupSlopes]],
+    words: Wording,
+    x_label: str,
+    family: Family,
+) -> Finding | None:
+    """Direction of the target with one predictor, and a row that pulls the line, if any.
+
+    The row's note goes into the certainty, so page 1 carries it beside the claim.
+    """
+    finding = _direction(fit, correlation, log_fit, slopes, words, x_label, family)
+    note = influence_note(fit, words, x_label)
+    if finding is None or note is None:
+        return finding
+    return replace(finding, certainty=f"{finding.certainty} {note}")
+
+
+def influence_note(fit: RegressionFit, words: Wording, x_label: str) -> str | None:
+    """One sentence when a row's Cook's distance passes the cut-off: the slope without it."""
+    row = fit.influence
+    if row is None or not row.pulls or row.slope_without is None or fit.slope is None:
+        return None
+    factor = 100.0 if words.kind == "binary" else 1.0
+    step, _, per = _step_phrases(fit, factor)
+    scale = step * factor
+    d = decimals_for(abs(fit.slope * scale))
+    points = " points" if words.kind == "binary" else ""
+    where = f"with {words.lower} at {_as_written(row.y)} and {in_sentence(x_label)} at {_as_written(row.x)}"
+    who = (
+        f"One row, {where}, pulls the straight line: without it"
+        if row.rows_over == 1
+        else f"{_count_words(row.rows_over)} rows pull the straight line; without the strongest, {where},"
+    )
+    return (
+        f"{who} the slope would be {_signed_slope(row.slope_without * scale, d)}"
+        f"{points} {per}, not {_signed_slope(fit.slope * scale, d)} (Cook's distance "
+        f"{fmt(row.cooks_distance, 2)}, cut-off {fmt(row.cutoff, 2)})."
+    )
+
+
+_SMALL_COUNTS = ("Two", "Three", "Four", "Five", "Six", "Seven", "Eight", "Nine")
+
+
+def _count_words(count: int) -> str:
+    """A count that opens a sentence: in words up to nine, as style guides ask, else digits."""
+    return _SMALL_COUNTS[count - 2] if 2 <= count <= 9 else fmt_count(count)
+
+
+# A data value is written with the decimals it has, up to this many (else 4 significant digits).
+_WRITTEN_DECIMALS = 6
+
+
+def _as_written(value: float) -> str:
+    """A data value as it was most likely written: 48.0 ─► "48", 1348.9 ─► "1,348.9"."""
+    for decimals in range(_WRITTEN_DECIMALS + 1):
+        if float(f"{value:.{decimals}f}") == value:
+            return fmt(value, decimals)
+    return fmt(value, decimals_for(abs(value), 4))
+
+
+def _direction(
     fit: RegressionFit,
     correlation: Correlation | None,
     log_fit: LogFit | None,
