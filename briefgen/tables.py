@@ -8,7 +8,16 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_interval, fmt_p, fmt_percent, p_text
+from briefgen.numbers import (
+    decimals_for,
+    fmt,
+    fmt_count,
+    fmt_interval,
+    fmt_p,
+    fmt_percent,
+    fmt_share,
+    p_text,
+)
 from briefgen.present.wording import Wording, test_name
 from briefgen.profile import natural_sorted
 from briefgen.stats import BriefStats
@@ -98,7 +107,7 @@ def fold_note(shown: ShownLevels, name: str) -> str | None:
     listed += f" and {more} more" if more > 0 else ""
     return (
         f"{shown.other_label} holds {fmt_count(shown.folded_rows)} rows "
-        f"({fmt_percent(share, 0 if share >= 0.1 else 1)}): {listed}. The {len(shown.kept)} levels "
+        f"({fmt_share(share, 0 if share >= 0.1 else 1)}): {listed}. The {len(shown.kept)} levels "
         f"of {name} shown by name are the largest; levels of equal size are ranked by how far "
         "their mean lies from the overall mean."
     )

@@ -7,8 +7,11 @@ reference values from pandas on those frames.
 
 from __future__ import annotations
 
+import numpy as np
 import statsmodels.api as sm
 from constructed import brief_for, findings_by_key
+
+from briefgen.numbers import fmt_share
 
 
 def _statecrime():
@@ -28,3 +31,34 @@ def test_overall_section_states_the_mean_once_and_leaves_no_it_to_guess(tmp_path
     assert " it " not in f" {page2} " and " it;" not in page2
     assert "pull the mean up" in finding.certainty
     assert "typical violent is 366 (median)" in finding.text
+
+
+def _randhie():
+    # statsmodels.datasets.randhie: RAND Health Insurance Experiment, 20,190 person-years.
+    return sm.datasets.randhie.load_pandas().data
+
+
+def test_fmt_share_never_rounds_a_real_share_to_nothing_or_to_all():
+    # Constructed cases: the rule is the brief's own (a share that is not 0 never prints "0%").
+    assert fmt_share(0.0049) == "under 1%"
+    assert fmt_share(0.0049, 1) == "0.5%"
+    assert fmt_share(0.0004, 1) == "under 0.1%"
+    assert fmt_share(0.0) == "0%"
+    assert fmt_share(0.006) == "1%"
+    assert fmt_share(0.996) == "over 99%"
+    assert fmt_share(1.0) == "100%"
+    assert fmt_share(None) == "–"
+
+
+def test_a_clear_slope_with_tiny_r_squared_says_under_one_percent(tmp_path):
+    frame = _randhie()
+    # numpy: r(lncoins, mdvis)² = 0.0049 (rounds to 0%), yet the slope's p is far below 0.001
+    # with 20,190 rows, so the brief calls the relationship clear.
+    r2 = np.corrcoef(frame.lncoins, frame.mdvis)[0, 1] ** 2
+    assert 0 < r2 < 0.005
+    _, doc = brief_for(
+        frame[["mdvis", "lncoins"]], tmp_path, target="mdvis", predictors=["lncoins"]
+    )
+    finding = next(f for f in doc.findings if "lncoins" in f.key)
+    assert "accounts for under 1% of the variation" in finding.text
+    assert "accounts for 0%" not in finding.text

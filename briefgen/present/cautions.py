@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from briefgen.numbers import (
     fmt_count,
-    fmt_percent,
+    fmt_share,
 )
 from briefgen.present.wording import (
     Wording,
@@ -110,7 +110,7 @@ def level_cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> 
                 f"{name[:1].upper() + name[1:]} holds numbers with {fmt_count(shown.levels_in_data)} "
                 "distinct values, so as "
                 f"a group it shows {len(shown.kept)} of them and folds the rest into "
-                f"{shown.other_label} ({fmt_percent(shown.folded_share)} of rows), losing their order. "
+                f"{shown.other_label} ({fmt_share(shown.folded_share)} of rows), losing their order. "
                 f"To see how {words.lower} changes along it, list {group.variable} under predictors "
                 "in the config instead of groups."
             )

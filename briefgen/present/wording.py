@@ -16,7 +16,7 @@ from briefgen.numbers import (
     fmt_interval,
     fmt_level,
     fmt_p,
-    fmt_percent,
+    fmt_share,
     p_text,
 )
 from briefgen.present.family import Family
@@ -93,7 +93,7 @@ def signed(value: float | None, words: Wording) -> str:
 
 def share_text(value: float | None) -> str:
     """A share (0–1) as a percent with one decimal: shares of rows read in tenths of a percent."""
-    return fmt_percent(value, 1)
+    return fmt_share(value, 1)
 
 
 def points_text(value: float | None) -> str:

@@ -18,6 +18,7 @@ from briefgen.figures.theme import ROW_IN, Chart, compact_row_in
 from briefgen.numbers import (
     fmt_count,
     fmt_percent,
+    fmt_share,
     p_text,
 )
 from briefgen.present.cautions import SMALL_GROUP
@@ -158,7 +159,7 @@ def _with_confounders(
         if test.p_value >= alpha and test.kept < VANISHING:
             text = (
                 f"{finding.text} Once {other} is allowed for, the differences by {name} shrink to "
-                f"{fmt_percent(test.kept)} of their size and are no longer clear "
+                f"{fmt_share(test.kept)} of their size and are no longer clear "
                 f"({p_text(test.p_value)}): the levels of {name} differ mostly in their mix of "
                 f"{other}, the likely confounder."
             )
@@ -180,7 +181,7 @@ def _with_confounders(
     if partial:
         other, test = partial[0]
         note = (
-            f"Most of this goes with {other}: allowing for it, only {fmt_percent(test.kept)} of "
+            f"Most of this goes with {other}: allowing for it, only {fmt_share(test.kept)} of "
             f"the differences by {name} remain ({p_text(test.p_value)})."
         )
         # On page 1 too: a reader acting on the order should know the other group drives it.
