@@ -214,7 +214,7 @@ def _sections(
         appendix.append(fits_table(stats, labels, words))
     if stats.slopes_by_group:
         appendix.append(slopes_table(stats, labels, names))
-    appendix.append(accounting_table(stats, labels))
+    appendix.append(accounting_table(stats, labels, names))
     return sections, appendix
 
 
@@ -299,7 +299,8 @@ def build_document(
     unclear = [f for f in found if f.claim not in SETTLED]
     key = [*clear, *unclear]
     explained = sum(1 for f in found if f.claim == "explained" and family.passes(f.key))
-    names = {g: name_for(spec, g) for g in spec.groups}
+    # Groups and predictors as sentences name them: the configured label, else the column.
+    names = {c: name_for(spec, c) for c in (*spec.groups, *spec.predictors)}
     accounting = stats.accounting
     rows = fmt_count(accounting.rows_read)
     if accounting.covers is not None:

@@ -477,8 +477,12 @@ def slopes_table(stats: BriefStats, labels: dict[str, str], names: dict[str, str
     )
 
 
-def accounting_table(stats: BriefStats, labels: dict[str, str]) -> Table:
+def accounting_table(
+    stats: BriefStats, labels: dict[str, str], names: dict[str, str] | None = None
+) -> Table:
+    """Where every row went; ``labels`` names predictors and ``names`` groups, as configured."""
     acc = stats.accounting
+    names = names or {}
     rows = []
     if acc.covers is not None:
         # The rows where and window left out are a choice, not a loss: shares of the source.
@@ -496,9 +500,10 @@ def accounting_table(stats: BriefStats, labels: dict[str, str]) -> Table:
         kind, _, what = name.partition(":")
         title = {
             "target": "Used: overall summary",
-            "group": f"Used: comparison by {what}",
+            "group": f"Used: comparison by {names.get(what, what)}",
             "fit": f"Used: relationship with {labels.get(what, what)}",
-            "cross": f"Used: table of {what}",
+            "cross": "Used: table of "
+            + " × ".join(names.get(part, part) for part in what.split(" × ")),
             "trend": "Used: trend over time",
         }[kind]
         rows.append((title, fmt_count(n), share(n)))

@@ -62,3 +62,27 @@ def test_a_clear_slope_with_tiny_r_squared_says_under_one_percent(tmp_path):
     finding = next(f for f in doc.findings if "lncoins" in f.key)
     assert "accounts for under 1% of the variation" in finding.text
     assert "accounts for 0%" not in finding.text
+
+
+RANDHIE_LABELS = {"idp": "Individual deductible plan", "lncoins": "log(coinsurance+1)"}
+
+
+def test_configured_labels_name_columns_except_where_the_reader_types_them(tmp_path):
+    frame = _randhie()[["mdvis", "idp", "lncoins"]]
+    # pandas: lncoins takes 5 distinct values, idp 2 (statsmodels randhie).
+    assert frame.lncoins.nunique() == 5 and frame.idp.nunique() == 2
+    _, doc = brief_for(
+        frame,
+        tmp_path,
+        target="mdvis",
+        groups=["idp"],
+        predictors=["lncoins"],
+        labels=RANDHIE_LABELS,
+    )
+    code_note = next(c for c in doc.cautions if "distinct values" in c)
+    assert code_note.startswith("Log(coinsurance+1) takes only 5 distinct values")
+    assert "list lncoins under groups" in code_note  # the column name the config needs
+    rows = next(t for t in doc.appendix if t.key == "table-rows")
+    titles = [row[0] for row in rows.rows]
+    assert "Used: comparison by Individual deductible plan" in titles
+    assert "Used: comparison by idp" not in titles

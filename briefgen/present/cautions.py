@@ -116,8 +116,10 @@ def level_cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> 
             )
     for fit in stats.fits:
         if fit.x_distinct is not None and 1 < fit.x_distinct <= CODE_LIKE_VALUES:
+            # The label names it; the column name stays only where the reader types it.
+            name = names.get(fit.predictor, fit.predictor)
             notes.append(
-                f"{fit.predictor} takes only {fit.x_distinct} distinct values: it is likely a code or "
+                f"{name[:1].upper() + name[1:]} takes only {fit.x_distinct} distinct values: it is likely a code or "
                 "a category, and a straight line through so few values can hide the pattern between "
                 f"them. If its values are labels, list {fit.predictor} under groups in the config "
                 "instead of predictors."
