@@ -86,3 +86,16 @@ def test_configured_labels_name_columns_except_where_the_reader_types_them(tmp_p
     titles = [row[0] for row in rows.rows]
     assert "Used: comparison by Individual deductible plan" in titles
     assert "Used: comparison by idp" not in titles
+
+
+def test_two_levels_read_one_above_the_other(tmp_path):
+    frame = _randhie()[["mdvis", "idp"]]
+    # pandas: mean visits 2.996 for idp = 0 and 2.473 for idp = 1 (20,190 rows).
+    means = frame.groupby("idp").mdvis.mean()
+    _, doc = brief_for(frame, tmp_path, target="mdvis", groups=["idp"], labels=RANDHIE_LABELS)
+    finding = findings_by_key(doc)["group-idp"]
+    assert finding.headline.startswith(
+        f"By Individual deductible plan: 0 above 1 ({means[0]:.2f} against {means[1]:.2f})"
+    )
+    assert "highest" not in finding.headline and "lowest" not in finding.headline
+    assert "highest" not in finding.text and "lowest" not in finding.text

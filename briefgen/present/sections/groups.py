@@ -277,12 +277,18 @@ def _order_finding(
     )
 
 
+def _extremes(usable: list[Summary]) -> tuple[str, str]:
+    """'higher'/'lower' between two levels, 'highest'/'lowest' among more."""
+    return ("higher", "lower") if len(usable) == 2 else ("highest", "lowest")
+
+
 def _rank_text(ordering, usable, high, low, words: Wording, name: str, ordered: bool) -> str:
     """The sentence on the rank path: medians quoted, levels placed by mean rank."""
+    high_word, low_word = _extremes(usable)
     if ordered:
         text = (
-            f"By {name}, values tend to be highest for {high.level} (median "
-            f"{words.value(high.median)}) and lowest for {low.level} (median "
+            f"By {name}, values tend to be {high_word} for {high.level} (median "
+            f"{words.value(high.median)}) and {low_word} for {low.level} (median "
             f"{words.value(low.median)}); their means are {words.value(high.mean)} and "
             f"{words.value(low.mean)}."
         )
@@ -305,9 +311,10 @@ def _mean_text(ordering, usable, high, low, words: Wording, name: str, ordered: 
     """The sentence on the means path: the gap, its widened interval when the ends are apart."""
     gap = words.value(ordering.gap)
     if ordered:
+        high_word, low_word = _extremes(usable)
         text = (
-            f"By {name}, {high.level} has the highest mean {words.lower}, "
-            f"{words.value(high.mean)}, and {low.level} the lowest, {words.value(low.mean)}: "
+            f"By {name}, {high.level} has the {high_word} mean {words.lower}, "
+            f"{words.value(high.mean)}, and {low.level} the {low_word}, {words.value(low.mean)}: "
             f"a gap of {gap}"
         )
     else:
@@ -339,6 +346,12 @@ def _order_headline(ordering, by_level, value, name, rank) -> tuple[str, str]:
     if ordering.flat:
         return (
             f"By {name}: levels differ in spread, not in their {'medians' if rank else 'means'}",
+            "",
+        )
+    if ordering.single_top and ordering.single_bottom and len(by_level) == 2:
+        # Of two levels, "highest" and "lowest" overstate: one is simply above the other.
+        return (
+            f"By {name}: {high.level} above {low.level} ({value(high)} against {value(low)})",
             "",
         )
     if ordering.single_top and ordering.single_bottom:
@@ -476,7 +489,12 @@ def binary_group_finding(
         certainty = (
             f"Differences this large would be unlikely if {name} made no difference ({verdict})."
         )
-        if single_top and single_bottom:
+        if single_top and single_bottom and len(shares) == 2:
+            headline = (
+                f"By {name}: {high.level} above {low.level} ({share_text(high.share)} against "
+                f"{share_text(low.share)}), {points_text(gap)} percentage points"
+            )
+        elif single_top and single_bottom:
             headline = (
                 f"By {name}: {high.level} highest ({share_text(high.share)}), "
                 f"{low.level} lowest ({share_text(low.share)}), {points_text(gap)} percentage points"
