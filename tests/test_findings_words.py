@@ -99,3 +99,21 @@ def test_two_levels_read_one_above_the_other(tmp_path):
     )
     assert "highest" not in finding.headline and "lowest" not in finding.headline
     assert "highest" not in finding.text and "lowest" not in finding.text
+
+
+def test_zero_shares_are_for_the_two_levels_the_headline_names(tmp_path):
+    frame = _randhie()[["mdvis", "physlm"]]
+    # pandas on statsmodels randhie: by physlm, the highest mean visits is level 0.0327869
+    # (5.40, 17.1% zeros, n = 129) and the lowest level 0.12982 (0.73, 73.3% zeros, n = 15).
+    by_level = frame.groupby("physlm").mdvis
+    means, zeros = by_level.mean(), by_level.apply(lambda v: (v == 0).mean())
+    high, low = means.idxmax(), means.idxmin()
+    assert round(means[high], 2) == 5.40 and round(means[low], 2) == 0.73
+    _, doc = brief_for(frame, tmp_path, target="mdvis", groups=["physlm"])
+    finding = findings_by_key(doc)["group-physlm"]
+    assert "0.12982" in finding.headline
+    sentence = finding.text[finding.text.index("Values are 0 in") :]
+    assert sentence.startswith(
+        f"Values are 0 in {100 * zeros[high]:.1f}% of rows for 0.0327869 and "
+        f"{100 * zeros[low]:.1f}% for 0.12982."
+    )

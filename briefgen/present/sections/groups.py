@@ -99,7 +99,9 @@ def group_finding(
     )
     finding = _order_finding(ordering, usable, words, name, clear)
     if by_means:
-        finding = _with_zero_shares(finding, group, comparison, usable)
+        finding = _with_zero_shares(
+            finding, group, comparison, usable, (ordering.highest, ordering.lowest)
+        )
     verdict = f"{named_test}, {adjusted_phrase(p, p_adjusted, family)}"
     certainty = (
         f"Differences this large would be unlikely if {name} made no difference ({verdict})."
@@ -206,11 +208,17 @@ def _with_nesting(finding: Finding, name: str, outers: Sequence[str]) -> Finding
 
 
 def _with_zero_shares(
-    finding: Finding, group: GroupResult, comparison: GroupComparison, usable: list[Summary]
+    finding: Finding,
+    group: GroupResult,
+    comparison: GroupComparison,
+    usable: list[Summary],
+    ends: tuple[str, str],
 ) -> Finding:
-    """A count target's sentence adds each named level's share of zeros, and why means."""
+    """A count target's sentence adds the shares of zeros of the highest and lowest level, and
+    why means. ``ends`` are those two levels, the ones the sentence names: ``finding.levels``
+    lists every level tied at the top and bottom, so its last entry need not be the lowest."""
     zeros = {s.level: s for s in group.shares}
-    named = [zeros[level] for level in finding.levels[:1] + finding.levels[-1:] if level in zeros]
+    named = [zeros[level] for level in ends if level in zeros]
     text = finding.text
     if len(named) == 2 and named[0] is not named[1]:
         text += (
