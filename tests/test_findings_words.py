@@ -117,3 +117,75 @@ def test_zero_shares_are_for_the_two_levels_the_headline_names(tmp_path):
         f"Values are 0 in {100 * zeros[high]:.1f}% of rows for 0.0327869 and "
         f"{100 * zeros[low]:.1f}% for 0.12982."
     )
+
+
+# US Census Bureau, "Census Regions and Divisions of the United States" (nine divisions).
+CENSUS_DIVISIONS = {
+    "New England": (
+        "Connecticut",
+        "Maine",
+        "Massachusetts",
+        "New Hampshire",
+        "Rhode Island",
+        "Vermont",
+    ),
+    "Middle Atlantic": ("New Jersey", "New York", "Pennsylvania"),
+    "East North Central": ("Illinois", "Indiana", "Michigan", "Ohio", "Wisconsin"),
+    "West North Central": (
+        "Iowa",
+        "Kansas",
+        "Minnesota",
+        "Missouri",
+        "Nebraska",
+        "North Dakota",
+        "South Dakota",
+    ),
+    "South Atlantic": (
+        "Delaware",
+        "District of Columbia",
+        "Florida",
+        "Georgia",
+        "Maryland",
+        "North Carolina",
+        "South Carolina",
+        "Virginia",
+        "West Virginia",
+    ),
+    "East South Central": ("Alabama", "Kentucky", "Mississippi", "Tennessee"),
+    "West South Central": ("Arkansas", "Louisiana", "Oklahoma", "Texas"),
+    "Mountain": (
+        "Arizona",
+        "Colorado",
+        "Idaho",
+        "Montana",
+        "Nevada",
+        "New Mexico",
+        "Utah",
+        "Wyoming",
+    ),
+    "Pacific": ("Alaska", "California", "Hawaii", "Oregon", "Washington"),
+}
+
+
+def test_unordered_levels_name_the_extreme_medians_as_the_table_does(tmp_path):
+    frame = _statecrime()
+    division = {state: d for d, states in CENSUS_DIVISIONS.items() for state in states}
+    frame["division"] = frame.state.str.strip().map(division)
+    assert frame.division.notna().all()
+    # pandas: medians run from 211.9 (New England) to 590.0 (South Atlantic); by mean rank
+    # West South Central (39.75, n = 4) leads South Atlantic (35.8), so "sits highest" by
+    # mean rank contradicted the table, which orders levels by median.
+    medians = frame.groupby("division").violent.median()
+    assert medians.idxmax() == "South Atlantic" and medians.idxmin() == "New England"
+    ranks = frame.violent.rank().groupby(frame.division).mean()
+    assert ranks.idxmax() == "West South Central"
+    _, doc = brief_for(
+        frame[["violent", "division"]], tmp_path, target="violent", groups=["division"]
+    )
+    finding = findings_by_key(doc)["group-division"]
+    assert finding.headline == "By division: levels differ, but no single pair is clearly apart"
+    assert "range from 212 (New England) to 590 (South Atlantic)." in finding.text
+    assert "sits highest" not in finding.text
+    # All nine levels are tied with both ends: the text says so once instead of listing them twice.
+    assert finding.text.count("West North Central") == 0
+    assert "no level is clearly apart from either end" in finding.text

@@ -301,11 +301,15 @@ def _rank_text(ordering, usable, high, low, words: Wording, name: str, ordered: 
             f"{words.value(low.mean)}."
         )
     else:
-        medians = [s.median for s in usable if s.level in ordering.values]
+        # No order is supported, so no level is said to sit highest: the levels holding the
+        # extreme medians are named, as the table (ordered by median) shows them. Naming the
+        # top by mean rank here put West South Central first where the table had South Atlantic.
+        medians = [s for s in usable if s.level in ordering.values]
+        top = max(medians, key=lambda s: s.median)
+        bottom = min(medians, key=lambda s: s.median)
         text = (
-            f"By {name}, medians of {words.lower} range from {words.value(min(medians))} to "
-            f"{words.value(max(medians))}; by where their values fall, {high.level} sits highest "
-            f"and {low.level} lowest (means {words.value(high.mean)} and {words.value(low.mean)})."
+            f"By {name}, medians of {words.lower} range from {words.value(bottom.median)} "
+            f"({bottom.level}) to {words.value(top.median)} ({top.level})."
         )
     if high.median == low.median:
         text += (
@@ -377,6 +381,12 @@ def _order_headline(ordering, by_level, value, name, rank) -> tuple[str, str]:
         f" No single level is clearly apart from its neighbours: {listed(ordering.top)} are not "
         f"told apart at the top, {listed(ordering.bottom)} at the bottom."
     )
+    if set(ordering.top) == set(ordering.bottom) == set(ordering.values):
+        # Every level in both lists: naming them all twice says nothing the reader can use.
+        note = (
+            " In the pairwise tests no level is clearly apart from either end, and the two ends "
+            "are not clearly apart from each other."
+        )
     if ordering.ends_apart:
         return (
             f"By {name}: {high.level} above {low.level} ({value(high)} against {value(low)})",
