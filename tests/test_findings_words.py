@@ -8,10 +8,13 @@ reference values from pandas on those frames.
 from __future__ import annotations
 
 import numpy as np
+import pytest
 import statsmodels.api as sm
 from constructed import brief_for, findings_by_key
 
+from briefgen.figures.distribution import _cut, _limits, _past_edges, distribution_chart
 from briefgen.numbers import fmt_share
+from briefgen.stats.core.summary import BoxStats
 
 
 def _statecrime():
@@ -189,3 +192,52 @@ def test_unordered_levels_name_the_extreme_medians_as_the_table_does(tmp_path):
     # All nine levels are tied with both ends: the text says so once instead of listing them twice.
     assert finding.text.count("West North Central") == 0
     assert "no level is clearly apart from either end" in finding.text
+
+
+def test_box_axis_marks_only_values_past_its_drawn_edge(tmp_path):
+    frame = _statecrime()
+    region = {"South Atlantic": "South", "East South Central": "South"}
+    region |= {"West South Central": "South", "New England": "Northeast"}
+    region |= {"Middle Atlantic": "Northeast", "Pacific": "West", "Mountain": "West"}
+    region |= {"East North Central": "Midwest", "West North Central": "Midwest"}
+    division = {state: d for d, states in CENSUS_DIVISIONS.items() for state in states}
+    frame["region"] = frame.state.str.strip().map(division).map(region)
+    stats, _ = brief_for(
+        frame[["violent", "region"]], tmp_path, target="violent", groups=["region"]
+    )
+    (group,) = stats.groups
+    south = next(b for b in group.boxes if b.level == "South")
+    # pandas: the South's quartiles put DC (1,348.9, statsmodels statecrime) past the cut of
+    # the shared box axis (3 × IQR, Tukey's far-out fence), so the engine counts it ...
+    dc = frame.violent.max()
+    assert dc == 1348.9 and south.beyond_axis_high == 1 and south.axis_high < dc
+    # ... but the drawn axis keeps room past the cut, and DC fits in it: drawn, not marked.
+    lower, upper = _limits(list(group.boxes), log=False)
+    assert upper > dc
+    fliers, below, above, exact = _past_edges(south, lower, upper)
+    assert dc in fliers and (below, above) == (0, 0) and exact
+    chart = distribution_chart(group, stats.overall, "Violent crime", 0, 0.95, "region")
+    assert "far-out" not in chart.caption and "past the" not in chart.caption
+
+
+def _box(outliers, beyond_high, outlier_count=None) -> BoxStats:
+    """A constructed box on an axis cut at 0 and 100, with the given values past the whisker."""
+    return BoxStats(
+        level="A", n=100, q1=40, median=50, q3=60, whisker_low=20, whisker_high=80,
+        notch_low=45, notch_high=55, mean=50, outlier_count=outlier_count or len(outliers),
+        outliers=tuple(outliers), axis_low=0, axis_high=100, beyond_axis_low=0,
+        beyond_axis_high=beyond_high,
+    )  # fmt: skip
+
+
+def test_values_past_the_drawn_edge_are_counted_and_unlisted_ones_keep_the_cut():
+    # Constructed: drawn axis to 116 (0.16 of the span past the cut at 100).
+    lower, upper = _limits([_box([110, 130], 2)], log=False)
+    assert upper == pytest.approx(116)
+    fliers, _, above, exact = _past_edges(_box([130, 110, 95], 2), lower, upper)
+    assert sorted(fliers) == [95, 110] and above == 1 and exact
+    # Only one of the two values past the cut is listed: the figure cannot place the other,
+    # so the engine's count stands and the caption names the cut instead of the drawn edge.
+    fliers, _, above, exact = _past_edges(_box([130], 2, outlier_count=30), lower, upper)
+    assert fliers == [] and above == 2 and not exact
+    assert _cut([_box([130], 2, outlier_count=30)], exact, 0) == "above 100"
