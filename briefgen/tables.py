@@ -18,7 +18,7 @@ from briefgen.numbers import (
     fmt_share,
     p_text,
 )
-from briefgen.present.wording import Wording, test_name
+from briefgen.present.wording import Wording, labelled_analysis, test_name
 from briefgen.profile import natural_sorted
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
@@ -508,7 +508,11 @@ def accounting_table(
         }[kind]
         rows.append((title, fmt_count(n), share(n)))
     rows += [
-        (f"Left out of {d.analysis}: {d.reason}", fmt_count(d.rows), share(d.rows))
+        (
+            f"Left out of {labelled_analysis(d.analysis, names | labels)}: {d.reason}",
+            fmt_count(d.rows),
+            share(d.rows),
+        )
         for d in acc.dropped
     ]
     missing = [f"{column} {fmt_count(n)}" for column, n in acc.missing_by_column.items() if n]

@@ -8,6 +8,7 @@ reference values from pandas on those frames.
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 import pytest
 import statsmodels.api as sm
 from constructed import brief_for, findings_by_key
@@ -241,3 +242,22 @@ def test_values_past_the_drawn_edge_are_counted_and_unlisted_ones_keep_the_cut()
     fliers, _, above, exact = _past_edges(_box([130], 2, outlier_count=30), lower, upper)
     assert fliers == [] and above == 2 and not exact
     assert _cut([_box([130], 2, outlier_count=30)], exact, 0) == "above 100"
+
+
+def test_rows_left_out_name_the_analysis_by_its_labels(tmp_path):
+    # Constructed: 40 rows, 4 without a site and 3 without a dose.
+    rng = np.random.default_rng(8)
+    frame = pd.DataFrame(
+        {"y": rng.normal(10, 1, 40), "site": ["a", "b"] * 20, "dose": rng.uniform(0, 5, 40)}
+    )
+    frame.loc[:3, "site"] = None
+    frame.loc[10:12, "dose"] = None
+    labels = {"site": "Clinic site", "dose": "Daily dose"}
+    _, doc = brief_for(
+        frame, tmp_path, target="y", groups=["site"], predictors=["dose"], labels=labels
+    )
+    rows = next(t for t in doc.appendix if t.key == "table-rows")
+    titles = [row[0] for row in rows.rows]
+    assert "Left out of comparison by Clinic site: no value in 'site'" in titles
+    assert "Left out of relationship with Daily dose: no finite value in 'dose'" in titles
+    assert "4 rows left out of comparison by Clinic site: no value in 'site'." in doc.cautions

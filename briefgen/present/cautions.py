@@ -8,6 +8,7 @@ from briefgen.numbers import (
 )
 from briefgen.present.wording import (
     Wording,
+    labelled_analysis,
 )
 from briefgen.stats import BriefStats
 
@@ -26,7 +27,8 @@ CODE_LIKE_VALUES = 5
 def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[str]:
     """What a reader must know before acting on the brief."""
     notes = [
-        f"{fmt_count(dropped.rows)} rows left out of {dropped.analysis}: {dropped.reason}."
+        f"{fmt_count(dropped.rows)} rows left out of "
+        f"{labelled_analysis(dropped.analysis, names)}: {dropped.reason}."
         for dropped in stats.accounting.dropped
     ]
     for group in stats.groups:

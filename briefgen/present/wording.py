@@ -143,3 +143,16 @@ def label_for(spec: BriefSpec, column: str) -> str:
 def name_for(spec: BriefSpec, column: str) -> str:
     """A column's name inside a sentence: the configured label, else the name tidied."""
     return spec.labels.get(column, column.replace("_", " ").strip())
+
+
+def labelled_analysis(analysis: str, names: dict[str, str]) -> str:
+    """An analysis the row accounting names ("comparison by idp") with its columns' labels.
+
+    The engine names analyses by column (``stats.core.usage``); the brief names columns as
+    the config labels them. Only the engine's own phrasings are rewritten, whole.
+    """
+    for phrase in ("comparison by ", "relationship with ", "the table of "):
+        if analysis.startswith(phrase):
+            columns = analysis.removeprefix(phrase).split(" × ")
+            return phrase + " × ".join(names.get(c, c) for c in columns)
+    return analysis
