@@ -27,7 +27,7 @@ from briefgen.present.sections.groups import group_sections
 from briefgen.present.sections.overall import kind_note, overall_section
 from briefgen.present.sections.since import SinceSection, column_notice, since_section
 from briefgen.present.sections.trend import trend_section
-from briefgen.present.wording import Wording, label_for, name_for, wording_for
+from briefgen.present.wording import Wording, in_sentence, label_for, name_for, wording_for
 from briefgen.stats import BriefStats
 from briefgen.tables import (
     Table,
@@ -225,7 +225,7 @@ def _sections(
         appendix.append(fits_table(stats, labels, words))
     if stats.slopes_by_group:
         appendix.append(slopes_table(stats, labels, names))
-    appendix.append(accounting_table(stats, labels))
+    appendix.append(accounting_table(stats, labels, names))
     return sections, appendix
 
 
@@ -314,7 +314,9 @@ def build_document(
     unclear = [f for f in found if f.claim not in SETTLED]
     key = [*clear, *unclear]
     explained = sum(1 for f in found if f.claim == "explained" and family.passes(f.key))
+    # Groups and predictors as sentences name them: the configured label, else the column.
     names = {g: name_for(spec, g) for g in spec.groups}
+    names |= {p: in_sentence(name_for(spec, p)) for p in spec.predictors}  # as fit sections say it
     accounting = stats.accounting
     rows = fmt_count(accounting.rows_read)
     if accounting.covers is not None:

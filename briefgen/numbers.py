@@ -89,6 +89,24 @@ def fmt_percent(value: float | None, decimals: int = 0) -> str:
     return fmt(100 * value, decimals) + "%"
 
 
+def fmt_share(value: float | None, decimals: int = 0) -> str:
+    """A share of rows or of variation as a percent, never "0%" or "100%" unless exactly so.
+
+    R² = 0.0049 rounds to "0%", which beside a clear relationship says it explains
+    nothing; such a share reads "under 1%" (with one decimal, "under 0.1%"), and one
+    just short of all reads "over 99%".
+    """
+    text = fmt_percent(value, decimals)
+    if value is None or not math.isfinite(value):
+        return text
+    step = 10.0**-decimals
+    if value > 0 and text == fmt_percent(0.0, decimals):
+        return f"under {fmt(step, decimals)}%"
+    if value < 1 and text == fmt_percent(1.0, decimals):
+        return f"over {fmt(100 - step, decimals)}%"
+    return text
+
+
 def fmt_p(p: float | None) -> str:
     """p-values the way journals print them: two significant digits, floor at 0.001."""
     if p is None or not math.isfinite(p):

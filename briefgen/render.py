@@ -182,7 +182,9 @@ def render_json(
         "since": _plain(since),
         "checks": _plain(checks),
         "figures": [
-            {"key": chart.key, "title": chart.title, "rules": list(chart.rules)} for chart in charts
+            {"key": chart.key, "title": chart.title, "rules": list(chart.rules)}
+            | ({"values_past_edge": chart.past_edge} if chart.past_edge is not None else {})
+            for chart in charts
         ],
         "stats": _plain(stats),
     }

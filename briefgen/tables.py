@@ -9,9 +9,18 @@ from __future__ import annotations
 from collections.abc import Iterable
 from dataclasses import dataclass
 
-from briefgen.numbers import decimals_for, fmt, fmt_count, fmt_interval, fmt_p, fmt_percent, p_text
+from briefgen.numbers import (
+    decimals_for,
+    fmt,
+    fmt_count,
+    fmt_interval,
+    fmt_p,
+    fmt_percent,
+    fmt_share,
+    p_text,
+)
 from briefgen.present.bounds import HasInterval
-from briefgen.present.wording import Wording, test_name
+from briefgen.present.wording import Wording, labelled_analysis, test_name
 from briefgen.profile import natural_sorted
 from briefgen.stats import BriefStats
 from briefgen.stats.compare import GroupComparison
@@ -113,7 +122,7 @@ def fold_note(shown: ShownLevels, name: str) -> str | None:
     listed += f" and {more} more" if more > 0 else ""
     return (
         f"{shown.other_label} holds {fmt_count(shown.folded_rows)} rows "
-        f"({fmt_percent(share, 0 if share >= 0.1 else 1)}): {listed}. The {len(shown.kept)} levels "
+        f"({fmt_share(share, 0 if share >= 0.1 else 1)}): {listed}. The {len(shown.kept)} levels "
         f"of {name} shown by name are the largest; levels of equal size are ranked by how far "
         "their mean lies from the overall mean."
     )
@@ -484,8 +493,12 @@ def slopes_table(stats: BriefStats, labels: dict[str, str], names: dict[str, str
     )
 
 
-def accounting_table(stats: BriefStats, labels: dict[str, str]) -> Table:
+def accounting_table(
+    stats: BriefStats, labels: dict[str, str], names: dict[str, str] | None = None
+) -> Table:
+    """Where every row went; ``labels`` names predictors and ``names`` groups, as configured."""
     acc = stats.accounting
+    names = names or {}
     rows = []
     if acc.covers is not None:
         # The rows where and window left out are a choice, not a loss: shares of the source.
@@ -503,14 +516,19 @@ def accounting_table(stats: BriefStats, labels: dict[str, str]) -> Table:
         kind, _, what = name.partition(":")
         title = {
             "target": "Used: overall summary",
-            "group": f"Used: comparison by {what}",
+            "group": f"Used: comparison by {names.get(what, what)}",
             "fit": f"Used: relationship with {labels.get(what, what)}",
-            "cross": f"Used: table of {what}",
+            "cross": "Used: table of "
+            + " × ".join(names.get(part, part) for part in what.split(" × ")),
             "trend": "Used: trend over time",
         }[kind]
         rows.append((title, fmt_count(n), share(n)))
     rows += [
-        (f"Left out of {d.analysis}: {d.reason}", fmt_count(d.rows), share(d.rows))
+        (
+            f"Left out of {labelled_analysis(d.analysis, names | labels)}: {d.reason}",
+            fmt_count(d.rows),
+            share(d.rows),
+        )
         for d in acc.dropped
     ]
     missing = [f"{column} {fmt_count(n)}" for column, n in acc.missing_by_column.items() if n]

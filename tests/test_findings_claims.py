@@ -32,17 +32,18 @@ def test_one_level_apart_is_named_highest_and_no_lowest_is_claimed(tmp_path):
     assert finding.levels[0] == "A"
 
 
-def test_two_clearly_different_levels_are_named_highest_and_lowest(tmp_path):
+def test_two_clearly_different_levels_are_named_one_above_the_other(tmp_path):
     frame = _levels_frame({"north": 12.0, "south": 10.0}, 100, seed=3)
     _, doc = brief_for(frame, tmp_path, target="score", groups=["site"])
     finding = findings_by_key(doc)["group-site"]
     assert finding.claim == "difference"
-    assert "north highest" in finding.headline and "south lowest" in finding.headline
+    # Of two levels one is above the other; "highest" and "lowest" would overstate.
+    north, south = (frame[frame.site == s].score.mean() for s in ("north", "south"))
+    assert finding.headline == f"By site: north above south ({north:.2f} against {south:.2f})"
+    assert "the higher mean" in finding.text and "highest" not in finding.text
     # The interval of the picked pair is Welch's at the Bonferroni level (one pair: 95%),
     # compared with statsmodels' OLS on a two-level factor's unequal-variance analogue.
-    north = frame[frame.site == "north"].score
-    south = frame[frame.site == "south"].score
-    assert finding.estimate == pytest.approx(north.mean() - south.mean(), rel=1e-12)
+    assert finding.estimate == pytest.approx(north - south, rel=1e-12)
 
 
 def test_pure_noise_groups_claim_nothing(tmp_path):

@@ -210,8 +210,9 @@ def test_chart_labels_are_shortened_to_two_lines():
 # --- HTML at phone and desktop widths (headless Chromium) ---
 
 CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
-# Per frame: viewport width, document scroll width, and the smallest chart scale, the
-# rendered width of a chart image over its natural width (its print size in CSS px).
+# Per frame: viewport width, document scroll width, the smallest chart scale (the rendered
+# width of a chart image over its natural width, its print size in CSS px), and how many
+# charts are cut: wider than their box, so part of them is hidden.
 PROBE = """<script>
 addEventListener('load', () => {
   const p = document.createElement('pre');
@@ -220,7 +221,10 @@ addEventListener('load', () => {
     const root = f.contentDocument.documentElement;
     const charts = [...f.contentDocument.querySelectorAll('figure img')];
     const scale = Math.min(...charts.map(i => i.getBoundingClientRect().width / i.naturalWidth));
-    return root.clientWidth + ' ' + root.scrollWidth + ' ' + Math.round(scale * 1000);
+    const boxes = [...f.contentDocument.querySelectorAll('.figure-scroll')];
+    const cut = boxes.filter(b => b.scrollWidth > b.clientWidth
+      || b.querySelector('img').getBoundingClientRect().right > b.getBoundingClientRect().right + 0.5);
+    return root.clientWidth + ' ' + root.scrollWidth + ' ' + Math.round(scale * 1000) + ' ' + cut.length;
   }).join(';');
   document.body.appendChild(p);
 });
@@ -229,11 +233,13 @@ addEventListener('load', () => {
 
 def scroll_widths(brief: Path, widths: tuple[int, ...], folder: Path) -> list[tuple[int, int]]:
     """(viewport width, document scroll width) of ``brief`` in frames of each width."""
-    return [(viewport, scroll) for viewport, scroll, _scale in measure(brief, widths, folder)]
+    return [(viewport, scroll) for viewport, scroll, _scale, _cut in measure(brief, widths, folder)]
 
 
-def measure(brief: Path, widths: tuple[int, ...], folder: Path) -> list[tuple[int, int, float]]:
-    """(viewport width, document scroll width, smallest chart scale) of ``brief`` per width.
+def measure(
+    brief: Path, widths: tuple[int, ...], folder: Path
+) -> list[tuple[int, int, float, int]]:
+    """(viewport width, document scroll width, smallest chart scale, charts cut) per width.
 
     The brief goes into a srcdoc frame of a probe page, a copy: the real brief carries no
     script. A frame, not the window, sets the width, since Chromium keeps its window at
@@ -264,8 +270,8 @@ def measure(brief: Path, widths: tuple[int, ...], folder: Path) -> list[tuple[in
     )
     found = re.search(r'<pre id="measure">([0-9 ;]+)</pre>', result.stdout)
     assert found, result.stderr[-2000:]
-    rows = [[int(v) for v in triple.split()] for triple in found.group(1).split(";")]
-    return [(viewport, scroll, scale / 1000) for viewport, scroll, scale in rows]
+    rows = [[int(v) for v in row.split()] for row in found.group(1).split(";")]
+    return [(viewport, scroll, scale / 1000, cut) for viewport, scroll, scale, cut in rows]
 
 
 @pytest.mark.skipif(
@@ -282,17 +288,21 @@ def test_html_does_not_scroll_sideways(long_briefs, demo_brief, tmp_path):
 @pytest.mark.skipif(
     CHROMIUM is None, reason="chromium is not installed (make system-deps installs it)"
 )
-def test_chart_text_stays_readable_on_a_phone(demo_brief, tmp_path):
-    """Chart text in CSS px at 390 and 1280 px: 8 pt (the theme's smallest) × 4/3 × scale.
+def test_charts_show_whole_on_a_phone_and_at_print_size_on_a_desktop(demo_brief, tmp_path):
+    """At 390 px every chart fits its box whole; at 1280 px its text is at least 10 CSS px.
 
-    Before: charts shrank to the phone's width, scale 0.56, so 8 pt text was 6.0 px. Now a
-    chart keeps 160 mm and scrolls in its own box: at least 10 px on a phone and a desktop
-    (10 px: common practice for the smallest legible screen text, no published source).
+    Before: a chart kept 160 mm and scrolled in its own box on a phone, and the part in view
+    misled (an x axis cut at 42 of 60, the colour bar off screen). A whole chart at 390 px has
+    small text (8 pt × 4/3 × about 0.56, some 6 px); the page allows zooming. 10 px: common
+    practice for the smallest legible screen text, no published source.
     """
     from briefgen.figures.theme import MIN_FONT_PT
 
     measured = measure(demo_brief / "brief.html", (390, 1280), tmp_path)
-    for viewport, scroll, scale in measured:
-        smallest_px = MIN_FONT_PT * 4 / 3 * scale
-        assert smallest_px >= 10.0, (viewport, scale)
-        assert scroll <= viewport, (viewport, scroll)  # the chart scrolls, not the page
+    for viewport, scroll, _scale, cut in measured:
+        assert cut == 0, (viewport, cut)  # no chart wider than its box
+        assert scroll <= viewport, (viewport, scroll)
+    (_, _, desktop_scale, _) = measured[1]
+    assert MIN_FONT_PT * 4 / 3 * desktop_scale >= 10.0, desktop_scale
+    viewport_meta = (demo_brief / "brief.html").read_text(encoding="utf-8")
+    assert "user-scalable=no" not in viewport_meta and "maximum-scale=1" not in viewport_meta

@@ -213,7 +213,7 @@ def test_a_predictor_with_three_values_is_flagged_as_codes(numeric_group):
     assert fit.x_distinct == len(np.unique(frame.dose)) == 3
     words = wording_for(stats, "y")
     notes = cautions(stats, words, {"hour": "hour"})
-    assert any(n.startswith("dose takes only 3 distinct values") and "groups" in n for n in notes)
+    assert any(n.startswith("Dose takes only 3 distinct values") and "groups" in n for n in notes)
 
 
 def test_a_text_group_and_a_measure_predictor_are_not_flagged(twelve):

@@ -43,7 +43,7 @@ from briefgen.stats.core.summary import BoxStats, Summary
 from briefgen.stats.groups import GroupResult
 
 
-def _bxp_stats(box: BoxStats) -> dict:
+def _bxp_stats(box: BoxStats, fliers: list[float]) -> dict:
     return {
         "label": box.level,
         "med": box.median,
@@ -54,8 +54,33 @@ def _bxp_stats(box: BoxStats) -> dict:
         "cilo": box.notch_low,
         "cihi": box.notch_high,
         "mean": box.mean,
-        "fliers": [v for v in box.outliers if box.axis_low <= v <= box.axis_high],
+        "fliers": fliers,
     }
+
+
+def _past_edges(box: BoxStats, lower: float, upper: float) -> tuple[list[float], int, int, bool]:
+    """The outliers to draw, the counts past the drawn edges, and whether those are exact.
+
+    The engine counts values past the cut (``axis_low``/``axis_high``), but the drawn axis
+    runs a little further to make room for the arrow, and a value in that room would fit
+    (statecrime: DC's 1,349 on an axis drawn to about 1,450). Where every value past the
+    cut on a side is among the listed outliers, they are drawn if they fit and only the
+    rest are counted. Otherwise the rows past the cut are not all known to the figure, so
+    the engine's count stands and the caption says where the axis is cut.
+    """
+    fliers = [v for v in box.outliers if box.axis_low <= v <= box.axis_high]
+    low_listed = [v for v in box.outliers if v < box.axis_low]
+    high_listed = [v for v in box.outliers if v > box.axis_high]
+    low_known = len(low_listed) == box.beyond_axis_low
+    high_known = len(high_listed) == box.beyond_axis_high
+    below, above = box.beyond_axis_low, box.beyond_axis_high
+    if low_known:
+        fliers += [v for v in low_listed if v >= lower]
+        below = sum(1 for v in low_listed if v < lower)
+    if high_known:
+        fliers += [v for v in high_listed if v <= upper]
+        above = sum(1 for v in high_listed if v > upper)
+    return fliers, below, above, low_known and high_known
 
 
 # Room kept past each end of the box axis for an arrow and its count (share of the range),
@@ -65,7 +90,7 @@ _PAD = 0.04
 
 
 def _mark_edges(
-    axes, boxes: list[BoxStats], positions: list[int], lower: float, upper: float
+    axes, counts: list[tuple[int, int]], positions: list[int], lower: float, upper: float
 ) -> int:
     """Arrows at the axis edge with the exact count of values past it (counted by the engine).
 
@@ -74,10 +99,10 @@ def _mark_edges(
     means panel beside it.
     """
     marked = 0
-    for box, y in zip(boxes, positions, strict=True):
+    for (below, above), y in zip(counts, positions, strict=True):
         sides = (
-            (box.beyond_axis_low, lower, "<", "left", 5),
-            (box.beyond_axis_high, upper, ">", "right", -5),
+            (below, lower, "<", "left", 5),
+            (above, upper, ">", "right", -5),
         )
         for count, x, marker, align, shift in sides:
             if count:
@@ -112,14 +137,16 @@ def _limits(boxes: list[BoxStats], log: bool) -> tuple[float, float]:
 
 def _draw_boxes(
     axes, boxes: list[BoxStats], positions: list[int], label: str, log: bool = False
-) -> int:
-    """Tukey boxes on a shared axis range; returns how many values lie past its edges."""
+) -> tuple[int, bool]:
+    """Tukey boxes on a shared axis range; returns how many values lie past its drawn edges,
+    and whether that count is exact for the drawn edges (else it is past the cut)."""
     lower, upper = _limits(boxes, log)
     if log:
         axes.set_xscale("log")
         plain_log_ticks(axes.xaxis)
+    resolved = [_past_edges(b, lower, upper) for b in boxes]
     axes.bxp(
-        [_bxp_stats(b) for b in boxes],
+        [_bxp_stats(b, r[0]) for b, r in zip(boxes, resolved, strict=True)],
         positions=positions,
         orientation="horizontal",
         widths=0.55,
@@ -139,12 +166,13 @@ def _draw_boxes(
         },
     )
     axes.set_xlim(lower, upper)
-    beyond_edge = _mark_edges(axes, boxes, positions, lower, upper)
+    counts = [(below, above) for _, below, above, _ in resolved]
+    beyond_edge = _mark_edges(axes, counts, positions, lower, upper)
     axes.set_yticks(positions, [short_label(b.level) for b in boxes])
     axes.set_xlabel(label)
     axes.set_title("Spread: box = middle half, line = median", fontsize=8.5, fontweight="normal")
     axes.grid(axis="y", visible=False)
-    return beyond_edge
+    return beyond_edge, all(exact for *_, exact in resolved)
 
 
 def _draw_means(
@@ -190,7 +218,7 @@ def _draw_means(
     axes.tick_params(axis="y", length=0)
 
 
-def _outlier_note(boxes: list[BoxStats], beyond_edge: int) -> str:
+def _outlier_note(boxes: list[BoxStats], beyond_edge: int, cut: str | None = None) -> str:
     """How many values are outliers, how many are drawn, and how many fall past the axis."""
     shown = sum(len(b.outliers) for b in boxes)
     total_out = sum(b.outlier_count for b in boxes)
@@ -205,7 +233,13 @@ def _outlier_note(boxes: list[BoxStats], beyond_edge: int) -> str:
         if total_out
         else "No values lie beyond the whiskers (1.5 × IQR, Tukey)."
     )
-    if beyond_edge:
+    if beyond_edge and cut:
+        note += (
+            f" {fmt_count(beyond_edge)} far-out values (more than 3 × IQR from the box) lie "
+            f"{cut}, where the box axis is cut so the boxes stay readable; an arrow at "
+            "the end of a box's line gives the count past the cut."
+        )
+    elif beyond_edge:
         note += (
             f" {fmt_count(beyond_edge)} far-out values (more than 3 × IQR from the box) lie past the "
             "edge of the box axis, which stops there so the boxes stay readable; an arrow at the end "
@@ -215,16 +249,33 @@ def _outlier_note(boxes: list[BoxStats], beyond_edge: int) -> str:
 
 
 def _caption(
-    boxes: list[BoxStats], beyond_edge: int, label: str, confidence: float, name: str
+    boxes: list[BoxStats],
+    beyond_edge: int,
+    label: str,
+    confidence: float,
+    name: str,
+    cut: str | None = None,
 ) -> str:
     """What both panels show, the size of each level, and what happened to outliers."""
     counts = ", ".join(f"{b.level} {fmt_count(b.n)}" for b in boxes)
     return (
         f"{label} by {name}. Left: Tukey box plots. Right: means with {fmt_level(confidence)} "
         f"Student t intervals; dashed line: overall mean. n per level: {counts}. "
-        f"{_outlier_note(boxes, beyond_edge)}"
+        f"{_outlier_note(boxes, beyond_edge, cut)}"
         + (f" {SHORTENED_NOTE}" if shortened(b.level for b in boxes) else "")
     )
+
+
+def _cut(boxes: list[BoxStats], exact: bool, decimals: int) -> str | None:
+    """Where the box axis is cut, when the counts are past the cut rather than the drawn edge."""
+    if exact:
+        return None
+    cuts = []
+    if any(b.beyond_axis_low for b in boxes):
+        cuts.append(f"below {fmt(boxes[0].axis_low, decimals)}")
+    if any(b.beyond_axis_high for b in boxes):
+        cuts.append(f"above {fmt(boxes[0].axis_high, decimals)}")
+    return " or ".join(cuts) or None
 
 
 def _alt(boxes: list[BoxStats], label: str, decimals: int, name: str) -> str:
@@ -288,7 +339,7 @@ def distribution_chart(
         # A clear gap between the panels, so nothing at the box panel's edge reads as a mean.
         figure.get_layout_engine().set(wspace=0.06)
         left, right = figure.subplots(1, 2, sharey=True, width_ratios=(1.35, 1))
-        beyond_edge = _draw_boxes(left, boxes, positions, label, log)
+        beyond_edge, exact = _draw_boxes(left, boxes, positions, label, log)
         _draw_means(right, level_summaries, positions, overall, label, decimals, confidence, floor)
         if log:
             right.set_xscale("log")
@@ -299,8 +350,9 @@ def distribution_chart(
         title=f"{label} by {name}",
         svg=svg,
         alt=_alt(boxes, label, decimals, name),
-        caption=_caption(boxes, beyond_edge, label, confidence, name)
+        caption=_caption(boxes, beyond_edge, label, confidence, name, _cut(boxes, exact, decimals))
         + cut_note(level_summaries, floor)
         + order_note,
         rules=(CATEGORICAL_AXIS, order, *folded, *((LOG_AXIS,) if log else ())),
+        past_edge=beyond_edge,
     )

@@ -27,7 +27,7 @@ from briefgen.figures.theme import (
     themed,
     to_svg,
 )
-from briefgen.numbers import fmt_count, fmt_level, fmt_percent
+from briefgen.numbers import fmt_count, fmt_level, fmt_share
 from briefgen.present.wording import in_sentence
 from briefgen.stats.groups import GroupResult
 from briefgen.stats.proportions import Share
@@ -89,8 +89,8 @@ def share_chart(
         svg=svg,
         alt=(
             f"Share of rows where {in_sentence(label)} is 1, for {len(shares)} levels of {name}. "
-            f"Highest: {high.level} ({fmt_percent(high.share, 1)}); "
-            f"lowest: {low.level} ({fmt_percent(low.share, 1)})."
+            f"Highest: {high.level} ({fmt_share(high.share, 1)}); "
+            f"lowest: {low.level} ({fmt_share(low.share, 1)})."
         ),
         caption=(
             f"{label} by {name}: share of rows that are 1, with {fmt_level(confidence)} Wilson "

@@ -99,6 +99,8 @@ class Chart:
     caption: str
     # Names of the chart-choice rules that shaped it (briefgen.figures.rules), for stats.json.
     rules: tuple[str, ...] = ()
+    # Values marked past the drawn edge of a box axis (box plots only), for stats.json.
+    past_edge: int | None = None
 
     @property
     def data_uri(self) -> str:

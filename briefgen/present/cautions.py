@@ -6,10 +6,11 @@ import math
 
 from briefgen.numbers import (
     fmt_count,
-    fmt_percent,
+    fmt_share,
 )
 from briefgen.present.wording import (
     Wording,
+    labelled_analysis,
 )
 from briefgen.stats import BriefStats
 from briefgen.stats.trend import Trend
@@ -29,7 +30,8 @@ CODE_LIKE_VALUES = 5
 def cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> list[str]:
     """What a reader must know before acting on the brief."""
     notes = [
-        f"{fmt_count(dropped.rows)} rows left out of {dropped.analysis}: {dropped.reason}."
+        f"{fmt_count(dropped.rows)} rows left out of "
+        f"{labelled_analysis(dropped.analysis, names)}: {dropped.reason}."
         for dropped in stats.accounting.dropped
     ]
     for group in stats.groups:
@@ -128,14 +130,16 @@ def level_cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> 
                 f"{name[:1].upper() + name[1:]} holds numbers with {fmt_count(shown.levels_in_data)} "
                 "distinct values, so as "
                 f"a group it shows {len(shown.kept)} of them and folds the rest into "
-                f"{shown.other_label} ({fmt_percent(shown.folded_share)} of rows), losing their order. "
+                f"{shown.other_label} ({fmt_share(shown.folded_share)} of rows), losing their order. "
                 f"To see how {words.lower} changes along it, list {group.variable} under predictors "
                 "in the config instead of groups."
             )
     for fit in stats.fits:
         if fit.x_distinct is not None and 1 < fit.x_distinct <= CODE_LIKE_VALUES:
+            # The label names it; the column name stays only where the reader types it.
+            name = names.get(fit.predictor, fit.predictor)
             notes.append(
-                f"{fit.predictor} takes only {fit.x_distinct} distinct values: it is likely a code or "
+                f"{name[:1].upper() + name[1:]} takes only {fit.x_distinct} distinct values: it is likely a code or "
                 "a category, and a straight line through so few values can hide the pattern between "
                 f"them. If its values are labels, list {fit.predictor} under groups in the config "
                 "instead of predictors."

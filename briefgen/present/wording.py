@@ -16,7 +16,7 @@ from briefgen.numbers import (
     fmt_interval,
     fmt_level,
     fmt_p,
-    fmt_percent,
+    fmt_share,
     p_text,
 )
 from briefgen.present.bounds import HasInterval, interval_floor, shown_interval
@@ -101,7 +101,7 @@ def signed(value: float | None, words: Wording) -> str:
 
 def share_text(value: float | None) -> str:
     """A share (0–1) as a percent with one decimal: shares of rows read in tenths of a percent."""
-    return fmt_percent(value, 1)
+    return fmt_share(value, 1)
 
 
 def points_text(value: float | None) -> str:
@@ -151,3 +151,16 @@ def label_for(spec: BriefSpec, column: str) -> str:
 def name_for(spec: BriefSpec, column: str) -> str:
     """A column's name inside a sentence: the configured label, else the name tidied."""
     return spec.labels.get(column, column.replace("_", " ").strip())
+
+
+def labelled_analysis(analysis: str, names: dict[str, str]) -> str:
+    """An analysis the row accounting names ("comparison by idp") with its columns' labels.
+
+    The engine names analyses by column (``stats.core.usage``); the brief names columns as
+    the config labels them. Only the engine's own phrasings are rewritten, whole.
+    """
+    for phrase in ("comparison by ", "relationship with ", "the table of "):
+        if analysis.startswith(phrase):
+            columns = analysis.removeprefix(phrase).split(" × ")
+            return phrase + " × ".join(names.get(c, c) for c in columns)
+    return analysis

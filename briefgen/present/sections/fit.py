@@ -10,7 +10,7 @@ from briefgen.numbers import (
     fmt,
     fmt_count,
     fmt_interval,
-    fmt_percent,
+    fmt_share,
     fmt_step,
     p_text,
     readable_step,
@@ -137,7 +137,7 @@ def _direction(
         f"The straight line {direction}: each extra {step_words} of {x_lower} goes with "
         f"{fmt(abs(slope), d)}{amount} {'more' if slope > 0 else 'less'} {measure} on average "
         f"({words.level_name} interval {fmt_interval(low, high, d)}), "
-        f"and {x_lower} accounts for {fmt_percent(fit.r_squared)} of the variation (R², {fmt_count(fit.n)} rows)."
+        f"and {x_lower} accounts for {fmt_share(fit.r_squared)} of the variation (R², {fmt_count(fit.n)} rows)."
     )
     rho = correlation.spearman_rho if correlation is not None else None
     if rho is not None:

@@ -18,6 +18,7 @@ from briefgen.figures.theme import ROW_IN, Chart, compact_row_in
 from briefgen.numbers import (
     fmt_count,
     fmt_percent,
+    fmt_share,
     p_text,
 )
 from briefgen.present.bounds import interval_floor
@@ -99,7 +100,9 @@ def group_finding(
     )
     finding = _order_finding(ordering, usable, words, name, clear)
     if by_means:
-        finding = _with_zero_shares(finding, group, comparison, usable)
+        finding = _with_zero_shares(
+            finding, group, comparison, usable, (ordering.highest, ordering.lowest)
+        )
     verdict = f"{named_test}, {adjusted_phrase(p, p_adjusted, family)}"
     certainty = (
         f"Differences this large would be unlikely if {name} made no difference ({verdict})."
@@ -162,7 +165,7 @@ def _with_confounders(
         if test.p_value >= alpha and test.kept < VANISHING:
             text = (
                 f"{finding.text} Once {other} is allowed for, the differences by {name} shrink to "
-                f"{fmt_percent(test.kept)} of their size and are no longer clear "
+                f"{fmt_share(test.kept)} of their size and are no longer clear "
                 f"({p_text(test.p_value)}): the levels of {name} differ mostly in their mix of "
                 f"{other}, the likely confounder."
             )
@@ -184,7 +187,7 @@ def _with_confounders(
     if partial:
         other, test = partial[0]
         note = (
-            f"Most of this goes with {other}: allowing for it, only {fmt_percent(test.kept)} of "
+            f"Most of this goes with {other}: allowing for it, only {fmt_share(test.kept)} of "
             f"the differences by {name} remain ({p_text(test.p_value)})."
         )
         # On page 1 too: a reader acting on the order should know the other group drives it.
@@ -209,11 +212,17 @@ def _with_nesting(finding: Finding, name: str, outers: Sequence[str]) -> Finding
 
 
 def _with_zero_shares(
-    finding: Finding, group: GroupResult, comparison: GroupComparison, usable: list[Summary]
+    finding: Finding,
+    group: GroupResult,
+    comparison: GroupComparison,
+    usable: list[Summary],
+    ends: tuple[str, str],
 ) -> Finding:
-    """A count target's sentence adds each named level's share of zeros, and why means."""
+    """A count target's sentence adds the shares of zeros of the highest and lowest level, and
+    why means. ``ends`` are those two levels, the ones the sentence names: ``finding.levels``
+    lists every level tied at the top and bottom, so its last entry need not be the lowest."""
     zeros = {s.level: s for s in group.shares}
-    named = [zeros[level] for level in finding.levels[:1] + finding.levels[-1:] if level in zeros]
+    named = [zeros[level] for level in ends if level in zeros]
     text = finding.text
     if len(named) == 2 and named[0] is not named[1]:
         text += (
@@ -280,21 +289,31 @@ def _order_finding(
     )
 
 
+def _extremes(usable: list[Summary]) -> tuple[str, str]:
+    """'higher'/'lower' between two levels, 'highest'/'lowest' among more."""
+    return ("higher", "lower") if len(usable) == 2 else ("highest", "lowest")
+
+
 def _rank_text(ordering, usable, high, low, words: Wording, name: str, ordered: bool) -> str:
     """The sentence on the rank path: medians quoted, levels placed by mean rank."""
+    high_word, low_word = _extremes(usable)
     if ordered:
         text = (
-            f"By {name}, values tend to be highest for {high.level} (median "
-            f"{words.value(high.median)}) and lowest for {low.level} (median "
+            f"By {name}, values tend to be {high_word} for {high.level} (median "
+            f"{words.value(high.median)}) and {low_word} for {low.level} (median "
             f"{words.value(low.median)}); their means are {words.value(high.mean)} and "
             f"{words.value(low.mean)}."
         )
     else:
-        medians = [s.median for s in usable if s.level in ordering.values]
+        # No order is supported, so no level is said to sit highest: the levels holding the
+        # extreme medians are named, as the table (ordered by median) shows them. Naming the
+        # top by mean rank here put West South Central first where the table had South Atlantic.
+        medians = [s for s in usable if s.level in ordering.values]
+        top = max(medians, key=lambda s: s.median)
+        bottom = min(medians, key=lambda s: s.median)
         text = (
-            f"By {name}, medians of {words.lower} range from {words.value(min(medians))} to "
-            f"{words.value(max(medians))}; by where their values fall, {high.level} sits highest "
-            f"and {low.level} lowest (means {words.value(high.mean)} and {words.value(low.mean)})."
+            f"By {name}, medians of {words.lower} range from {words.value(bottom.median)} "
+            f"({bottom.level}) to {words.value(top.median)} ({top.level})."
         )
     if high.median == low.median:
         text += (
@@ -308,9 +327,10 @@ def _mean_text(ordering, usable, high, low, words: Wording, name: str, ordered: 
     """The sentence on the means path: the gap, its widened interval when the ends are apart."""
     gap = words.value(ordering.gap)
     if ordered:
+        high_word, low_word = _extremes(usable)
         text = (
-            f"By {name}, {high.level} has the highest mean {words.lower}, "
-            f"{words.value(high.mean)}, and {low.level} the lowest, {words.value(low.mean)}: "
+            f"By {name}, {high.level} has the {high_word} mean {words.lower}, "
+            f"{words.value(high.mean)}, and {low.level} the {low_word}, {words.value(low.mean)}: "
             f"a gap of {gap}"
         )
     else:
@@ -344,6 +364,12 @@ def _order_headline(ordering, by_level, value, name, rank) -> tuple[str, str]:
             f"By {name}: levels differ in spread, not in their {'medians' if rank else 'means'}",
             "",
         )
+    if ordering.single_top and ordering.single_bottom and len(by_level) == 2:
+        # Of two levels, "highest" and "lowest" overstate: one is simply above the other.
+        return (
+            f"By {name}: {high.level} above {low.level} ({value(high)} against {value(low)})",
+            "",
+        )
     if ordering.single_top and ordering.single_bottom:
         return (
             f"By {name}: {high.level} {word} ({value(high)}), {low.level} lowest ({value(low)})",
@@ -359,6 +385,12 @@ def _order_headline(ordering, by_level, value, name, rank) -> tuple[str, str]:
         f" No single level is clearly apart from its neighbours: {listed(ordering.top)} are not "
         f"told apart at the top, {listed(ordering.bottom)} at the bottom."
     )
+    if set(ordering.top) == set(ordering.bottom) == set(ordering.values):
+        # Every level in both lists: naming them all twice says nothing the reader can use.
+        note = (
+            " In the pairwise tests no level is clearly apart from either end, and the two ends "
+            "are not clearly apart from each other."
+        )
     if ordering.ends_apart:
         return (
             f"By {name}: {high.level} above {low.level} ({value(high)} against {value(low)})",
@@ -492,7 +524,12 @@ def binary_group_finding(
         certainty = (
             f"Differences this large would be unlikely if {name} made no difference ({verdict})."
         )
-        if single_top and single_bottom:
+        if single_top and single_bottom and len(shares) == 2:
+            headline = (
+                f"By {name}: {high.level} above {low.level} ({share_text(high.share)} against "
+                f"{share_text(low.share)}), {points_text(gap)} percentage points"
+            )
+        elif single_top and single_bottom:
             headline = (
                 f"By {name}: {high.level} highest ({share_text(high.share)}), "
                 f"{low.level} lowest ({share_text(low.share)}), {points_text(gap)} percentage points"

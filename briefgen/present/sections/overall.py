@@ -30,20 +30,19 @@ def overall_finding(stats: BriefStats, words: Wording, figure: str | None = None
     if stats.overall_share is not None and words.kind in ("binary", "count"):
         return kind_overall_finding(stats, words, figure)
     o = stats.overall
+    # Page 2 prints the text and then the certainty; page 1 prints the certainty under the
+    # headline. So the mean is stated once, in the certainty, and no "it" is left to guess at.
     text = (
         f"Across {fmt_count(o.n)} rows, the typical {words.lower} is {words.value(o.median)} "
-        f"(median); half of all values lie between {words.value(o.q1)} and {words.value(o.q3)}. "
-        f"The mean is {words.value(o.mean)} ({_interval_phrase(o, words)})."
+        f"(median); half of all values lie between {words.value(o.q1)} and {words.value(o.q3)}."
     )
+    certainty = f"The mean is {words.value(o.mean)} ({_interval_phrase(o, words, STUDENT_T)})"
     if o.mean is not None and o.median is not None and o.sd and (o.mean - o.median) > 0.2 * o.sd:
-        text += " The mean sits above the median because a minority of long values pull it up."
+        certainty += ", above the median because a minority of high values pull the mean up"
     return Finding(
         headline=f"Typical {words.lower}: {words.value(o.median)} (median)",
         text=text,
-        certainty=(
-            f"Half the values lie either side of it; the mean is {words.value(o.mean)} "
-            f"({_interval_phrase(o, words, STUDENT_T)})."
-        ),
+        certainty=certainty + ".",
         figure=figure,
         key="overall",
         kind="overall",
