@@ -11,6 +11,7 @@ import numpy as np
 import pandas as pd
 import pytest
 import statsmodels.api as sm
+from census import CENSUS_DIVISIONS
 from constructed import brief_for, findings_by_key
 
 from briefgen.figures.distribution import _cut, _limits, _past_edges, distribution_chart
@@ -121,54 +122,6 @@ def test_zero_shares_are_for_the_two_levels_the_headline_names(tmp_path):
         f"Values are 0 in {100 * zeros[high]:.1f}% of rows for 0.0327869 and "
         f"{100 * zeros[low]:.1f}% for 0.12982."
     )
-
-
-# US Census Bureau, "Census Regions and Divisions of the United States" (nine divisions).
-CENSUS_DIVISIONS = {
-    "New England": (
-        "Connecticut",
-        "Maine",
-        "Massachusetts",
-        "New Hampshire",
-        "Rhode Island",
-        "Vermont",
-    ),
-    "Middle Atlantic": ("New Jersey", "New York", "Pennsylvania"),
-    "East North Central": ("Illinois", "Indiana", "Michigan", "Ohio", "Wisconsin"),
-    "West North Central": (
-        "Iowa",
-        "Kansas",
-        "Minnesota",
-        "Missouri",
-        "Nebraska",
-        "North Dakota",
-        "South Dakota",
-    ),
-    "South Atlantic": (
-        "Delaware",
-        "District of Columbia",
-        "Florida",
-        "Georgia",
-        "Maryland",
-        "North Carolina",
-        "South Carolina",
-        "Virginia",
-        "West Virginia",
-    ),
-    "East South Central": ("Alabama", "Kentucky", "Mississippi", "Tennessee"),
-    "West South Central": ("Arkansas", "Louisiana", "Oklahoma", "Texas"),
-    "Mountain": (
-        "Arizona",
-        "Colorado",
-        "Idaho",
-        "Montana",
-        "Nevada",
-        "New Mexico",
-        "Utah",
-        "Wyoming",
-    ),
-    "Pacific": ("Alaska", "California", "Hawaii", "Oregon", "Washington"),
-}
 
 
 def test_unordered_levels_name_the_extreme_medians_as_the_table_does(tmp_path):

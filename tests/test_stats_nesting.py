@@ -14,6 +14,7 @@ import numpy as np
 import pandas as pd
 import pytest
 import statsmodels.formula.api as smf
+from census import CENSUS_DIVISIONS, REGION_OF
 from constructed import brief_for, findings_by_key
 from scipy import stats as scipy_stats
 from statsmodels.stats.anova import anova_lm
@@ -23,62 +24,6 @@ from briefgen.present.family import family_sentence
 from briefgen.render import render_json
 from briefgen.stats.twoway import nesting
 
-# US Census Bureau, "Census Regions and Divisions of the United States" (reference map,
-# www2.census.gov/geo/pdfs/maps-data/maps/reference/us_regdiv.pdf): four regions, nine
-# divisions, each division wholly within one region. Written out from that map (from
-# memory of it); the 51 states and DC below are every row of statecrime.
-CENSUS_DIVISIONS = {
-    "New England": (
-        "Connecticut",
-        "Maine",
-        "Massachusetts",
-        "New Hampshire",
-        "Rhode Island",
-        "Vermont",
-    ),
-    "Middle Atlantic": ("New Jersey", "New York", "Pennsylvania"),
-    "East North Central": ("Illinois", "Indiana", "Michigan", "Ohio", "Wisconsin"),
-    "West North Central": (
-        "Iowa",
-        "Kansas",
-        "Minnesota",
-        "Missouri",
-        "Nebraska",
-        "North Dakota",
-        "South Dakota",
-    ),
-    "South Atlantic": (
-        "Delaware",
-        "District of Columbia",
-        "Florida",
-        "Georgia",
-        "Maryland",
-        "North Carolina",
-        "South Carolina",
-        "Virginia",
-        "West Virginia",
-    ),
-    "East South Central": ("Alabama", "Kentucky", "Mississippi", "Tennessee"),
-    "West South Central": ("Arkansas", "Louisiana", "Oklahoma", "Texas"),
-    "Mountain": (
-        "Arizona",
-        "Colorado",
-        "Idaho",
-        "Montana",
-        "Nevada",
-        "New Mexico",
-        "Utah",
-        "Wyoming",
-    ),
-    "Pacific": ("Alaska", "California", "Hawaii", "Oregon", "Washington"),
-}
-CENSUS_REGIONS = {  # same source
-    "Northeast": ("New England", "Middle Atlantic"),
-    "Midwest": ("East North Central", "West North Central"),
-    "South": ("South Atlantic", "East South Central", "West South Central"),
-    "West": ("Mountain", "Pacific"),
-}
-REGION_OF = {d: region for region, divisions in CENSUS_REGIONS.items() for d in divisions}
 PREDICTORS = ["poverty", "hs_grad", "single", "white", "urban"]
 
 
