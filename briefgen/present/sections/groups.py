@@ -141,7 +141,7 @@ def _with_small_levels(
     named = listed(tuple(f"{level} (n = {fmt_count(n)})" for level, n in small))
     note = (
         f"{named} {'is a small group' if len(small) == 1 else 'are small groups'}: "
-        f"a few more rows could move {'its figures' if len(small) == 1 else 'theirs'} a lot."
+        f"a few more rows could move {'its' if len(small) == 1 else 'their'} figures a lot."
     )
     return replace(finding, certainty=f"{finding.certainty} {note}")
 
