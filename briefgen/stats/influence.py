@@ -28,7 +28,6 @@ terms (the same rounding the engine applied), in Python: no second pass.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from decimal import ROUND_HALF_UP, Decimal
 from fractions import Fraction
 
 import ibis
@@ -154,8 +153,8 @@ def slope_without(
     if n < 2:
         return None
     scale_x, scale_y = scales
-    dx = _fixed(x - refs[f"x_ref{i}"], scale_x)
-    dy = _fixed(y - refs[f"y_ref{i}"], scale_y)
+    dx = scale_x.quantised(x - refs[f"x_ref{i}"])
+    dy = scale_y.quantised(y - refs[f"y_ref{i}"])
     left = {
         "sx": values["sx"] - dx,
         "sy": values["sy"] - dy,
@@ -165,13 +164,3 @@ def slope_without(
     }
     sxx, sxy, _ = centred_pair(left, n)
     return float(sxy / sxx) if sxx > 0 else None
-
-
-def _fixed(deviation: float, scale: FixedPoint) -> Fraction:
-    """The value the engine summed for one deviation: round(d · 2^k) / 2^k, ties away from 0.
-
-    Same float subtraction and exact power-of-two product as ``FixedPoint.quantise``;
-    SQL ROUND takes ties away from zero, as ROUND_HALF_UP does on the exact product.
-    """
-    q = int(Decimal(deviation * scale.factor).quantize(Decimal(1), rounding=ROUND_HALF_UP))
-    return Fraction(q) / Fraction(2) ** scale.exponent

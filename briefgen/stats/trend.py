@@ -291,9 +291,11 @@ def lag1_autocorrelation(series: np.ndarray) -> float | None:
     The sample autocorrelation at lag 1 as Box, Jenkins & Reinsel define it (Time
     Series Analysis, 4th ed. 2008, §2.1.5), the same as statsmodels' ``acf``.
     """
+    if len(series) < 2:
+        return None
     centred = series - math.fsum(series.tolist()) / len(series)
     total = _dot(centred, centred)
-    if len(series) < 2 or total <= 0:
+    if total <= 0:
         return None
     return _dot(centred[:-1], centred[1:]) / total
 

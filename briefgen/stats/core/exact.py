@@ -28,7 +28,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from decimal import Decimal
+from decimal import ROUND_HALF_UP, Decimal
 from fractions import Fraction
 
 import ibis
@@ -105,6 +105,15 @@ class FixedPoint:
         only for the rows it was taken over (a value beyond it could overflow).
         """
         return quantise(value, ibis.literal(self.factor, dt.float64), where)
+
+    def quantised(self, value: float) -> Fraction:
+        """``quantise`` of one Python float, as the engine computes it: round(v · 2^k) / 2^k.
+
+        The same exact power-of-two product, rounded half away from zero as SQL ROUND is;
+        for taking one row's terms back out of an engine's exact sums.
+        """
+        q = int(Decimal(value * self.factor).quantize(Decimal(1), rounding=ROUND_HALF_UP))
+        return Fraction(q) / Fraction(2) ** self.exponent
 
 
 def quantise(
