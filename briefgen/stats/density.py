@@ -24,7 +24,7 @@ from briefgen.stats.core.analysis import one_row
 from briefgen.stats.core.frame import AnalysisFrame
 from briefgen.stats.core.quantiles import narrowed_quantiles, narrowing
 from briefgen.stats.core.usage import RowUsage
-from briefgen.stats.histogram import WHOLE_NUMBER_LIMIT
+from briefgen.stats.histogram import WHOLE_NUMBER_LIMIT, whole_number_edges
 
 # Common practice, no published source: bins about 4 mm wide across a 6.7 in plot and
 # as tall over about 2 in, coarse enough to count many rows each, fine enough to show shape.
@@ -79,21 +79,15 @@ def _edges(low: float, high: float, bins: int, log: bool = False) -> np.ndarray:
 
 
 def _whole_edges(low: float, high: float, bins: int, from_top: bool = False) -> np.ndarray:
-    """Edges at k − 0.5 for whole numbers from ``low`` to ``high``, at most ``bins`` bins.
+    """The histogram's whole-number edges (``whole_number_edges``) over ``low`` … ``high``.
 
-    The width is the smallest whole number that fits, as in the histogram, so each
-    whole number lies inside one bin and every bin holds as many: bins 1.05 wide over
+    Each whole number lies inside one bin and every bin holds as many: bins 1.05 wide over
     0 … 21 would put 0 and 1 in one row of cells and every other value alone.
     ``from_top`` ends the last bin at ``high`` + 0.5 (a clipped axis stops there), so
     the first may reach below ``low``.
     """
-    lo, hi = int(low), int(high)
-    span = hi - lo + 1
-    width = -(-span // bins)
-    steps = np.arange(-(-span // width) + 1, dtype=float)
-    if from_top:
-        return hi + 0.5 - width * steps[::-1]
-    return lo - 0.5 + width * steps
+    edges, _, _ = whole_number_edges(low, high, bins)
+    return edges - (edges[-1] - (int(high) + 0.5)) if from_top else edges
 
 
 def _value_edges(both, x: str) -> np.ndarray:
