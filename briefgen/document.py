@@ -27,7 +27,7 @@ from briefgen.present.sections.groups import group_sections
 from briefgen.present.sections.overall import kind_note, overall_section
 from briefgen.present.sections.since import SinceSection, column_notice, since_section
 from briefgen.present.sections.trend import trend_section
-from briefgen.present.wording import Wording, in_sentence, label_for, name_for, wording_for
+from briefgen.present.wording import Wording, in_sentence, label_for, name_for, opening, wording_for
 from briefgen.stats import BriefStats
 from briefgen.tables import (
     Table,
@@ -182,7 +182,7 @@ def method_notes(stats: BriefStats, spec: BriefSpec) -> tuple[str, ...]:
     for nested in stats.nestings:
         inner, outer = name_for(spec, nested.inner), name_for(spec, nested.outer)
         notes.append(
-            f"{inner[:1].upper()}{inner[1:]} is nested in {outer}: a two-way table of the two "
+            f"{opening(inner)} is nested in {outer}: a two-way table of the two "
             f"would have one filled cell per level of {inner}, so no table is drawn and no "
             "interaction is tested for that pair."
         )

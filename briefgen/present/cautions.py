@@ -11,6 +11,7 @@ from briefgen.numbers import (
 from briefgen.present.wording import (
     Wording,
     labelled_analysis,
+    opening,
 )
 from briefgen.stats import BriefStats
 from briefgen.stats.trend import Trend
@@ -119,7 +120,7 @@ def level_cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> 
         if shown.numeric and shown.other_label is None and _fractional(shown.kept):
             name = names.get(group.variable, group.variable)
             notes.append(
-                f"{name[:1].upper() + name[1:]} holds numbers with fractions "
+                f"{opening(name)} holds numbers with fractions "
                 f"({fmt_count(shown.levels_in_data)} distinct values), and each is compared as a "
                 f"group of its own, in no order. If it is a measure, list {group.variable} under "
                 "predictors in the config instead of groups."
@@ -127,7 +128,7 @@ def level_cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> 
         if shown.numeric and shown.other_label is not None:
             name = names.get(group.variable, group.variable)
             notes.append(
-                f"{name[:1].upper() + name[1:]} holds numbers with {fmt_count(shown.levels_in_data)} "
+                f"{opening(name)} holds numbers with {fmt_count(shown.levels_in_data)} "
                 "distinct values, so as "
                 f"a group it shows {len(shown.kept)} of them and folds the rest into "
                 f"{shown.other_label} ({fmt_share(shown.folded_share)} of rows), losing their order. "
@@ -139,7 +140,7 @@ def level_cautions(stats: BriefStats, words: Wording, names: dict[str, str]) -> 
             # The label names it; the column name stays only where the reader types it.
             name = names.get(fit.predictor, fit.predictor)
             notes.append(
-                f"{name[:1].upper() + name[1:]} takes only {fit.x_distinct} distinct values: it is likely a code or "
+                f"{opening(name)} takes only {fit.x_distinct} distinct values: it is likely a code or "
                 "a category, and a straight line through so few values can hide the pattern between "
                 f"them. If its values are labels, list {fit.predictor} under groups in the config "
                 "instead of predictors."
@@ -154,6 +155,6 @@ def _fractional(levels: tuple[str, ...]) -> bool:
             value = float(level)
         except ValueError:
             continue
-        if value != int(value) if abs(value) < 2**53 else False:
+        if math.isfinite(value) and not value.is_integer():
             return True
     return False

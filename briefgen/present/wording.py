@@ -144,7 +144,11 @@ def label_for(spec: BriefSpec, column: str) -> str:
     """A column's name as a heading: the configured label, else the name tidied and capitalised."""
     if column in spec.labels:
         return spec.labels[column]
-    text = column.replace("_", " ").strip()
+    return opening(column.replace("_", " ").strip())
+
+
+def opening(text: str) -> str:
+    """``text`` as a sentence's first word: its first letter capitalised, the rest as written."""
     return text[:1].upper() + text[1:]
 
 

@@ -15,6 +15,7 @@ from briefgen.present.section import Section
 from briefgen.present.wording import (
     Wording,
     name_for,
+    opening,
     points_text,
     share_text,
 )
@@ -88,12 +89,12 @@ def cross_finding(
     }.get(cross.interaction.scale, "")
     if standout.stands_out and family.passes(cross.key):
         text = (
-            f"{pair[:1].upper() + pair[1:]} averages {value_of(standout.mean)} (n = {fmt_count(standout.n)}), {excess} against "
+            f"{opening(pair)} averages {value_of(standout.mean)} (n = {fmt_count(standout.n)}), {excess} against "
             f"the {value_of(standout.expected)} that its {row_name} and its {column_name} predict "
             f"added together ({words.level_name} interval of the difference {interval})."
         )
         return Finding(
-            headline=f"{pair[:1].upper() + pair[1:]} stands out ({excess} beyond its parts)",
+            headline=f"{opening(pair)} stands out ({excess} beyond its parts)",
             text=text,
             certainty=(
                 f"The combination itself matters, beyond each part{scale}; that says where, not why."

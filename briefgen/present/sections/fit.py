@@ -23,6 +23,7 @@ from briefgen.present.wording import (
     Wording,
     adjusted_phrase,
     in_sentence,
+    opening,
 )
 from briefgen.stats import BriefStats
 from briefgen.stats.correlation import Correlation
@@ -296,7 +297,7 @@ def _confounded_finding(found, fit, words, x_lower, names, text, data, scale, pe
             f"{x_lower} and {words.lower}: within a level, no clear link remains."
         ),
         certainty=(
-            f"{group[:1].upper() + group[1:]} is the likely confounder, unless its levels are "
+            f"{opening(group)} is the likely confounder, unless its levels are "
             f"themselves defined by {x_lower}; either way, read the levels separately."
         ),
         claim="explained",
